@@ -1,0 +1,256 @@
+"""The change list: a maintainer's planned changes, loaded from TOML and validated."""
+
+from __future__ import annotations
+
+import enum
+import hashlib
+import os
+import re
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Mapping
+
+from packaging.specifiers import InvalidSpecifier, SpecifierSet
+from packaging.version import InvalidVersion, Version
+
+
+class ChangeListError(ValueError):
+    """A change list that cannot be used; the message names the file, the entry and the fix."""
+
+
+class Kind(str, enum.Enum):
+    REMOVED = "removed"
+    RENAMED = "renamed"
+    MOVED = "moved"
+    PARAMETER_REMOVED = "parameter-removed"
+    PARAMETER_RENAMED = "parameter-renamed"
+    DEFAULT_CHANGED = "default-changed"
+    BEHAVIOUR_CHANGED = "behaviour-changed"
+
+    @property
+    def about_parameter(self) -> bool:
+        return self in (Kind.PARAMETER_REMOVED, Kind.PARAMETER_RENAMED, Kind.DEFAULT_CHANGED)
+
+
+_DOTTED = re.compile(r"[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-9_]*)*\Z")
+_IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
+_LIBRARY_KEYS = {"name", "release", "requires_python", "source", "import_name"}
+_CHANGE_KEYS = {
+    "id", "member", "kind", "replacement", "parameter", "new_parameter",
+    "position", "deprecated_in", "note",
+}
+_TOP_KEYS = {"library", "types", "change"}
+
+
+@dataclass(frozen=True)
+class Change:
+    id: str
+    member: str
+    kind: Kind
+    replacement: str | None = None
+    parameter: str | None = None
+    new_parameter: str | None = None
+    position: int | None = None
+    deprecated_in: Version | None = None
+    note: str = ""
+
+    @property
+    def name(self) -> str:
+        """The member's own last name (what a reference spells at the site)."""
+        return self.member.rsplit(".", 1)[-1]
+
+
+@dataclass(frozen=True)
+class ChangeList:
+    library: str
+    import_name: str
+    changes: tuple[Change, ...]
+    release: Version | None = None
+    requires_python: SpecifierSet | None = None
+    source: Path | None = None
+    types: Mapping[str, str] = field(default_factory=dict)
+    digest: str = ""
+
+    @property
+    def top_modules(self) -> frozenset[str]:
+        """Top-level import names a downstream file must mention to be affected."""
+        tops = {c.member.split(".", 1)[0] for c in self.changes}
+        tops.add(self.import_name)
+        return frozenset(tops)
+
+    def by_id(self, change_id: str) -> Change:
+        for change in self.changes:
+            if change.id == change_id:
+                return change
+        raise KeyError(change_id)
+
+
+def load_change_list(path: str | os.PathLike[str]) -> ChangeList:
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise ChangeListError(f"{p}: change list not found; pass the path of a TOML change list") from None
+    except OSError as exc:
+        raise ChangeListError(f"{p}: cannot read the change list ({exc.strerror})") from None
+    return parse_change_list(raw, p)
+
+
+def parse_change_list(raw: bytes, path: Path) -> ChangeList:
+    where = str(path)
+    try:
+        data = tomllib.loads(raw.decode("utf-8"))
+    except UnicodeDecodeError as exc:
+        raise ChangeListError(f"{where}: not UTF-8 text (byte {exc.start}); save the change list as UTF-8") from None
+    except tomllib.TOMLDecodeError as exc:
+        # tomllib's message already carries "(at line N, column M)".
+        raise ChangeListError(f"{where}: invalid TOML: {exc}") from None
+
+    unknown = set(data) - _TOP_KEYS
+    if unknown:
+        raise ChangeListError(
+            f"{where}: unknown top-level key(s) {', '.join(sorted(unknown))}; "
+            f"allowed are [library], [types] and [[change]]"
+        )
+    library = data.get("library")
+    if not isinstance(library, dict) or not isinstance(library.get("name"), str) or not library["name"]:
+        raise ChangeListError(f'{where}: [library] needs a name, e.g. [library]\\nname = "heronframe"')
+    bad = set(library) - _LIBRARY_KEYS
+    if bad:
+        raise ChangeListError(
+            f"{where}: [library] has unknown key(s) {', '.join(sorted(bad))}; "
+            f"allowed are {', '.join(sorted(_LIBRARY_KEYS))}"
+        )
+    name = library["name"]
+    import_name = library.get("import_name", name.replace("-", "_"))
+    if not isinstance(import_name, str) or not _IDENT.match(import_name):
+        raise ChangeListError(f"{where}: [library] import_name {import_name!r} is not a Python identifier")
+    release = _version(library.get("release"), f"{where}: [library] release")
+    requires_python = None
+    if "requires_python" in library:
+        try:
+            requires_python = SpecifierSet(str(library["requires_python"]))
+        except InvalidSpecifier:
+            raise ChangeListError(
+                f"{where}: [library] requires_python {library['requires_python']!r} is not a PEP 440 "
+                f'specifier; write e.g. ">=3.9"'
+            ) from None
+    source = None
+    if "source" in library:
+        if not isinstance(library["source"], str):
+            raise ChangeListError(f"{where}: [library] source must be a path string")
+        source = (path.parent / library["source"]).resolve()
+
+    types = _types(data.get("types", {}), where)
+    entries = data.get("change", [])
+    if not isinstance(entries, list) or not entries:
+        raise ChangeListError(f"{where}: no [[change]] entries; add at least one [[change]] table")
+    changes: list[Change] = []
+    seen: dict[str, int] = {}
+    for index, entry in enumerate(entries):
+        change = _change(entry, index, where)
+        if change.id in seen:
+            raise ChangeListError(
+                f"{where}: [[change]] #{index + 1} (id {change.id!r}): duplicate id, also used by "
+                f"[[change]] #{seen[change.id] + 1}; give each change a unique id"
+            )
+        seen[change.id] = index
+        changes.append(change)
+    return ChangeList(
+        library=name,
+        import_name=import_name,
+        changes=tuple(changes),
+        release=release,
+        requires_python=requires_python,
+        source=source,
+        types=types,
+        digest=hashlib.sha256(raw).hexdigest(),
+    )
+
+
+def _version(value: Any, what: str) -> Version | None:
+    if value is None:
+        return None
+    try:
+        return Version(str(value))
+    except InvalidVersion:
+        raise ChangeListError(f"{what} {value!r} is not a PEP 440 version; write e.g. \"3.0\"") from None
+
+
+def _types(table: Any, where: str) -> dict[str, str]:
+    if not isinstance(table, dict):
+        raise ChangeListError(f"{where}: [types] must be a table of \"dotted.name\" = \"dotted.Class\"")
+    out: dict[str, str] = {}
+    for key, value in table.items():
+        if not _DOTTED.match(key) or not isinstance(value, str) or not _DOTTED.match(value):
+            raise ChangeListError(
+                f"{where}: [types] entry {key!r} = {value!r}: both sides must be dotted names, "
+                f'e.g. "heronframe.read_table" = "heronframe.Table"'
+            )
+        out[key] = value
+    return out
+
+
+def _change(entry: Any, index: int, where: str) -> Change:
+    label = f"{where}: [[change]] #{index + 1}"
+    if not isinstance(entry, dict):
+        raise ChangeListError(f"{label}: must be a table")
+    if isinstance(entry.get("id"), str):
+        label += f" (id {entry['id']!r})"
+    unknown = set(entry) - _CHANGE_KEYS
+    if unknown:
+        raise ChangeListError(
+            f"{label}: unknown key(s) {', '.join(sorted(unknown))}; allowed are {', '.join(sorted(_CHANGE_KEYS))}"
+        )
+    member = entry.get("member")
+    if not isinstance(member, str) or not _DOTTED.match(member):
+        raise ChangeListError(f'{label}: member must be a fully dotted name, e.g. member = "heronframe.Table.stack_rows"')
+    kind_text = entry.get("kind")
+    try:
+        kind = Kind(kind_text)
+    except ValueError:
+        raise ChangeListError(
+            f"{label}: unknown kind {kind_text!r}; use one of {', '.join(k.value for k in Kind)}"
+        ) from None
+    change_id = entry.get("id", member)
+    if not isinstance(change_id, str) or not change_id:
+        raise ChangeListError(f"{label}: id must be a non-empty string")
+
+    def text(key: str) -> str | None:
+        value = entry.get(key)
+        if value is not None and not isinstance(value, str):
+            raise ChangeListError(f"{label}: {key} must be a string")
+        return value
+
+    replacement = text("replacement")
+    if replacement is not None and not _DOTTED.match(replacement):
+        raise ChangeListError(f"{label}: replacement {replacement!r} must be a dotted name")
+    if kind in (Kind.RENAMED, Kind.MOVED) and replacement is None:
+        raise ChangeListError(f"{label}: kind {kind.value!r} needs a replacement (the new dotted name)")
+    parameter = text("parameter")
+    new_parameter = text("new_parameter")
+    if kind.about_parameter:
+        if parameter is None or not _IDENT.match(parameter):
+            raise ChangeListError(f"{label}: kind {kind.value!r} needs parameter = \"<name>\"")
+    elif parameter is not None:
+        raise ChangeListError(f"{label}: parameter applies only to parameter-* and default-changed kinds")
+    if kind is Kind.PARAMETER_RENAMED and (new_parameter is None or not _IDENT.match(new_parameter)):
+        raise ChangeListError(f"{label}: kind 'parameter-renamed' needs new_parameter = \"<new name>\"")
+    position = entry.get("position")
+    if position is not None:
+        if not kind.about_parameter:
+            raise ChangeListError(f"{label}: position applies only to parameter-* and default-changed kinds")
+        if isinstance(position, bool) or not isinstance(position, int) or position < 0:
+            raise ChangeListError(f"{label}: position must be a whole number >= 0 (0-based, self excluded)")
+    return Change(
+        id=change_id,
+        member=member,
+        kind=kind,
+        replacement=replacement,
+        parameter=parameter,
+        new_parameter=new_parameter,
+        position=position,
+        deprecated_in=_version(entry.get("deprecated_in"), f"{label}: deprecated_in"),
+        note=text("note") or "",
+    )

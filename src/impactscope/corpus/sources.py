@@ -1,0 +1,414 @@
+"""Turn the bytes of a corpus file into Python source text, cell by cell.
+
+A `.py` file is decoded as the interpreter would (PEP 263). A notebook is read
+with nbformat, and each code cell has its IPython-only syntax (magics, shell
+escapes, help queries) rewritten into plain Python by IPython's own input
+transformer, keeping line numbers, so that later steps can parse it. Nothing
+here imports, compiles or runs the code being read.
+"""
+
+from __future__ import annotations
+
+import io
+import keyword
+import re
+import tokenize
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Literal
+
+if TYPE_CHECKING:  # IPython is slow to import; only notebooks need it.
+    from IPython.core.inputtransformer2 import TransformerManager
+
+__all__ = [
+    "CodeCell",
+    "PYTHON_CELL_MAGICS",
+    "Source",
+    "SourceError",
+    "decode_python",
+    "looks_like_python2",
+    "read_notebook",
+    "read_python",
+]
+
+# Cell magics whose body is ordinary Python that IPython runs in the user
+# namespace (timing, profiling, output capture, debugging, subprocess Python).
+# Any other cell magic holds another language or data, so its cell is skipped.
+PYTHON_CELL_MAGICS = frozenset(
+    {"time", "timeit", "capture", "prun", "debug", "memit", "mprun", "python", "python3", "px"}
+)
+
+
+class SourceError(ValueError):
+    """A file whose text cannot be had: undecodable bytes or an unreadable notebook.
+
+    `reason` is a short, stable key for totals ("encoding" or "invalid notebook");
+    `detail` says where and why, for people.
+    """
+
+    def __init__(self, reason: str, detail: str) -> None:
+        super().__init__(reason, detail)
+        self.reason = reason
+        self.detail = detail
+
+    def __str__(self) -> str:
+        return f"{self.reason}: {self.detail}"
+
+
+@dataclass(frozen=True)
+class CodeCell:
+    """One unit of Python text to parse.
+
+    `index` is the position in the notebook's `cells` list (nbformat v4
+    numbering), or None for a module. Line `n` of `code` is line
+    `n + first_line - 1` of the original cell.
+    """
+
+    index: int | None
+    code: str
+    first_line: int = 1
+
+
+@dataclass(frozen=True)
+class Source:
+    """The Python text of one corpus file."""
+
+    path: str
+    kind: Literal["module", "notebook"]
+    cells: tuple[CodeCell, ...]
+    skipped_cells: tuple[tuple[int, str], ...] = ()
+
+
+# --------------------------------------------------------------------------- .py
+
+
+def _normalise_newlines(text: str) -> str:
+    return text.replace("\r\n", "\n").replace("\r", "\n")
+
+
+def decode_python(data: bytes, path: str) -> str:
+    """Decode a `.py` file the way the interpreter does (PEP 263).
+
+    A UTF-8 BOM, or a coding comment on line 1 or 2, names the encoding; the
+    default is UTF-8. The standard library's `tokenize.detect_encoding` does
+    the detection, so the answer matches the interpreter's. Newlines become
+    `\\n`. Raises SourceError("encoding", ...) for an unknown codec or bytes
+    the codec cannot decode.
+    """
+    try:
+        encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
+    except SyntaxError as exc:
+        raise SourceError("encoding", f"{path}: {exc.msg}") from None
+    try:
+        text = data.decode(encoding)
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        raise SourceError(
+            "encoding",
+            f"{path}: line {line}: byte 0x{data[exc.start]:02x} is not valid {encoding}; "
+            "declare the file's real encoding in a coding comment (PEP 263)",
+        ) from None
+    except LookupError as exc:  # a codec that exists but is not a text encoding
+        raise SourceError("encoding", f"{path}: {exc}") from None
+    if encoding == "utf-8-sig":
+        text = text.removeprefix("\ufeff")
+    return _normalise_newlines(text)
+
+
+def read_python(data: bytes, path: str) -> Source:
+    """Read a `.py` module as a Source with one cell."""
+    return Source(path, "module", (CodeCell(None, decode_python(data, path), 1),))
+
+
+# ---------------------------------------------------------------------- notebooks
+
+
+def read_notebook(data: bytes, path: str) -> Source:
+    """Read a Jupyter notebook's code cells as Python.
+
+    The notebook is read and upgraded to v4 exactly as `nbformat.reads(text,
+    as_version=4)` does, minus its schema validation, which only logs and is
+    slow on big notebooks: real notebooks often break the schema in ways that
+    do not matter here. Cells of a notebook whose kernel language is set and
+    is not Python are all skipped ("non-python kernel").
+    """
+    import nbformat  # noqa: PLC0415 - only notebooks need it
+    import nbformat.reader  # noqa: PLC0415
+
+    try:
+        text = data.decode("utf-8-sig")  # JSON is UTF-8 (RFC 8259)
+    except UnicodeDecodeError as exc:
+        raise SourceError(
+            "encoding", f"{path}: byte 0x{data[exc.start]:02x} at offset {exc.start} is not UTF-8"
+        ) from None
+    try:
+        notebook = nbformat.convert(nbformat.reader.reads(text), 4)
+        raw_cells = notebook["cells"]
+        metadata = notebook.get("metadata") or {}
+        if not isinstance(raw_cells, list) or not isinstance(metadata, dict):
+            raise TypeError("'cells' must be a list and 'metadata' an object")
+    # Malformed JSON reaches nbformat's readers and converters as arbitrary
+    # shapes, and they fail with whatever error the shape provokes.
+    except Exception as exc:  # noqa: BLE001
+        raise SourceError("invalid notebook", f"{path}: {_first_line(str(exc))}") from None
+
+    language = _kernel_language(metadata)
+    foreign = language is not None and not language.lower().startswith(("python", "ipython"))
+    manager: TransformerManager | None = None
+    cells: list[CodeCell] = []
+    skipped: list[tuple[int, str]] = []
+    for index, cell in enumerate(raw_cells):
+        if not isinstance(cell, dict) or cell.get("cell_type") != "code":
+            continue
+        source = cell.get("source", "")
+        if isinstance(source, list) and all(isinstance(part, str) for part in source):
+            source = "".join(source)
+        if not isinstance(source, str):
+            skipped.append((index, "invalid cell source"))
+            continue
+        if foreign:
+            skipped.append((index, "non-python kernel"))
+            continue
+        if manager is None:
+            manager = _transformer()
+        result = _python_cell(_normalise_newlines(source), manager)
+        if isinstance(result, str):
+            skipped.append((index, result))
+        else:
+            code, first_line = result
+            cells.append(CodeCell(index, code, first_line))
+    return Source(path, "notebook", tuple(cells), tuple(skipped))
+
+
+def _first_line(message: str) -> str:
+    return message.strip().splitlines()[0] if message.strip() else "unreadable notebook"
+
+
+def _kernel_language(metadata: dict[str, object]) -> str | None:
+    for key, field in (("kernelspec", "language"), ("language_info", "name")):
+        section = metadata.get(key)
+        if isinstance(section, dict):
+            value = section.get(field)
+            if isinstance(value, str) and value.strip():
+                return value.strip()
+    return None
+
+
+def _transformer() -> TransformerManager:
+    from IPython.core.inputtransformer2 import TransformerManager  # noqa: PLC0415
+
+    return TransformerManager()
+
+
+# ------------------------------------------------------------ IPython cell syntax
+
+_CELL_MAGIC = re.compile(r"[ \t]*%%(\S*)")
+
+
+def _python_cell(source: str, manager: TransformerManager) -> tuple[str, int] | str:
+    """Plain Python for one notebook cell, or the reason it holds none.
+
+    Returns `(code, first_line)`, where line 1 of `code` is line `first_line`
+    of the cell, or a skip reason such as "cell magic %%bash".
+    """
+    lines = source.split("\n")
+    # IPython drops leading blank lines before it looks for a cell magic.
+    start = next((i for i, line in enumerate(lines) if line.strip()), None)
+    if start is None:
+        return source, 1
+    magic = _CELL_MAGIC.match(lines[start])
+    if magic is None:
+        return _transform(source, manager), 1
+    name = magic.group(1)
+    if name not in PYTHON_CELL_MAGICS:
+        return f"cell magic %%{name}"
+    # The body may itself start with a cell magic (`%%time` over `%%capture`).
+    inner = _python_cell("\n".join(lines[start + 1 :]), manager)
+    if isinstance(inner, str):
+        return inner
+    code, first_line = inner
+    return code, first_line + start + 1
+
+
+def _count_lines(text: str) -> int:
+    return text.count("\n") + (0 if text.endswith("\n") else 1)
+
+
+def _transform(source: str, manager: TransformerManager) -> str:
+    """IPython's rewrite of `source`, with every line kept on its own line number."""
+    try:
+        code = manager.transform_cell(source)
+    # The transformer tokenizes arbitrary text; on input it cannot handle,
+    # keep the original so that the parse step reports it.
+    except Exception:  # noqa: BLE001
+        return source
+    if _count_lines(code) == _count_lines(source):
+        return code
+    return _transform_by_line(source, manager)
+
+
+# A line that only IPython accepts: a magic, shell escape or help query, an
+# assignment from one (`files = !ls`), or a trailing `?` help query.
+_IPYTHON_LINE = re.compile(
+    r"""[ \t]*(?:
+        [%!?]
+      | [\w.]+(?:[ \t]*,[ \t]*[\w.]+)*[ \t]*=[ \t]*[%!]
+      | [^\W\d][\w.]*[ \t]*\?\??[ \t]*$
+    )""",
+    re.VERBOSE,
+)
+
+
+def _transform_by_line(source: str, manager: TransformerManager) -> str:
+    """Rewrite IPython-only lines one at a time, so the line count cannot change.
+
+    Used when the whole-cell rewrite joined or split lines (for example a shell
+    escape continued with a backslash). Each IPython-only statement becomes
+    its one-line rewrite (or `pass`) at the same indentation, and the physical
+    lines it continued onto become blank.
+    """
+    lines = source.split("\n")
+    out: list[str] = []
+    index = 0
+    while index < len(lines):
+        line = lines[index]
+        if not _IPYTHON_LINE.match(line):
+            out.append(line)
+            index += 1
+            continue
+        end = index
+        while lines[end].endswith("\\") and end + 1 < len(lines):
+            end += 1
+        indent = line[: len(line) - len(line.lstrip())]
+        statement = "\n".join(lines[index : end + 1]).strip()
+        try:
+            rewritten = manager.transform_cell(statement).strip()
+        except Exception:  # noqa: BLE001 - see _transform
+            rewritten = ""
+        if not rewritten or "\n" in rewritten:
+            rewritten = "pass"
+        out.append(indent + rewritten)
+        out.extend("" for _ in range(end - index))
+        index = end + 1
+    return "\n".join(out)
+
+
+# --------------------------------------------------------------------- Python 2
+
+# A small lexer rather than `tokenize`: from Python 3.12 `tokenize` stops at
+# the first token the 3.x grammar rejects, and those tokens are the evidence.
+_TOKEN = re.compile(
+    r"""
+    (?P<space>[ \t\f]+|\\\r?\n|\\\r)
+  | (?P<comment>\#[^\r\n]*)
+  | (?P<newline>\r\n|\r|\n)
+  | (?P<string>(?P<prefix>[rRbBuUfF]{0,2})
+        (?:'''(?:\\.|[^\\])*?'''|\"\"\"(?:\\.|[^\\])*?\"\"\"
+          |'(?:\\.|[^\\'\r\n])*'|"(?:\\.|[^\\"\r\n])*"))
+  | (?P<number>
+        0[xX](?:_?[0-9a-fA-F])+[lL]?
+      | 0[oO](?:_?[0-7])+
+      | 0[bB](?:_?[01])+
+      | (?:\d(?:_?\d)*(?:\.(?:\d(?:_?\d)*)?)?|\.\d(?:_?\d)*)(?:[eE][-+]?\d(?:_?\d)*)?[jJlL]?)
+  | (?P<name>[^\W\d]\w*)
+  | (?P<op>\*\*=?|//=?|>>=?|<<=?|<>|->|:=|\.\.\.|[-+*/%&|^@=!<>]=?|[~()\[\]{},:;.`])
+  | (?P<other>.)
+    """,
+    re.VERBOSE | re.DOTALL,
+)
+_OPEN, _CLOSE = frozenset("([{"), frozenset(")]}")
+_PY2_OCTAL = re.compile(r"0[0-7]*[1-7][0-7]*[lL]?")
+
+
+@dataclass(frozen=True)
+class _Token:
+    kind: str
+    text: str
+    depth: int  # bracket depth before the token
+
+
+def _logical_lines(text: str) -> Iterator[list[_Token]]:
+    line: list[_Token] = []
+    depth = 0
+    for match in _TOKEN.finditer(text):
+        kind = match.lastgroup
+        assert kind is not None
+        if kind in ("space", "comment"):
+            continue
+        if kind == "newline":
+            if depth == 0 and line:
+                yield line
+                line = []
+            continue
+        token_text = match.group(kind)
+        if kind == "string":
+            token_text = match.group("prefix")  # only the prefix matters
+        line.append(_Token(kind, token_text, depth))
+        if kind == "op" and token_text in _OPEN:
+            depth += 1
+        elif kind == "op" and token_text in _CLOSE:
+            depth = max(depth - 1, 0)
+    if line:
+        yield line
+
+
+def _statements(line: list[_Token]) -> Iterator[list[_Token]]:
+    """Split a logical line at top-level `;` and `:` (so `if x: print y` splits)."""
+    start = 0
+    for index, token in enumerate(line):
+        if token.kind == "op" and token.depth == 0 and token.text in (";", ":"):
+            yield line[start : index + 1]
+            start = index + 1
+    if start < len(line):
+        yield line[start:]
+
+
+def _is_operand(token: _Token) -> bool:
+    """A token that cannot follow a bare name in Python 3 (`print x`, `exec "s"`)."""
+    if token.kind in ("string", "number"):
+        return True
+    if token.kind == "name":
+        return not keyword.iskeyword(token.text)
+    return token.kind == "op" and token.text == "`"
+
+
+def _top_level_comma(tokens: list[_Token]) -> bool:
+    return any(t.kind == "op" and t.text == "," and t.depth == 0 for t in tokens)
+
+
+def _python2_statement(tokens: list[_Token]) -> bool:
+    head = tokens[0]
+    if head.kind != "name":
+        return False
+    if head.text in ("print", "exec"):
+        return len(tokens) > 1 and _is_operand(tokens[1])
+    if head.text in ("except", "raise"):  # `except E, e:` / `raise E, "msg"`
+        return _top_level_comma(tokens[1:])
+    return False
+
+
+def _python2_token(token: _Token, flufl: bool) -> bool:
+    if token.kind == "string":
+        return token.text.lower() == "ur"
+    if token.kind == "number":
+        return token.text[-1] in "lL" or _PY2_OCTAL.fullmatch(token.text) is not None
+    if token.kind == "op":
+        return token.text == "`" or (token.text == "<>" and not flufl)
+    return False
+
+
+def looks_like_python2(text: str) -> bool:
+    """Whether text that failed to parse shows syntax only Python 2 accepts.
+
+    Looks, outside strings and comments, for print and exec statements,
+    `except E, e:`, `raise E, "msg"`, backquote repr, `<>`, `ur""` literals,
+    `0777` octal and `10L` long literals. Every one of these is a syntax error
+    in Python 3, so valid Python 3 code is never reported.
+    """
+    flufl = "barry_as_FLUFL" in text  # the one __future__ import that enables `<>`
+    for line in _logical_lines(text):
+        if any(_python2_token(token, flufl) for token in line):
+            return True
+        if any(_python2_statement(statement) for statement in _statements(line)):
+            return True
+    return False

@@ -1,0 +1,88 @@
+"""Aggregate the store into the report document (DESIGN.md's JSON keys, plus additions)."""
+
+from __future__ import annotations
+
+from collections import Counter
+from typing import Any
+
+import pandas as pd
+
+from impactscope.findings import Confidence
+from impactscope.store import ResultStore
+
+LEVELS = (Confidence.RESOLVED, Confidence.INFERRED, Confidence.POSSIBLE)
+
+
+def build_report(store: ResultStore) -> dict[str, Any]:
+    changes = store.change_list()
+    projects = store.projects()
+    findings = store.findings()
+    file_rows = list(store.files())
+
+    status = Counter(outcome.status for _, outcome in file_rows)
+    reasons: Counter[tuple[str, str]] = Counter(
+        (outcome.status, outcome.reason or "") for _, outcome in file_rows if outcome.status != "parsed"
+    )
+    totals = {
+        "projects": len(projects),
+        "projects_using_library": sum(p.uses_library for p in projects),
+        "files": len(file_rows),
+        "files_parsed": status["parsed"],
+        "files_skipped": status["skipped"],
+        "files_unparsed": status["unparsed"],
+    }
+    frame = pd.DataFrame(
+        [(f.project, f.file, f.change, int(f.confidence), f.pattern) for f in findings],
+        columns=["project", "file", "change", "confidence", "pattern"],
+    )
+    out_changes = []
+    for change in changes.changes:
+        rows = frame[frame["change"] == change.id]
+        counts = {
+            level.label: int(rows[rows["confidence"] >= int(level)]["project"].nunique()) for level in LEVELS
+        }
+        patterns = []
+        if not rows.empty:
+            grouped = rows.groupby("pattern").agg(projects=("project", "nunique"), sites=("project", "size"))
+            grouped = grouped.reset_index().sort_values(["projects", "sites", "pattern"], ascending=[False, False, True])
+            patterns = [
+                {"pattern": r.pattern, "projects": int(r.projects), "sites": int(r.sites)}
+                for r in grouped.itertuples(index=False)
+            ]
+        out_changes.append(
+            {
+                "id": change.id,
+                "member": change.member,
+                "kind": change.kind.value,
+                "replacement": change.replacement,
+                "note": change.note,
+                "projects": counts,
+                "sites": int(len(rows)),
+                "files": int(rows[["project", "file"]].drop_duplicates().shape[0]) if not rows.empty else 0,
+                "patterns": patterns,
+            }
+        )
+    affected = frame["project"].nunique() if not frame.empty else 0
+    meta = store.meta()
+    return {
+        "library": changes.library,
+        "release": str(changes.release) if changes.release else None,
+        "complete": meta.get("complete") == "1",
+        "totals": totals,
+        "file_reasons": [
+            {"status": s, "reason": r, "files": n} for (s, r), n in sorted(reasons.items())
+        ],
+        "projects_affected": int(affected),
+        "changes": out_changes,
+        "findings": [f.to_json() for f in findings],
+        "files_by_project": _per_project(file_rows),
+    }
+
+
+def _per_project(file_rows: list) -> dict[str, dict[str, int]]:
+    out: dict[str, dict[str, int]] = {}
+    for project, outcome in file_rows:
+        row = out.setdefault(project, {"files": 0, "parsed": 0, "skipped": 0, "unparsed": 0})
+        row["files"] += 1
+        row[outcome.status] += 1
+    return out

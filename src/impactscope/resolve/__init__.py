@@ -1,0 +1,1 @@
+"""Resolution of downstream references to library members: bindings, scopes, type flow, matching."""

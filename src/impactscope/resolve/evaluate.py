@@ -1,0 +1,803 @@
+"""Follow bindings through one module (or one notebook's cells) and collect library references.
+
+The walk is flow-sensitive: statements run in order, branches are merged with `values.join`,
+and function bodies run once, lazily, when first called or at the end of their scope, so they
+see the bindings a real call would see. It only collects; matching and positions come later.
+"""
+
+from __future__ import annotations
+
+import builtins
+from dataclasses import dataclass, field
+from typing import Callable, Iterable, Protocol, Sequence
+
+import libcst as cst
+from libcst.helpers import get_full_name_for_node
+
+from impactscope.resolve.query import Query
+from impactscope.resolve.values import (
+    UNKNOWN,
+    Foreign,
+    Inst,
+    Lib,
+    ProjMod,
+    Super,
+    UserClass,
+    UserFunc,
+    UserInst,
+    Value,
+    join,
+)
+
+_BUILTINS = frozenset(dir(builtins))
+_PROPERTY_DECORATORS = frozenset({"builtins.property", "functools.cached_property"})
+_FIRST_PARAM_METHODS = frozenset({"method", "property"})
+
+
+@dataclass(frozen=True)
+class CallShape:
+    """How a call passes its arguments, literals elided."""
+
+    positional: int  # positional arguments before the first `*args`
+    star: bool
+    starstar: bool
+    keywords: tuple[str, ...]
+
+    def render(self) -> str:
+        parts = ["_"] * self.positional
+        if self.star:
+            parts.append("*_")
+        parts.extend(f"{k}=_" for k in self.keywords)
+        if self.starstar:
+            parts.append("**_")
+        return "(" + ", ".join(parts) + ")"
+
+
+@dataclass
+class Ref:
+    """A reference collected in a module: resolved (`name`) or on an unknown receiver (`attr`)."""
+
+    cell: int | None
+    node: cst.CSTNode
+    context: str  # import | use | subclass | decorator | annotation | override
+    name: str | None = None
+    attr: str | None = None
+    receiver: str = ""  # how the member was reached, for patterns: dotted, <Class>, super, ?
+    bound: bool = False
+    call: CallShape | None = None
+    import_text: str = ""
+
+
+class ProjectView(Protocol):
+    """What a module's analysis asks of the project around it."""
+
+    def find_module(self, dotted: str, importer: str) -> str | None: ...
+
+    def export(self, module: str, name: str) -> Value: ...
+
+    def star_exports(self, module: str) -> dict[str, Value]: ...
+
+    def module_uses_library(self, module: str) -> bool: ...
+
+    def is_module(self, dotted: str) -> bool: ...
+
+
+class Scope:
+    __slots__ = ("kind", "parent", "names", "globals", "nonlocals", "pending", "owner", "returns")
+
+    def __init__(self, kind: str, parent: "Scope | None", owner: UserClass | None = None) -> None:
+        self.kind = kind  # module | function | class | comprehension
+        self.parent = parent
+        self.names: dict[str, Value] = {}
+        self.globals: set[str] = set()
+        self.nonlocals: set[str] = set()
+        self.pending: list[UserFunc] = []
+        self.owner = owner  # the user class a method belongs to, for super() and self
+        self.returns: list[Value] = []
+
+    def module(self) -> "Scope":
+        s = self
+        while s.parent is not None:
+            s = s.parent
+        return s
+
+    def function_home(self) -> "Scope":
+        """Nearest scope that can own deferred function bodies (not a class or comprehension)."""
+        s = self
+        while s.kind in ("class", "comprehension") and s.parent is not None:
+            s = s.parent
+        return s
+
+
+@dataclass
+class ModuleResult:
+    refs: list[Ref] = field(default_factory=list)
+    uses_library: bool = False
+    exports: dict[str, Value] = field(default_factory=dict)
+
+
+class ModuleEvaluator:
+    """Runs one module's cells in order in one module scope."""
+
+    def __init__(
+        self, query: Query, project: ProjectView, module: str, is_package: bool, path: str, importer: str
+    ) -> None:
+        self.q = query
+        self.importer = importer  # the package or script directory imports are looked up from
+        self.project = project
+        self.module = module
+        self.is_package = is_package
+        self.path = path
+        self.result = ModuleResult()
+        self.scope = Scope("module", None)
+        self.cell: int | None = None
+        self._last: tuple[cst.CSTNode, Ref] | None = None
+
+    # ------------------------------------------------------------------ driving
+    def run(self, cells: Iterable[tuple[int | None, cst.Module]]) -> ModuleResult:
+        for index, module in cells:
+            self.cell = index
+            self.block(module.body, self.scope)
+        self._flush(self.scope)
+        self.result.exports = self.scope.names
+        return self.result
+
+    def _flush(self, scope: Scope) -> None:
+        while scope.pending:
+            func = scope.pending.pop(0)
+            self.returns_of(func)
+
+    # ------------------------------------------------------------------ names
+    def lookup(self, scope: Scope, name: str) -> Value:
+        if name in scope.globals:
+            return self.scope.names.get(name, self._builtin(name))
+        s: Scope | None = scope
+        first = True
+        while s is not None:
+            if s.kind == "class" and not first:
+                s = s.parent
+                continue
+            if name in s.names:
+                return s.names[name]
+            first = False
+            s = s.parent
+        return self._builtin(name)
+
+    @staticmethod
+    def _builtin(name: str) -> Value:
+        if name in _BUILTINS:
+            return Foreign("builtins." + name)
+        return UNKNOWN
+
+    def bind(self, scope: Scope, name: str, value: Value) -> None:
+        if name in scope.globals:
+            self.scope.names[name] = value
+            return
+        if name in scope.nonlocals:
+            s = scope.parent
+            while s is not None and s.kind != "module":
+                if s.kind == "function" and name in s.names:
+                    s.names[name] = value
+                    return
+                s = s.parent
+        scope.names[name] = value
+
+    # ------------------------------------------------------------------ references
+    def _ref(self, node: cst.CSTNode, context: str, **kw: object) -> Ref:
+        ref = Ref(cell=self.cell, node=node, context=context, **kw)  # type: ignore[arg-type]
+        self.result.refs.append(ref)
+        return ref
+
+    # ------------------------------------------------------------------ statements
+    def block(self, stmts: Sequence[cst.BaseStatement] | Sequence[cst.BaseSmallStatement], scope: Scope) -> None:
+        for stmt in stmts:
+            self.stmt(stmt, scope)
+
+    def suite(self, body: cst.BaseSuite, scope: Scope) -> None:
+        self.block(body.body, scope)  # IndentedBlock and SimpleStatementSuite both hold `.body`
+
+    def stmt(self, s: cst.CSTNode, scope: Scope) -> None:
+        if isinstance(s, cst.SimpleStatementLine):
+            for small in s.body:
+                self.small(small, scope)
+        elif isinstance(s, cst.BaseSmallStatement):
+            self.small(s, scope)
+        elif isinstance(s, cst.FunctionDef):
+            self.function_def(s, scope)
+        elif isinstance(s, cst.ClassDef):
+            self.class_def(s, scope)
+        elif isinstance(s, cst.If):
+            self.expr(s.test, scope)
+            self.branches(scope, [lambda: self.suite(s.body, scope), lambda: s.orelse and self.stmt(s.orelse, scope)])
+        elif isinstance(s, cst.Else):
+            self.suite(s.body, scope)
+        elif isinstance(s, cst.For):
+            self.expr(s.iter, scope)
+            self.loop(scope, s.body, s.orelse, lambda: self.assign(s.target, UNKNOWN, scope))
+        elif isinstance(s, cst.While):
+            self.expr(s.test, scope)
+            self.loop(scope, s.body, s.orelse, None)
+        elif isinstance(s, (cst.Try, cst.TryStar)):
+            self.try_stmt(s, scope)
+        elif isinstance(s, cst.With):
+            for item in s.items:
+                value = self.expr(item.item, scope)
+                if item.asname is not None:
+                    entered = value if isinstance(value, (Inst, UserInst)) else UNKNOWN
+                    self.assign(item.asname.name, entered, scope)
+            self.suite(s.body, scope)
+        elif isinstance(s, cst.Match):
+            self.expr(s.subject, scope)
+            arms = [self._case(case, scope) for case in s.cases]
+            self.branches(scope, arms + [lambda: None])
+        else:
+            self.generic(s, scope)
+
+    def _case(self, case: cst.MatchCase, scope: Scope) -> Callable[[], None]:
+        def run() -> None:
+            self.generic(case.pattern, scope)
+            if case.guard is not None:
+                self.expr(case.guard, scope)
+            self.suite(case.body, scope)
+
+        return run
+
+    def branches(self, scope: Scope, arms: Sequence[Callable[[], object]]) -> None:
+        before = dict(scope.names)
+        merged: dict[str, Value] | None = None
+        for arm in arms:
+            scope.names = dict(before)
+            arm()
+            merged = scope.names if merged is None else _merge(merged, scope.names)
+        scope.names = merged if merged is not None else before
+
+    def loop(self, scope: Scope, body: cst.BaseSuite, orelse: cst.Else | None, bind_target: Callable[[], None] | None) -> None:
+        before = dict(scope.names)
+        if bind_target is not None:
+            bind_target()
+        self.suite(body, scope)
+        if orelse is not None:
+            self.suite(orelse.body, scope)
+        scope.names = _merge(before, scope.names)
+
+    def try_stmt(self, s: cst.Try | cst.TryStar, scope: Scope) -> None:
+        before = dict(scope.names)
+        self.suite(s.body, scope)
+        if s.orelse is not None:
+            self.suite(s.orelse.body, scope)
+        after_body = scope.names
+        merged = after_body
+        for handler in s.handlers:
+            scope.names = _merge(before, after_body)
+            if handler.type is not None:
+                self.expr(handler.type, scope)
+            if handler.name is not None:
+                self.assign(handler.name.name, UNKNOWN, scope)
+            self.suite(handler.body, scope)
+            merged = _merge(merged, scope.names)
+        scope.names = merged
+        if s.finalbody is not None:
+            self.suite(s.finalbody.body, scope)
+
+    def small(self, s: cst.BaseSmallStatement, scope: Scope) -> None:
+        if isinstance(s, cst.Expr):
+            self.expr(s.value, scope)
+        elif isinstance(s, cst.Assign):
+            value = self.expr(s.value, scope)
+            for target in s.targets:
+                self.assign(target.target, value, scope)
+        elif isinstance(s, cst.AnnAssign):
+            declared = self.annotation(s.annotation.annotation, scope, record=True)
+            value = self.expr(s.value, scope) if s.value is not None else UNKNOWN
+            if value is UNKNOWN and declared is not None:
+                value = declared
+            if s.value is not None or isinstance(s.target, cst.Name):
+                self.assign(s.target, value, scope)
+        elif isinstance(s, cst.AugAssign):
+            self.expr(s.target, scope)
+            self.expr(s.value, scope)
+            if isinstance(s.target, cst.Name):
+                self.bind(scope, s.target.value, UNKNOWN)
+        elif isinstance(s, cst.Import):
+            self.import_stmt(s, scope)
+        elif isinstance(s, cst.ImportFrom):
+            self.import_from(s, scope)
+        elif isinstance(s, cst.Return):
+            value = self.expr(s.value, scope) if s.value is not None else Foreign("builtins.None")
+            scope.function_home().returns.append(value)
+        elif isinstance(s, cst.Del):
+            self.delete(s.target, scope)
+        elif isinstance(s, cst.Global):
+            scope.globals.update(n.name.value for n in s.names)
+        elif isinstance(s, cst.Nonlocal):
+            scope.nonlocals.update(n.name.value for n in s.names)
+        else:
+            self.generic(s, scope)
+
+    def delete(self, target: cst.BaseExpression, scope: Scope) -> None:
+        if isinstance(target, cst.Name):
+            self.bind(scope, target.value, UNKNOWN)
+        elif isinstance(target, (cst.Tuple, cst.List)):
+            for el in target.elements:
+                self.delete(el.value, scope)
+        else:
+            self.expr(target, scope)
+
+    def assign(self, target: cst.BaseExpression, value: Value, scope: Scope) -> None:
+        if isinstance(target, cst.Name):
+            self.bind(scope, target.value, value)
+        elif isinstance(target, (cst.Tuple, cst.List)):
+            for el in target.elements:
+                inner = el.value
+                self.assign(inner.value if isinstance(inner, cst.StarredElement) else inner, UNKNOWN, scope)
+        elif isinstance(target, cst.StarredElement):
+            self.assign(target.value, UNKNOWN, scope)
+        elif isinstance(target, cst.Attribute):
+            receiver = self.expr(target.value, scope, record=not isinstance(target.value, (cst.Name, cst.Attribute)))
+            if isinstance(receiver, UserInst):
+                cls = receiver.cls
+                cls.attrs[target.attr.value] = join(cls.attrs.get(target.attr.value, UNKNOWN), value)
+            else:
+                self._attribute_ref(target, receiver, scope)
+        else:
+            self.expr(target, scope)
+
+    # ------------------------------------------------------------------ imports
+    def import_stmt(self, s: cst.Import, scope: Scope) -> None:
+        for alias in s.names:
+            dotted = get_full_name_for_node(alias.name) or ""
+            if self.q.is_library_module(dotted):
+                self.result.uses_library = True
+                self._ref(alias, "import", name=dotted, import_text=f"import {dotted}")
+                value: Value = Lib(dotted)
+                top: Value = Lib(dotted.split(".")[0])
+            else:
+                found = self.project.find_module(dotted, self.importer)
+                if found is not None:
+                    if self.project.module_uses_library(found):
+                        self.result.uses_library = True
+                    value = ProjMod(found)
+                    top_name = found[: len(found) - len(dotted)] + dotted.split(".")[0] if found.endswith(dotted) else found
+                    top = ProjMod(top_name)
+                else:
+                    value = Foreign(dotted)
+                    top = Foreign(dotted.split(".")[0])
+            if alias.asname is not None:
+                self.assign(alias.asname.name, value, scope)
+            else:
+                self.bind(scope, dotted.split(".")[0], top)
+
+    def _package(self, level: int) -> str:
+        parts = self.module.split(".")
+        if not self.is_package:
+            parts = parts[:-1]
+        if level > 1:
+            parts = parts[: len(parts) - (level - 1)] if level - 1 <= len(parts) else []
+        return ".".join(parts)
+
+    def import_from(self, s: cst.ImportFrom, scope: Scope) -> None:
+        level = len(s.relative)
+        written = get_full_name_for_node(s.module) if s.module is not None else ""
+        written = written or ""
+        if level:
+            base = self._package(level)
+            dotted = ".".join(p for p in (base, written) if p)
+            project_mod: str | None = dotted  # relative imports always stay inside the project
+        else:
+            dotted = written
+            project_mod = None
+        if not level and self.q.is_library_module(dotted):
+            self.result.uses_library = True
+            if isinstance(s.names, cst.ImportStar):
+                self._ref(s.names, "import", name=dotted, import_text=f"from {dotted} import *")
+                for name in self.q.model.star_names(dotted) or ():
+                    self.bind(scope, name, Lib(f"{dotted}.{name}"))
+                return
+            for alias in s.names:
+                name = get_full_name_for_node(alias.name) or ""
+                full = f"{dotted}.{name}"
+                self._ref(alias, "import", name=full, import_text=f"from {dotted} import {name}")
+                self.assign(alias.asname.name if alias.asname else alias.name, Lib(full), scope)
+            return
+        if project_mod is None:
+            project_mod = self.project.find_module(dotted, self.importer)
+        if project_mod is not None:
+            if project_mod and self.project.module_uses_library(project_mod):
+                self.result.uses_library = True
+            if isinstance(s.names, cst.ImportStar):
+                for name, value in self.project.star_exports(project_mod).items():
+                    self.bind(scope, name, value)
+                return
+            for alias in s.names:
+                name = get_full_name_for_node(alias.name) or ""
+                sub = f"{project_mod}.{name}" if project_mod else name
+                if self._is_project_module(sub):
+                    if self.project.module_uses_library(sub):
+                        self.result.uses_library = True
+                    value: Value = ProjMod(sub)
+                else:
+                    value = self.project.export(project_mod, name)
+                self.assign(alias.asname.name if alias.asname else alias.name, value, scope)
+            return
+        if isinstance(s.names, cst.ImportStar):
+            return
+        for alias in s.names:
+            name = get_full_name_for_node(alias.name) or ""
+            self.assign(alias.asname.name if alias.asname else alias.name, Foreign(f"{dotted}.{name}"), scope)
+
+    def _is_project_module(self, dotted: str) -> bool:
+        return self.project.is_module(dotted)
+
+    # ------------------------------------------------------------------ definitions
+    def function_def(self, node: cst.FunctionDef, scope: Scope) -> None:
+        kind = "method" if scope.kind == "class" else "function"
+        wrapped_by_library = False
+        for deco in node.decorators:
+            value = self.expr(deco.decorator, scope, context="decorator")
+            name = value.name if isinstance(value, Foreign) else None
+            if name in ("builtins.staticmethod",):
+                kind = "staticmethod"
+            elif name in ("builtins.classmethod",):
+                kind = "classmethod"
+            elif name in _PROPERTY_DECORATORS or (
+                isinstance(deco.decorator, cst.Attribute) and deco.decorator.attr.value in ("setter", "getter", "deleter")
+            ):
+                kind = "property" if scope.kind == "class" else kind
+            elif isinstance(value, Lib):
+                wrapped_by_library = True
+        params = node.params
+        for p in (*params.posonly_params, *params.params, *params.kwonly_params):
+            if p.default is not None:
+                self.expr(p.default, scope)
+        declared: dict[str, Value] = {}
+        for p in _all_params(params):
+            if p.annotation is not None:
+                t = self.annotation(p.annotation.annotation, scope, record=True)
+                if t is not None:
+                    declared[p.name.value] = t
+        if node.returns is not None:
+            returns_decl = self.annotation(node.returns.annotation, scope, record=True)
+        else:
+            returns_decl = None
+        func = UserFunc(node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind)
+        func.declared = declared  # type: ignore[attr-defined]
+        func.returns_decl = returns_decl  # type: ignore[attr-defined]
+        scope.function_home().pending.append(func)
+        self.bind(scope, node.name.value, UNKNOWN if wrapped_by_library else func)
+
+    def returns_of(self, func: UserFunc) -> Value:
+        if func.state == "done":
+            return func.returns
+        if func.state == "running":
+            return UNKNOWN
+        func.state = "running"
+        assert isinstance(func.node, cst.FunctionDef)
+        fscope = Scope("function", func.scope, owner=func.owner)  # type: ignore[arg-type]
+        declared: dict[str, Value] = getattr(func, "declared", {})
+        positional = [*func.node.params.posonly_params, *func.node.params.params]
+        for i, p in enumerate(_all_params(func.node.params)):
+            value: Value = declared.get(p.name.value, UNKNOWN)
+            if i == 0 and p in positional and func.owner is not None:
+                if func.kind in _FIRST_PARAM_METHODS:
+                    value = UserInst(func.owner)
+                elif func.kind == "classmethod":
+                    value = func.owner
+            fscope.names[p.name.value] = value
+        self.suite(func.node.body, fscope)
+        self._flush(fscope)
+        result: Value = UNKNOWN
+        for r in fscope.returns:
+            result = join(result, r)
+        decl = getattr(func, "returns_decl", None)
+        if result is UNKNOWN and decl is not None:
+            result = decl
+        func.returns = result
+        func.state = "done"
+        return result
+
+    def class_def(self, node: cst.ClassDef, scope: Scope) -> None:
+        for deco in node.decorators:
+            self.expr(deco.decorator, scope, context="decorator")
+        lib_bases: list[str] = []
+        user_bases: list[UserClass] = []
+        for arg in node.bases:
+            value = self.expr(arg.value, scope, context="subclass")
+            if isinstance(value, Lib):
+                lib_bases.append(value.name)
+            elif isinstance(value, UserClass):
+                user_bases.append(value)
+        for kw in node.keywords:
+            self.expr(kw.value, scope)
+        cls = UserClass(name=node.name.value, lib_bases=tuple(lib_bases), user_bases=tuple(user_bases))
+        body = Scope("class", scope, owner=cls)
+        self.suite(node.body, body)
+        cls.members.update(body.names)
+        ancestry = cls.all_lib_bases()
+        if ancestry:
+            for stmt in _body_statements(node.body):
+                if isinstance(stmt, cst.FunctionDef):
+                    for base in ancestry:
+                        self._ref(stmt.name, "override", name=f"{base}.{stmt.name.value}", receiver=base)
+        # __init__ (and unittest's setUp) first, so attributes they set are known to the other methods.
+        home = scope.function_home()
+        mine = [f for f in home.pending if f.owner is cls]
+        if mine:
+            rest = [f for f in home.pending if f.owner is not cls]
+            mine.sort(key=lambda f: 0 if f.node.name.value in ("__init__", "setUp", "__post_init__") else 1)  # type: ignore[union-attr]
+            home.pending[:] = rest + mine
+        self.bind(scope, node.name.value, cls)
+
+    def annotation(self, expr: cst.BaseExpression, scope: Scope, record: bool) -> Value | None:
+        """The instance type an annotation declares, if it names a library or user class."""
+        if isinstance(expr, cst.SimpleString):
+            try:
+                inner = cst.parse_expression(expr.evaluated_value if isinstance(expr.evaluated_value, str) else "")
+            except (cst.ParserSyntaxError, Exception):  # noqa: BLE001 - any unparsable string is just text
+                return None
+            return self.annotation(inner, scope, record=False)
+        if isinstance(expr, cst.BinaryOperation) and isinstance(expr.operator, cst.BitOr):
+            left = self.annotation(expr.left, scope, record)
+            right = self.annotation(expr.right, scope, record)
+            return left or right
+        if isinstance(expr, cst.Subscript):
+            head = self.expr(expr.value, scope, record=record, context="annotation")
+            head_name = head.name if isinstance(head, (Foreign, Lib)) else None
+            found: Value | None = None
+            for el in expr.slice:
+                if isinstance(el.slice, cst.Index):
+                    t = self.annotation(el.slice.value, scope, record)
+                    if found is None and t is not None and head_name in (
+                        "typing.Optional", "typing.Union", "typing.Annotated", "typing_extensions.Annotated",
+                    ):
+                        found = t
+                else:
+                    self.generic(el.slice, scope)
+            return found
+        if isinstance(expr, (cst.Name, cst.Attribute)):
+            value = self.expr(expr, scope, record=record, context="annotation")
+            if isinstance(value, Lib):
+                return Inst(value.name)
+            if isinstance(value, UserClass):
+                return UserInst(value)
+            return None
+        if record:
+            self.expr(expr, scope)
+        return None
+
+    # ------------------------------------------------------------------ expressions
+    def expr(self, node: cst.BaseExpression, scope: Scope, record: bool = True, context: str = "use") -> Value:
+        if isinstance(node, cst.Name):
+            return self._name(node, scope, record, context)
+        if isinstance(node, cst.Attribute):
+            inner_chain = isinstance(node.value, (cst.Name, cst.Attribute))
+            receiver = self.expr(node.value, scope, record=not inner_chain)
+            return self._attribute_ref(node, receiver, scope, record, context)
+        if isinstance(node, cst.Call):
+            return self.call(node, scope)
+        if isinstance(node, (cst.SimpleString, cst.Integer, cst.Float, cst.Imaginary, cst.Ellipsis)):
+            return Foreign("literal")
+        if isinstance(node, (cst.ConcatenatedString, cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
+            self.generic(node, scope)
+            return Foreign("literal")
+        if isinstance(node, (cst.ListComp, cst.SetComp, cst.DictComp, cst.GeneratorExp)):
+            self.comprehension(node, scope)
+            return Foreign("literal")
+        if isinstance(node, cst.Lambda):
+            self.lambda_expr(node, scope)
+            return Foreign("lambda")
+        if isinstance(node, cst.IfExp):
+            self.expr(node.test, scope)
+            return join(self.expr(node.body, scope), self.expr(node.orelse, scope))
+        if isinstance(node, cst.BooleanOperation):
+            return join(self.expr(node.left, scope), self.expr(node.right, scope))
+        if isinstance(node, cst.NamedExpr):
+            value = self.expr(node.value, scope)
+            target_scope = scope
+            while target_scope.kind == "comprehension" and target_scope.parent is not None:
+                target_scope = target_scope.parent
+            self.assign(node.target, value, target_scope)
+            return value
+        self.generic(node, scope)
+        return UNKNOWN
+
+    def _name(self, node: cst.Name, scope: Scope, record: bool, context: str) -> Value:
+        if node.value == "None":
+            return UNKNOWN  # a placeholder that is usually rebound later: it tells nothing
+        if node.value in ("True", "False"):
+            return Foreign("literal")
+        value = self.lookup(scope, node.value)
+        if record and isinstance(value, Lib):
+            ref = self._ref(node, context, name=value.name, receiver=value.name.rpartition(".")[0], bound=value.bound)
+            self._last = (node, ref)
+        return value
+
+    def _attribute_ref(
+        self, node: cst.Attribute, receiver: Value, scope: Scope, record: bool = True, context: str = "use"
+    ) -> Value:
+        attr = node.attr.value
+        value, how = self.attribute(receiver, attr)
+        if isinstance(value, Lib) and record:
+            ref = self._ref(node.attr, context, name=value.name, receiver=how, bound=value.bound)
+            self._last = (node, ref)
+        elif receiver is UNKNOWN and attr in self.q.names:
+            ref = self._ref(node.attr, context, attr=attr, receiver="?")
+            self._last = (node, ref)
+        return value
+
+    def attribute(self, receiver: Value, attr: str) -> tuple[Value, str]:
+        """The value of `receiver.attr`, and how a pattern should name the receiver."""
+        if isinstance(receiver, Lib):
+            return Lib(f"{receiver.name}.{attr}", bound=receiver.bound), receiver.name
+        if isinstance(receiver, Inst):
+            return Lib(f"{receiver.cls}.{attr}", bound=True), f"<{receiver.cls}>"
+        if isinstance(receiver, ProjMod):
+            sub = f"{receiver.name}.{attr}"
+            if self._is_project_module(sub):
+                return ProjMod(sub), ""
+            return self.project.export(receiver.name, attr), ""
+        if isinstance(receiver, (UserClass, UserInst)):
+            cls = receiver if isinstance(receiver, UserClass) else receiver.cls
+            found = cls.lookup(attr)
+            if found is not None:
+                if isinstance(receiver, UserInst) and isinstance(found, UserFunc) and found.kind == "property":
+                    return self.returns_of(found), ""
+                return found, ""
+            bases = cls.all_lib_bases()
+            if bases:
+                return Lib(f"{bases[0]}.{attr}", bound=isinstance(receiver, UserInst)), f"<{bases[0]}>"
+            return Foreign(None), ""
+        if isinstance(receiver, Super):
+            for base in receiver.cls.user_bases:
+                found = base.lookup(attr)
+                if found is not None:
+                    return found, ""
+            bases = receiver.cls.all_lib_bases()
+            if bases:
+                return Lib(f"{bases[0]}.{attr}", bound=True), f"super(<{bases[0]}>)"
+            return Foreign(None), ""
+        if isinstance(receiver, Foreign):
+            return Foreign(f"{receiver.name}.{attr}" if receiver.name and receiver.name != "literal" else None), ""
+        if isinstance(receiver, UserFunc):
+            return Foreign(None), ""
+        return UNKNOWN, "?"
+
+    def call(self, node: cst.Call, scope: Scope) -> Value:
+        self._last = None
+        func = self.expr(node.func, scope)
+        last = self._last
+        shape = _shape(node.args)
+        if last is not None and last[0] is node.func:
+            last[1].call = shape
+        self._last = None
+        for arg in node.args:
+            self.expr(arg.value, scope)
+        if isinstance(func, Foreign) and func.name in ("importlib.import_module", "builtins.__import__"):
+            return self._dynamic_import(node, func.name)
+        if isinstance(func, Foreign) and func.name == "builtins.super":
+            owner = _method_owner(scope)
+            return Super(owner) if owner is not None else UNKNOWN
+        return self.call_result(func)
+
+    def _dynamic_import(self, node: cst.Call, how: str) -> Value:
+        if not node.args or not isinstance(node.args[0].value, cst.SimpleString):
+            return UNKNOWN
+        target = node.args[0].value.evaluated_value
+        if not isinstance(target, str) or not target or target.startswith("."):
+            return UNKNOWN
+        if how == "builtins.__import__":
+            # The Python Language Reference: __import__("a.b") returns the top-level package `a`
+            # unless a non-empty fromlist is given.
+            fromlist = any(
+                (a.keyword is not None and a.keyword.value == "fromlist") or i >= 3 for i, a in enumerate(node.args)
+            )
+            bound = target if fromlist else target.split(".")[0]
+        else:
+            bound = target
+        if self.q.is_library_module(target):
+            self.result.uses_library = True
+            self._ref(node.args[0], "import", name=target, import_text=f"{how.split('.')[-1]}({target!r})")
+            return Lib(bound)
+        found = self.project.find_module(bound, self.importer)
+        if found is not None:
+            if self.project.module_uses_library(found):
+                self.result.uses_library = True
+            return ProjMod(found)
+        return Foreign(bound)
+
+    def call_result(self, func: Value) -> Value:
+        if isinstance(func, Lib):
+            returned = self.q.model.returns(func.name)
+            if returned is not None:
+                return Inst(returned)
+            if self.q.model.is_class(func.name):
+                return Inst(func.name)
+            return UNKNOWN
+        if isinstance(func, UserClass):
+            return UserInst(func)
+        if isinstance(func, UserFunc):
+            return self.returns_of(func)
+        return UNKNOWN
+
+    def comprehension(self, node: cst.BaseComp, scope: Scope) -> None:
+        inner = Scope("comprehension", scope)
+        clause: cst.CompFor | None = node.for_in
+        first = True
+        while clause is not None:
+            self.expr(clause.iter, scope if first else inner)
+            first = False
+            self.assign(clause.target, UNKNOWN, inner)
+            for cond in clause.ifs:
+                self.expr(cond.test, inner)
+            clause = clause.inner_for_in
+        if isinstance(node, cst.DictComp):
+            self.expr(node.key, inner)
+            self.expr(node.value, inner)
+        else:
+            self.expr(node.elt, inner)  # type: ignore[attr-defined]
+
+    def lambda_expr(self, node: cst.Lambda, scope: Scope) -> None:
+        for p in (*node.params.posonly_params, *node.params.params, *node.params.kwonly_params):
+            if p.default is not None:
+                self.expr(p.default, scope)
+        inner = Scope("function", scope)
+        for p in _all_params(node.params):
+            inner.names[p.name.value] = UNKNOWN
+        self.expr(node.body, inner)
+
+    def generic(self, node: cst.CSTNode, scope: Scope) -> None:
+        """Evaluate every expression below a node this walk has no special rule for."""
+        for child in node.children:
+            if isinstance(child, cst.BaseExpression):
+                self.expr(child, scope)
+            elif isinstance(child, (cst.BaseStatement, cst.BaseSmallStatement)):
+                self.stmt(child, scope)
+            elif isinstance(child, cst.BaseSuite):
+                self.suite(child, scope)
+            else:
+                self.generic(child, scope)
+
+
+def _merge(a: dict[str, Value], b: dict[str, Value]) -> dict[str, Value]:
+    out = dict(a)
+    for key, value in b.items():
+        out[key] = join(a.get(key, UNKNOWN), value) if key in a else value
+    return out
+
+
+def _all_params(params: cst.Parameters) -> list[cst.Param]:
+    out = [*params.posonly_params, *params.params]
+    if isinstance(params.star_arg, cst.Param):
+        out.append(params.star_arg)
+    out.extend(params.kwonly_params)
+    if params.star_kwarg is not None:
+        out.append(params.star_kwarg)
+    return out
+
+
+def _shape(args: Sequence[cst.Arg]) -> CallShape:
+    positional = 0
+    star = starstar = False
+    keywords: list[str] = []
+    for arg in args:
+        if arg.star == "**":
+            starstar = True
+        elif arg.star == "*":
+            star = True
+        elif arg.keyword is not None:
+            keywords.append(arg.keyword.value)
+        elif not star:
+            positional += 1
+    return CallShape(positional=positional, star=star, starstar=starstar, keywords=tuple(sorted(keywords)))
+
+
+def _method_owner(scope: Scope) -> UserClass | None:
+    s: Scope | None = scope
+    while s is not None:
+        if s.kind == "function" and s.owner is not None:
+            return s.owner
+        s = s.parent
+    return None
+
+
+def _body_statements(body: cst.BaseSuite) -> list[cst.CSTNode]:
+    return list(body.body)

@@ -1,0 +1,72 @@
+"""Turn collected references into findings: apply each change's matching rule, name the pattern."""
+
+from __future__ import annotations
+
+from impactscope.changes import Kind
+from impactscope.findings import Confidence
+from impactscope.resolve.evaluate import CallShape, Ref
+from impactscope.resolve.query import CompiledChange, Query
+
+
+def judge(ref: Ref, query: Query) -> list[tuple[CompiledChange, Confidence]]:
+    """The changes a reference falls under, each with how sure the match is."""
+    if ref.name is not None:
+        candidates = query.match(ref.name)
+        base = Confidence.RESOLVED
+    else:
+        assert ref.attr is not None
+        candidates = query.by_name(ref.attr)
+    out: list[tuple[CompiledChange, Confidence]] = []
+    for cc in candidates:
+        if ref.name is None:
+            base = Confidence.INFERRED if query.is_specific(cc) else Confidence.POSSIBLE
+        confidence = _apply_rule(ref, cc, base, query)
+        if confidence is not None:
+            out.append((cc, confidence))
+    return out
+
+
+def _apply_rule(ref: Ref, cc: CompiledChange, base: Confidence, query: Query) -> Confidence | None:
+    kind = cc.change.kind
+    if not kind.about_parameter:
+        return base
+    if ref.context == "override":
+        return base
+    exact = ref.name is None or query.model.canonical(ref.name) == cc.canonical
+    if not exact or ref.call is None or ref.context == "import":
+        return None  # a parameter change breaks calls only, and only calls of that member itself
+    shape = ref.call
+    position = cc.change.position
+    if position is not None and not ref.bound and cc.parent_is_class and ref.name is not None:
+        position += 1  # called through the class: `Table.sort_by(t, ...)` passes self explicitly
+    passed = cc.change.parameter in shape.keywords or (position is not None and shape.positional > position)
+    if passed:
+        return None if kind is Kind.DEFAULT_CHANGED else base
+    unknowable = shape.starstar or (position is not None and shape.star)
+    if unknowable:
+        return Confidence.POSSIBLE
+    return base if kind is Kind.DEFAULT_CHANGED else None
+
+
+def pattern(ref: Ref, cc: CompiledChange) -> str:
+    """A normalised shape of the use, so that many sites group into a few readable lines."""
+    args = ref.call.render() if ref.call is not None else ""
+    if ref.context == "import":
+        return ref.import_text
+    if ref.context == "override":
+        return f"override in class(<{ref.receiver}>): def {cc.change.name}"
+    if ref.context == "subclass":
+        return f"class _({ref.name})"
+    if ref.context == "decorator":
+        return f"@{ref.name}{args}"
+    if ref.context == "annotation":
+        return f"annotation: {ref.name}"
+    if ref.name is None:
+        return f"?.{ref.attr}{args}"
+    leaf = ref.name.rpartition(".")[2]
+    if ref.receiver.startswith(("<", "super")):
+        return f"{ref.receiver}.{leaf}{args}"
+    return f"{ref.name}{args}"
+
+
+__all__ = ["judge", "pattern", "CallShape"]

@@ -1,0 +1,207 @@
+"""Resolve references across one project's own modules: re-exports, relative imports, packages.
+
+Modules are parsed on demand: a file the prefilter kept is analysed, and so is every project
+module it imports, transitively, because a re-export may rename what it passes on.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import libcst as cst
+from libcst.metadata import MetadataWrapper, PositionProvider
+
+from impactscope.corpus.sources import Source, looks_like_python2
+from impactscope.findings import Finding
+from impactscope.resolve.evaluate import ModuleEvaluator, ModuleResult, Ref
+from impactscope.resolve.match import judge, pattern
+from impactscope.resolve.query import Query
+from impactscope.resolve.values import UNKNOWN, ProjMod, Value
+
+
+@dataclass
+class FileAnalysis:
+    """How one file went: parsed or not, and what it holds."""
+
+    path: str
+    status: str = "parsed"  # parsed | unparsed
+    reason: str | None = None
+    detail: str = ""
+    cells: list[tuple[int | None, int, cst.Module]] = field(default_factory=list)
+    unparsed_cells: list[tuple[int, str]] = field(default_factory=list)
+    result: ModuleResult | None = None
+    findings: list[Finding] = field(default_factory=list)
+
+
+def module_names(path: str) -> tuple[str, bool]:
+    """The dotted name a project file is imported by, and whether it is a package."""
+    stem = path.rsplit(".", 1)[0]
+    parts = stem.split("/")
+    is_package = parts[-1] == "__init__"
+    if is_package:
+        parts = parts[:-1]
+    return ".".join(parts), is_package
+
+
+class ProjectResolver:
+    def __init__(self, project: str, query: Query, sources: Mapping[str, Source]) -> None:
+        self.project = project
+        self.q = query
+        self.sources = sources
+        self._index: dict[str, str] = {}  # dotted module name -> path
+        self._module_of: dict[str, tuple[str, bool]] = {}
+        for path in sorted(sources):
+            name, is_package = module_names(path)
+            self._module_of[path] = (name, is_package)
+            if sources[path].kind != "module":
+                continue
+            self._index.setdefault(name, path)
+            if name.startswith("src."):
+                self._index.setdefault(name[4:], path)  # the src/ layout puts src/ on the path
+        self.files: dict[str, FileAnalysis] = {}
+        self._running: set[str] = set()
+
+    # ---------------------------------------------------------------- ProjectView
+    def find_module(self, dotted: str, importer: str) -> str | None:
+        if dotted in self._index:
+            return dotted
+        if importer:
+            # A script's own directory is first on sys.path, so `import helpers` next to it works.
+            local = f"{importer}.{dotted}"
+            if local in self._index:
+                return local
+        return None
+
+    def is_module(self, dotted: str) -> bool:
+        return dotted in self._index
+
+    def export(self, module: str, name: str) -> Value:
+        if f"{module}.{name}" in self._index:
+            return ProjMod(f"{module}.{name}")
+        result = self._module_result(module)
+        if result is None:
+            return UNKNOWN
+        return result.exports.get(name, UNKNOWN)
+
+    def star_exports(self, module: str) -> dict[str, Value]:
+        result = self._module_result(module)
+        if result is None:
+            return {}
+        return {k: v for k, v in result.exports.items() if not k.startswith("_")}
+
+    def module_uses_library(self, module: str) -> bool:
+        result = self._module_result(module)
+        return bool(result and result.uses_library)
+
+    # ---------------------------------------------------------------- analysis
+    def _module_result(self, module: str) -> ModuleResult | None:
+        path = self._index.get(module)
+        if path is None:
+            return None
+        return self.analyse(path).result
+
+    def analyse(self, path: str) -> FileAnalysis:
+        done = self.files.get(path)
+        if done is not None:
+            return done
+        if path in self._running:
+            return FileAnalysis(path)  # an import cycle: the partial module tells nothing yet
+        self._running.add(path)
+        try:
+            fa = self._parse(path)
+            if fa.cells:
+                name, is_package = self._module_of[path]
+                importer = name if is_package else name.rpartition(".")[0]
+                evaluator = ModuleEvaluator(self.q, self, name, is_package, path, importer)
+                try:
+                    fa.result = evaluator.run((index, module) for index, _, module in fa.cells)
+                except RecursionError:
+                    fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
+                    fa.result = None
+                if fa.result is not None:
+                    fa.findings = self._findings(fa)
+            self.files[path] = fa
+            return fa
+        finally:
+            self._running.discard(path)
+
+    def _parse(self, path: str) -> FileAnalysis:
+        source = self.sources[path]
+        fa = FileAnalysis(path)
+        for cell in source.cells:
+            try:
+                module = cst.parse_module(cell.code)
+            except cst.ParserSyntaxError as exc:
+                reason = "python 2" if looks_like_python2(cell.code) else "syntax error"
+                if cell.index is None:
+                    fa.status, fa.reason = "unparsed", reason
+                    fa.detail = f"line {exc.raw_line}: {exc.message}"
+                    return fa
+                fa.unparsed_cells.append((cell.index, reason))
+                continue
+            except RecursionError:
+                if cell.index is None:
+                    fa.status, fa.reason = "unparsed", "too deeply nested"
+                    return fa
+                fa.unparsed_cells.append((cell.index, "too deeply nested"))
+                continue
+            fa.cells.append((cell.index, cell.first_line, module))
+        if source.kind == "notebook":
+            if fa.unparsed_cells and not fa.cells:
+                fa.status, fa.reason = "unparsed", fa.unparsed_cells[0][1]
+            parts = []
+            if fa.unparsed_cells:
+                parts.append(f"{len(fa.unparsed_cells)} cell(s) unparsed")
+            if source.skipped_cells:
+                parts.append(f"{len(source.skipped_cells)} cell(s) skipped")
+            fa.detail = "; ".join(parts)
+        return fa
+
+    def _findings(self, fa: FileAnalysis) -> list[Finding]:
+        assert fa.result is not None
+        refs = fa.result.refs
+        if not fa.result.uses_library:
+            refs = [r for r in refs if r.name is not None]
+        judged: list[tuple[Ref, list]] = []
+        for ref in refs:
+            hits = judge(ref, self.q)
+            if hits:
+                judged.append((ref, hits))
+        if not judged:
+            return []
+        # Positions are computed only for cells that hold a finding: the provider costs several
+        # parses' worth, and most files have none.
+        cells = {index: (first_line, module) for index, first_line, module in fa.cells}
+        positions: dict[int | None, Mapping[cst.CSTNode, object]] = {}
+        out: set[Finding] = set()
+        for ref, hits in judged:
+            if ref.cell not in positions:
+                wrapper = MetadataWrapper(cells[ref.cell][1], unsafe_skip_copy=True)
+                positions[ref.cell] = wrapper.resolve(PositionProvider)
+            where = positions[ref.cell][ref.node]
+            first_line = cells[ref.cell][0]
+            for cc, confidence in hits:
+                out.add(
+                    Finding(
+                        project=self.project,
+                        file=fa.path,
+                        cell=ref.cell,
+                        line=where.start.line + first_line - 1,  # type: ignore[attr-defined]
+                        column=where.start.column,  # type: ignore[attr-defined]
+                        change=cc.change.id,
+                        confidence=confidence,
+                        pattern=pattern(ref, cc),
+                    )
+                )
+        return _strongest(out)
+
+
+def _strongest(findings: set[Finding]) -> list[Finding]:
+    """One finding per site and change: the most confident reading wins."""
+    best: dict[tuple, Finding] = {}
+    for f in findings:
+        key = (f.file, f.cell, f.line, f.column, f.change)
+        if key not in best or f.confidence > best[key].confidence:
+            best[key] = f
+    return sorted(best.values())

@@ -1,0 +1,137 @@
+"""What an expression in downstream code is known to be, as far as static reading can tell."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Union
+
+import libcst as cst
+
+
+@dataclass(frozen=True)
+class Lib:
+    """A library object reached by a dotted name (module, class, function, attribute).
+
+    `bound` is true when it was reached through an instance, so a call omits `self`.
+    """
+
+    name: str
+    bound: bool = False
+
+
+@dataclass(frozen=True)
+class Inst:
+    """An instance of a library class."""
+
+    cls: str
+
+
+@dataclass(frozen=True)
+class Foreign:
+    """Known not to be the library: a literal, another package, a builtin. `name` for modules."""
+
+    name: str | None = None
+
+
+@dataclass(frozen=True)
+class ProjMod:
+    """A module of the project being analysed."""
+
+    name: str
+
+
+@dataclass(eq=False)
+class UserFunc:
+    """A function defined in downstream code; its return value is inferred on first use."""
+
+    node: cst.FunctionDef | cst.Lambda
+    scope: "object"  # the defining Scope (kept opaque to avoid an import cycle)
+    owner: "UserClass | None" = None
+    kind: str = "function"  # function | method | classmethod | staticmethod | property
+    state: str = "pending"  # pending | running | done
+    returns: "Value" = None  # type: ignore[assignment]
+
+
+@dataclass(eq=False)
+class UserClass:
+    """A class defined in downstream code. `lib_bases` are library classes in its ancestry."""
+
+    name: str
+    lib_bases: tuple[str, ...]
+    user_bases: tuple["UserClass", ...]
+    members: dict[str, "Value"] = field(default_factory=dict)
+    attrs: dict[str, "Value"] = field(default_factory=dict)
+
+    def lookup(self, attr: str) -> "Value | None":
+        """A member defined by this class or a user-defined ancestor; None if not user-defined."""
+        if attr in self.members:
+            return self.members[attr]
+        if attr in self.attrs:
+            return self.attrs[attr]
+        for base in self.user_bases:
+            found = base.lookup(attr)
+            if found is not None:
+                return found
+        return None
+
+    def all_lib_bases(self) -> tuple[str, ...]:
+        seen: list[str] = list(self.lib_bases)
+        for base in self.user_bases:
+            for name in base.all_lib_bases():
+                if name not in seen:
+                    seen.append(name)
+        return tuple(seen)
+
+
+@dataclass(frozen=True, eq=False)
+class UserInst:
+    cls: UserClass
+
+
+@dataclass(frozen=True, eq=False)
+class Super:
+    """The result of `super()` inside a method of a user class."""
+
+    cls: UserClass
+
+
+class _Unknown:
+    __slots__ = ()
+
+    def __repr__(self) -> str:
+        return "UNKNOWN"
+
+
+UNKNOWN = _Unknown()
+
+Value = Union[Lib, Inst, Foreign, ProjMod, UserFunc, UserClass, UserInst, Super, _Unknown]
+
+
+def is_library(value: object) -> bool:
+    return isinstance(value, (Lib, Inst)) or (
+        isinstance(value, (UserClass, UserInst)) and bool(_cls(value).all_lib_bases())
+    )
+
+
+def _cls(value: "UserClass | UserInst") -> UserClass:
+    return value if isinstance(value, UserClass) else value.cls
+
+
+def join(a: Value, b: Value) -> Value:
+    """Merge the values a name may hold after two branches.
+
+    A library value wins over anything else: code that goes on to use the name as the
+    library (the usual `try: import lib / except ImportError: lib = None`) only works
+    on the branch where it is the library.
+    """
+    if a is b or a == b:
+        return a
+    if a is UNKNOWN or a is None:
+        return b
+    if b is UNKNOWN or b is None:
+        return a
+    if is_library(a):
+        return a
+    if is_library(b):
+        return b
+    return a

@@ -1,0 +1,1 @@
+"""Running a scan: prefilter, per-project analysis, executors, the results store."""

@@ -1,0 +1,108 @@
+"""Scan one project: account for every file, prefilter, resolve, collect findings."""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+
+from impactscope.corpus.roots import Project
+from impactscope.corpus.sources import Source, SourceError, read_notebook, read_python
+from impactscope.findings import Finding
+from impactscope.resolve.project import ProjectResolver
+from impactscope.resolve.query import Query
+from impactscope.scan.prefilter import Prefilter
+
+NO_CANDIDATE = "no candidate"
+
+
+@dataclass(frozen=True)
+class FileOutcome:
+    path: str
+    status: str  # parsed | skipped | unparsed
+    reason: str | None = None
+    detail: str = ""
+    digest: str | None = None  # sha256 of the content, for sources that were read
+    kind: str | None = None  # module | notebook, for sources
+
+
+@dataclass
+class ProjectResult:
+    name: str
+    origin: str
+    files: list[FileOutcome] = field(default_factory=list)
+    findings: list[Finding] = field(default_factory=list)
+    uses_library: bool = False
+    manifests: dict[str, bytes] = field(default_factory=dict)
+
+
+def _is_manifest(path: str) -> bool:
+    leaf = path.rsplit("/", 1)[-1].lower()
+    return (
+        (leaf.startswith("requirements") and leaf.endswith((".txt", ".in")))
+        or leaf in ("pyproject.toml", "setup.cfg", "setup.py", "pipfile", "constraints.txt")
+    )
+
+
+def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> ProjectResult:
+    result = ProjectResult(name=project.name, origin=project.origin)
+    outcomes: dict[str, FileOutcome] = {}
+    sources: dict[str, Source] = {}
+    order: list[str] = []
+    for entry in project.entries():
+        order.append(entry.path)
+        if _is_manifest(entry.path) and entry.error is None and entry.size < 2_000_000:
+            try:
+                result.manifests[entry.path] = entry.read()
+            except Exception:  # noqa: BLE001 - an unreadable manifest only loses its constraint
+                pass
+        if entry.error is not None:
+            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", entry.error.split(":", 1)[0], entry.error)
+            continue
+        if entry.skip is not None:
+            outcomes[entry.path] = FileOutcome(entry.path, "skipped", entry.skip)
+            continue
+        try:
+            data = entry.read()
+        except Exception as exc:  # noqa: BLE001 - a damaged member is counted, the scan goes on
+            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", "unreadable", f"{type(exc).__name__}: {exc}")
+            continue
+        digest = hashlib.sha256(data).hexdigest()
+        kind = "notebook" if entry.path.endswith(".ipynb") else "module"
+        try:
+            source = read_notebook(data, entry.path) if kind == "notebook" else read_python(data, entry.path)
+        except SourceError as exc:
+            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", exc.reason, exc.detail, digest, kind)
+            continue
+        sources[entry.path] = source
+        outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, "", digest, kind)
+
+    texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
+    if prefilter:
+        pf = Prefilter(query.tops, query.names)
+        keep = pf.candidates(texts)
+    else:
+        keep = set(sources)
+    resolver = ProjectResolver(project.name, query, sources)
+    for path in sorted(keep):
+        resolver.analyse(path)
+    for path, fa in resolver.files.items():
+        prior = outcomes[path]
+        outcomes[path] = FileOutcome(path, fa.status, fa.reason, fa.detail, prior.digest, prior.kind)
+        result.findings.extend(fa.findings)
+        if fa.result is not None and fa.result.uses_library:
+            result.uses_library = True
+    if not result.uses_library:
+        # Files the prefilter passed over may still import the library without touching a change.
+        result.uses_library = any(_imports_library(texts[p], query.tops) for p in texts if p not in resolver.files)
+    result.files = [outcomes[p] for p in order]
+    result.findings.sort()
+    return result
+
+
+def _imports_library(text: str, tops: frozenset[str]) -> bool:
+    import re
+
+    names = "|".join(map(re.escape, sorted(tops)))
+    return re.search(
+        rf"(?m)^[ \t]*(?:from[ \t]+(?:{names})\b|import[ \t]+(?:[\w.]+[ \t]*,[ \t]*)*(?:{names})\b)", text
+    ) is not None

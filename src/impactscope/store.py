@@ -1,0 +1,154 @@
+"""The results store: one SQLite file that `scan` writes and every later command reads.
+
+Each project is written in one transaction, so a crash loses at most the project in flight.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sqlite3
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Iterator
+
+from impactscope import __version__
+from impactscope.changes import ChangeList, parse_change_list
+from impactscope.findings import Confidence, Finding
+from impactscope.scan.project import FileOutcome, ProjectResult
+
+SCHEMA = """
+CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
+CREATE TABLE IF NOT EXISTS projects (
+    name TEXT PRIMARY KEY, origin TEXT NOT NULL, uses_library INTEGER NOT NULL);
+CREATE TABLE IF NOT EXISTS files (
+    project TEXT NOT NULL, path TEXT NOT NULL, status TEXT NOT NULL, reason TEXT, detail TEXT,
+    digest TEXT, kind TEXT, PRIMARY KEY (project, path));
+CREATE TABLE IF NOT EXISTS findings (
+    project TEXT NOT NULL, file TEXT NOT NULL, cell INTEGER, line INTEGER NOT NULL,
+    col INTEGER NOT NULL, change TEXT NOT NULL, confidence INTEGER NOT NULL, pattern TEXT NOT NULL);
+CREATE INDEX IF NOT EXISTS findings_project ON findings (project);
+CREATE TABLE IF NOT EXISTS manifests (
+    project TEXT NOT NULL, path TEXT NOT NULL, content BLOB NOT NULL, PRIMARY KEY (project, path));
+"""
+
+
+class StoreError(ValueError):
+    """A results file that cannot be read; the message names it and says what to do."""
+
+
+@dataclass(frozen=True)
+class ProjectRow:
+    name: str
+    origin: str
+    uses_library: bool
+
+
+class ResultStore:
+    def __init__(self, path: Path, connection: sqlite3.Connection) -> None:
+        self.path = path
+        self._db = connection
+
+    # -------------------------------------------------------------- opening
+    @classmethod
+    def create(cls, path: str | os.PathLike[str], changes: ChangeList, changes_text: str) -> "ResultStore":
+        p = Path(path)
+        if p.exists():
+            p.unlink()
+        for suffix in ("-wal", "-shm"):
+            Path(str(p) + suffix).unlink(missing_ok=True)
+        db = sqlite3.connect(p)
+        db.execute("PRAGMA journal_mode=WAL")
+        db.executescript(SCHEMA)
+        store = cls(p, db)
+        store._set_meta(
+            library=changes.library,
+            release=str(changes.release) if changes.release else "",
+            changes_toml=changes_text,
+            changes_path=str(changes.source or ""),
+            changes_digest=changes.digest,
+            tool_version=__version__,
+            complete="0",
+        )
+        return store
+
+    @classmethod
+    def open(cls, path: str | os.PathLike[str]) -> "ResultStore":
+        p = Path(path)
+        if not p.is_file():
+            raise StoreError(f"{p}: no such results file; run `impactscope scan CHANGES ROOT --out {p}` first")
+        try:
+            db = sqlite3.connect(f"file:{p}?mode=ro", uri=True)
+            db.execute("SELECT value FROM meta WHERE key = 'library'").fetchone()
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(f"{p}: not an impactscope results file ({exc}); pass the file `scan --out` wrote") from None
+        return cls(p, db)
+
+    def close(self) -> None:
+        self._db.close()
+
+    # -------------------------------------------------------------- writing
+    def _set_meta(self, **values: str) -> None:
+        with self._db:
+            self._db.executemany("INSERT OR REPLACE INTO meta VALUES (?, ?)", values.items())
+
+    def set_meta(self, **values: str) -> None:
+        self._set_meta(**values)
+
+    def add_project(self, result: ProjectResult) -> None:
+        with self._db:
+            self._db.execute(
+                "INSERT OR REPLACE INTO projects VALUES (?, ?, ?)",
+                (result.name, result.origin, int(result.uses_library)),
+            )
+            self._db.execute("DELETE FROM files WHERE project = ?", (result.name,))
+            self._db.execute("DELETE FROM findings WHERE project = ?", (result.name,))
+            self._db.executemany(
+                "INSERT INTO files VALUES (?, ?, ?, ?, ?, ?, ?)",
+                [(result.name, f.path, f.status, f.reason, f.detail, f.digest, f.kind) for f in result.files],
+            )
+            self._db.executemany(
+                "INSERT INTO findings VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                [
+                    (f.project, f.file, f.cell, f.line, f.column, f.change, int(f.confidence), f.pattern)
+                    for f in result.findings
+                ],
+            )
+            self._db.executemany(
+                "INSERT OR REPLACE INTO manifests VALUES (?, ?, ?)",
+                [(result.name, path, data) for path, data in result.manifests.items()],
+            )
+
+    # -------------------------------------------------------------- reading
+    def meta(self) -> dict[str, str]:
+        return dict(self._db.execute("SELECT key, value FROM meta"))
+
+    def change_list(self) -> ChangeList:
+        meta = self.meta()
+        return parse_change_list(meta["changes_toml"].encode(), Path(meta.get("changes_path") or "changes.toml"))
+
+    def projects(self) -> list[ProjectRow]:
+        rows = self._db.execute("SELECT name, origin, uses_library FROM projects ORDER BY name")
+        return [ProjectRow(n, o, bool(u)) for n, o, u in rows]
+
+    def files(self) -> Iterator[tuple[str, FileOutcome]]:
+        rows = self._db.execute(
+            "SELECT project, path, status, reason, detail, digest, kind FROM files ORDER BY project, path"
+        )
+        for project, path, status, reason, detail, digest, kind in rows:
+            yield project, FileOutcome(path, status, reason, detail or "", digest, kind)
+
+    def findings(self) -> list[Finding]:
+        rows = self._db.execute(
+            "SELECT project, file, cell, line, col, change, confidence, pattern FROM findings"
+        )
+        return sorted(
+            Finding(p, f, c, ln, col, ch, Confidence(conf), pat) for p, f, c, ln, col, ch, conf, pat in rows
+        )
+
+    def manifests(self, project: str) -> dict[str, bytes]:
+        rows = self._db.execute("SELECT path, content FROM manifests WHERE project = ?", (project,))
+        return {path: bytes(content) for path, content in rows}
+
+    def to_json_meta(self) -> str:
+        return json.dumps(self.meta(), sort_keys=True)
