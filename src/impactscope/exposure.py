@@ -105,8 +105,8 @@ MANIFEST_PATTERNS: tuple[str, ...] = (
     "Pipfile",
 )
 
-# A requirement file of this shape is read on its own; other requirement-format files (such as
-# constraints files) are read only when another file includes them with -r or -c.
+# A requirement file of this shape is read on its own, unless it is named like a constraints file;
+# other requirement-format files are read only when another file includes them with -r or -c.
 _REQUIREMENT_ROOTS = ("*requirements*.txt", "requirements/*.txt")
 
 # Manifests of installed or bundled third-party packages say nothing about the project's own
@@ -811,7 +811,7 @@ def read_manifests(files: Mapping[str, bytes], distribution: str) -> Manifests:
             _read_setup_cfg(path, reader)
         elif name == "setup.py":
             _read_setup_py(path, reader)
-        elif _matches(path, _REQUIREMENT_ROOTS):
+        elif _matches(path, _REQUIREMENT_ROOTS) and not _matches(path, ("*constraints*.txt",)):
             _read_requirement_file(path, reader, constraint=False)
     return Manifests(tuple(reader.declared), tuple(reader.problems))
 

@@ -18,7 +18,10 @@ Streaming a tar archive has two consequences that callers must respect:
   `read` only works until the iterator advances;
 - a tar *root* is streamed once for all its projects, so its projects come in
   archive order, and each project's entries must be consumed before
-  `discover` is advanced (afterwards `entries()` raises EntryError).
+  `discover` is advanced (afterwards `entries()` raises EntryError);
+- a tar member is classified before the members after it are seen, so the
+  rules that look inside a directory (a `pyvenv.cfg`, an activate script, an
+  `__init__.py`) fall back to directory names alone (see `classify`).
 
 Directory and zip projects are listed in full first, so their entries come
 sorted by path and can be listed again at any time.
@@ -231,9 +234,10 @@ def classify(path: str, size: int, *, library: str, layout: _Layout | None = Non
     """The reason not to read the file at `path` (POSIX, relative to its project), or None.
 
     Without a `layout` (a tar stream, where a directory's later members are
-    not known yet), a virtual environment is recognised only by a
-    `site-packages` / `dist-packages` segment, and any directory named
-    `library` counts as a vendored copy, `__init__.py` or not.
+    not known yet) only names count: a virtual environment is any directory
+    named `.venv`, `venv` or `env`, or under `site-packages` /
+    `dist-packages`, and any directory named `library` is a vendored copy,
+    with or without `pyvenv.cfg`, activate scripts or `__init__.py`.
     """
     parts = path.split("/")
     segments = set(parts)
@@ -245,9 +249,11 @@ def classify(path: str, size: int, *, library: str, layout: _Layout | None = Non
         return "node modules"
     directories = parts[:-1]
     ancestors = ["/".join(parts[:depth]) for depth in range(len(parts))]
-    if set(directories) & _INSTALL_DIRS or (
-        layout is not None and any(d in layout.venvs for d in ancestors)
-    ):
+    if layout is None:
+        venv = bool(set(directories) & (_INSTALL_DIRS | _VENV_NAMES))
+    else:
+        venv = bool(set(directories) & _INSTALL_DIRS) or any(d in layout.venvs for d in ancestors)
+    if venv:
         return "virtual environment"
     if layout is None:
         vendored = library in directories

@@ -12,7 +12,7 @@ from typing import Callable, Sequence
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.roots import check_roots, discover
 from impactscope.resolve.query import Query
-from impactscope.scan.project import scan_project
+from impactscope.scan.executor import run_inline, run_pool
 from impactscope.store import ResultStore
 
 
@@ -43,14 +43,18 @@ def run_scan(
     started = time.perf_counter()
     projects = files = findings = 0
     try:
-        for project in discover(roots, single=single, library=changes.import_name):
-            result = scan_project(project, query, prefilter=prefilter)
+        found = discover(roots, single=single, library=changes.import_name)
+        if jobs > 1:
+            results = run_pool(found, changes, query, jobs, prefilter)
+        else:
+            results = run_inline(found, query, prefilter)
+        for result in results:
             store.add_project(result)
             projects += 1
             files += len(result.files)
             findings += len(result.findings)
             if progress is not None:
-                progress(projects, files, project.name)
+                progress(projects, files, result.name)
         store.set_meta(complete="1")
     finally:
         store.close()

@@ -1,0 +1,455 @@
+"""The value types of a library surface, and the fast look-ups the resolver asks of it.
+
+A `Surface` is built once (from source text, or from JSON) and then only queried. Every
+look-up the resolver makes per reference is a handful of dict hits: the indices behind them are
+computed when the surface is constructed and kept in private fields of the frozen object.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Any
+
+PARAMETER_KINDS = ("positional-only", "positional-or-keyword", "var-positional", "keyword-only", "var-keyword")
+MEMBER_KINDS = (
+    "module",
+    "class",
+    "function",
+    "method",
+    "classmethod",
+    "staticmethod",
+    "property",
+    "constant",
+    "unknown",
+)
+JSON_FORMAT = 1
+
+
+class SurfaceError(ValueError):
+    """A library surface could not be built, located or loaded."""
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One parameter of a callable, as written in the source."""
+
+    name: str
+    kind: str
+    position: int | None  # 0-based among positional parameters, self/cls excluded; None otherwise
+    default: str | None  # source text of the default; None when the parameter is required
+
+    def render(self) -> str:
+        prefix = {"var-positional": "*", "var-keyword": "**"}.get(self.kind, "")
+        text = prefix + self.name
+        return text if self.default is None else f"{text}={self.default}"
+
+
+@dataclass(frozen=True)
+class Member:
+    """One named thing of the library, at its canonical (defining) path.
+
+    `returns` is the canonical library class a call returns (a class: itself). For properties,
+    constants and unknowns it is the library class of the value, when the source says so.
+    `shape` is a short digest of the definition's body, used to recognise a definition that
+    moved or was renamed; "" when the body is trivial (a stub, `pass`) or not a definition.
+    """
+
+    name: str
+    kind: str
+    parameters: tuple[Parameter, ...] | None
+    returns: str | None
+    bases: tuple[str, ...]
+    deprecated: str | None
+    line: int
+    shape: str = ""
+
+    def signature(self) -> str:
+        if self.parameters is None:
+            return ""
+        out: list[str] = []
+        for i, p in enumerate(self.parameters):
+            nxt = self.parameters[i + 1] if i + 1 < len(self.parameters) else None
+            if p.kind == "keyword-only" and (i == 0 or self.parameters[i - 1].kind not in ("keyword-only", "var-positional")):
+                out.append("*")
+            out.append(p.render())
+            if p.kind == "positional-only" and (nxt is None or nxt.kind != "positional-only"):
+                out.append("/")
+        return "(" + ", ".join(out) + ")"
+
+
+@dataclass(frozen=True)
+class Problem:
+    """A module that could not be read; the rest of the surface is still built."""
+
+    module: str
+    path: str
+    message: str
+
+
+def _mapping(value: Mapping[str, Any]) -> Mapping[str, Any]:
+    return value if isinstance(value, MappingProxyType) else MappingProxyType(dict(value))
+
+
+def _is_private(segment: str) -> bool:
+    return segment.startswith("_") and not (segment.startswith("__") and segment.endswith("__"))
+
+
+@dataclass(frozen=True)
+class Surface:
+    """A library's API, read statically.
+
+    `aliases` holds public re-export paths (`heronframe.Table` -> its canonical name);
+    `private_aliases` the other re-export paths (through private modules or names), which
+    `canonical()` follows too. `declared` lists modules whose `exports` come from a static
+    `__all__`; `problems` the modules that could not be parsed.
+    """
+
+    library: str
+    members: Mapping[str, Member]
+    aliases: Mapping[str, str]
+    exports: Mapping[str, tuple[str, ...] | None]
+    dynamic: frozenset[str]
+    private_aliases: Mapping[str, str] = field(default_factory=dict)
+    declared: frozenset[str] = frozenset()
+    problems: tuple[Problem, ...] = ()
+    # Indices, derived from the fields above in __post_init__.
+    _links: Mapping[str, str] = field(init=False, repr=False, compare=False)
+    _children: Mapping[str, Mapping[str, str]] = field(init=False, repr=False, compare=False)
+    _attrs: Mapping[str, Mapping[str, str]] = field(init=False, repr=False, compare=False)
+    _mro: Mapping[str, tuple[str, ...]] = field(init=False, repr=False, compare=False)
+    _owners: Mapping[str, frozenset[str]] = field(init=False, repr=False, compare=False)
+    _public: frozenset[str] = field(init=False, repr=False, compare=False)
+    _reach: Mapping[str, tuple[str, ...]] = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        put = object.__setattr__
+        put(self, "members", _mapping(self.members))
+        put(self, "aliases", _mapping(self.aliases))
+        put(self, "private_aliases", _mapping(self.private_aliases))
+        put(self, "exports", _mapping(self.exports))
+        put(self, "dynamic", frozenset(self.dynamic))
+        put(self, "declared", frozenset(self.declared))
+        put(self, "problems", tuple(self.problems))
+        links = {**self.private_aliases, **self.aliases}
+        children: dict[str, dict[str, str]] = {}
+        for name in self.members:
+            parent, _, attr = name.rpartition(".")
+            if parent:
+                children.setdefault(parent, {})[attr] = name
+        for path, target in links.items():
+            parent, _, attr = path.rpartition(".")
+            # A re-export rebinds the attribute, as `from .x import x` shadows submodule x.
+            children.setdefault(parent, {})[attr] = target
+        mro = class_mros(self.members)
+        attrs: dict[str, dict[str, str]] = {}
+        for cls, order in mro.items():
+            table: dict[str, str] = {}
+            for c in reversed(order):
+                table.update(children.get(c, {}))
+            attrs[cls] = table
+        owners: dict[str, set[str]] = {}
+        for cls, table in attrs.items():
+            for attr in table:
+                owners.setdefault(attr, set()).add(cls)
+        for name, member in self.members.items():
+            if member.kind == "module":
+                for attr in children.get(name, {}):
+                    owners.setdefault(attr, set()).add(name)
+        put(self, "_links", links)
+        put(self, "_children", children)
+        put(self, "_mro", mro)
+        put(self, "_attrs", attrs)
+        put(self, "_owners", {k: frozenset(v) for k, v in owners.items()})
+        put(self, "_public", frozenset(self._public_paths()))
+        reach: dict[str, list[str]] = {}
+        for path in self._public:
+            reach.setdefault(self.canonical(path), []).append(path)
+        put(self, "_reach", {target: tuple(sorted(paths, key=lambda p, t=target: self._rank(p, t)))
+                             for target, paths in reach.items()})
+
+    # -- look-ups the resolver makes ------------------------------------------------------
+
+    def canonical(self, dotted: str) -> str:
+        """The defining path of `dotted`, through re-exports, aliases and inheritance.
+
+        A name the surface does not know comes back unchanged past its longest known prefix,
+        which is itself canonicalised.
+        """
+        if dotted in self.members:
+            return dotted
+        target = self._links.get(dotted)
+        if target is not None:
+            return target
+        parts = dotted.split(".")
+        for i in range(len(parts) - 1, 0, -1):
+            head = ".".join(parts[:i])
+            base = head if head in self.members else self._links.get(head)
+            if base is not None:
+                break
+        else:
+            return dotted
+        for j in range(i, len(parts)):
+            nxt = self._attr(base, parts[j])
+            if nxt is None:
+                return ".".join((base, *parts[j:]))
+            base = nxt
+        return base
+
+    def member(self, dotted: str) -> Member | None:
+        return self.members.get(self.canonical(dotted))
+
+    def is_class(self, dotted: str) -> bool:
+        member = self.member(dotted)
+        return member is not None and member.kind == "class"
+
+    def returns(self, dotted: str) -> str | None:
+        """The canonical library class that calling `dotted` returns (a class returns itself)."""
+        member = self.member(dotted)
+        if member is None:
+            return None
+        return member.name if member.kind == "class" else member.returns
+
+    def parameters(self, dotted: str) -> tuple[Parameter, ...] | None:
+        """Parameters of a callable; for a class, those of its `__init__` without self."""
+        member = self.member(dotted)
+        return None if member is None else member.parameters
+
+    def star_names(self, module: str) -> tuple[str, ...] | None:
+        """Names `from module import *` binds; None when that is not knowable statically."""
+        return self.exports.get(self.canonical(module))
+
+    def owners(self, attr: str) -> frozenset[str]:
+        """Canonical classes and modules that have a member called `attr`, inherited included."""
+        return self._owners.get(attr, frozenset())
+
+    def public_names(self) -> frozenset[str]:
+        """Every public dotted path: canonical members, re-exports, and class members through them."""
+        return self._public
+
+    def mro(self, cls: str) -> tuple[str, ...]:
+        """The class and its library-internal ancestors in C3 order (empty for a non-class)."""
+        return self._mro.get(self.canonical(cls), ())
+
+    def attributes(self, cls: str) -> Mapping[str, str]:
+        """Attribute name -> canonical member for a class, inherited members included."""
+        return self._attrs.get(self.canonical(cls), {})
+
+    def module_of(self, dotted: str) -> str | None:
+        """The module that defines a canonical member (a module is its own)."""
+        name = dotted
+        while name:
+            member = self.members.get(name)
+            if member is not None and member.kind == "module":
+                return name
+            name = name.rpartition(".")[0]
+        return None
+
+    def _attr(self, owner: str, attr: str) -> str | None:
+        member = self.members.get(owner)
+        if member is None:
+            return None
+        if member.kind == "class":
+            return self._attrs.get(owner, {}).get(attr)
+        if member.kind == "module":
+            return self._children.get(owner, {}).get(attr)
+        if member.kind in ("constant", "unknown") and member.returns in self._attrs:
+            # A module-level instance (`c = Calendar()`): its attributes are its class's.
+            return self._attrs[member.returns].get(attr)
+        return None
+
+    # -- public paths ---------------------------------------------------------------------
+
+    def is_public(self, name: str) -> bool:
+        """Whether a canonical member's own path is public API.
+
+        Private: any module segment or module-level name with a leading underscore, a name left
+        out of a static `__all__`, or a class-level name with a leading underscore (dunders are
+        public at class level: they are protocol).
+        """
+        module = self.module_of(name)
+        if module is None:
+            return False
+        if any(seg.startswith("_") for seg in module.split(".")):
+            return False
+        if name == module:
+            return True
+        rest = name[len(module) + 1 :].split(".")
+        if rest[0].startswith("_"):
+            return False
+        if module in self.declared and rest[0] not in (self.exports.get(module) or ()):
+            return False
+        return not any(_is_private(seg) for seg in rest[1:])
+
+    def _public_paths(self) -> set[str]:
+        public = {name for name in self.members if self.is_public(name)}
+        public.update(self.aliases)
+        for path in list(public):
+            target = path if path in self.members else self.aliases.get(path)
+            if target is not None and self.members[target].kind == "class":
+                self._expand(path, target, public, (target,))
+        return public
+
+    def _expand(self, path: str, cls: str, out: set[str], chain: tuple[str, ...]) -> None:
+        for attr, target in self._attrs.get(cls, {}).items():
+            if _is_private(attr):
+                continue
+            sub = f"{path}.{attr}"
+            out.add(sub)
+            member = self.members.get(target)
+            if member is not None and member.kind == "class" and target not in chain and len(chain) < 4:
+                self._expand(sub, target, out, (*chain, target))
+
+    def public_paths(self, canonical: str) -> tuple[str, ...]:
+        """Public paths that lead to a canonical member, most natural first.
+
+        Order: paths that reach it without inheritance, then fewest segments, then shortest.
+        """
+        return self._reach.get(canonical, ())
+
+    def _rank(self, path: str, target: str) -> tuple[int, int, int, str]:
+        parent = target.rpartition(".")[0]
+        direct = path == target or self.canonical(path.rpartition(".")[0]) == parent
+        return (0 if direct else 1, path.count("."), len(path), path)
+
+    # -- serialisation and display --------------------------------------------------------
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "format": JSON_FORMAT,
+            "library": self.library,
+            "members": {name: _member_json(m) for name, m in sorted(self.members.items())},
+            "aliases": dict(sorted(self.aliases.items())),
+            "private_aliases": dict(sorted(self.private_aliases.items())),
+            "exports": {k: (None if v is None else list(v)) for k, v in sorted(self.exports.items())},
+            "declared": sorted(self.declared),
+            "dynamic": sorted(self.dynamic),
+            "problems": [{"module": p.module, "path": p.path, "message": p.message} for p in self.problems],
+        }
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> Surface:
+        if not isinstance(data, Mapping):
+            raise SurfaceError(f"surface JSON must be an object, got {type(data).__name__}")
+        if data.get("format") != JSON_FORMAT:
+            raise SurfaceError(f"surface JSON format {data.get('format')!r} is not supported; expected {JSON_FORMAT}")
+        try:
+            members = {name: _member_from_json(name, m) for name, m in data["members"].items()}
+            exports = {k: (None if v is None else tuple(v)) for k, v in data["exports"].items()}
+            problems = tuple(Problem(p["module"], p["path"], p["message"]) for p in data.get("problems", ()))
+            return cls(
+                library=data["library"],
+                members=members,
+                aliases=dict(data["aliases"]),
+                exports=exports,
+                dynamic=frozenset(data["dynamic"]),
+                private_aliases=dict(data.get("private_aliases", {})),
+                declared=frozenset(data.get("declared", ())),
+                problems=problems,
+            )
+        except KeyError as exc:
+            raise SurfaceError(f"surface JSON is missing the key {exc.args[0]!r}") from None
+        except (TypeError, AttributeError) as exc:
+            raise SurfaceError(f"surface JSON has a value of the wrong type: {exc}") from None
+
+    def dumps(self) -> str:
+        return json.dumps(self.to_json(), indent=1, sort_keys=False)
+
+    def render_table(self) -> str:
+        """A plain-text table, one row per member: name, kind, signature, returns."""
+        rows = [(m.name, m.kind + (" (deprecated)" if m.deprecated else ""), m.signature(), m.returns or "")
+                for _, m in sorted(self.members.items())]
+        heads = ("member", "kind", "signature", "returns")
+        widths = [min(max([len(h), *(len(r[i]) for r in rows)]), cap) for i, (h, cap) in enumerate(zip(heads, (64, 24, 48, 64)))]
+
+        def line(cells: Iterable[str]) -> str:
+            return "  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip()
+
+        modules = sum(1 for m in self.members.values() if m.kind == "module")
+        out = [f"{self.library}: {modules} modules, {len(self.members) - modules} members, "
+               f"{len(self.aliases)} public re-exports, {len(self.problems)} unreadable modules",
+               line(heads), line("-" * w for w in widths)]
+        out.extend(line(r) for r in rows)
+        if self.aliases:
+            out.append("")
+            out.append("re-exports:")
+            out.extend(f"  {path} -> {target}" for path, target in sorted(self.aliases.items()))
+        for p in self.problems:
+            out.append(f"unreadable: {p.module} ({p.path}): {p.message}")
+        return "\n".join(out) + "\n"
+
+
+def _member_json(m: Member) -> dict[str, Any]:
+    return {
+        "kind": m.kind,
+        "parameters": None if m.parameters is None else [
+            {"name": p.name, "kind": p.kind, "position": p.position, "default": p.default} for p in m.parameters
+        ],
+        "returns": m.returns,
+        "bases": list(m.bases),
+        "deprecated": m.deprecated,
+        "line": m.line,
+        "shape": m.shape,
+    }
+
+
+def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
+    if d["kind"] not in MEMBER_KINDS:
+        raise SurfaceError(f"surface JSON member {name!r} has unknown kind {d['kind']!r}")
+    params = d["parameters"]
+    return Member(
+        name=name,
+        kind=d["kind"],
+        parameters=None if params is None else tuple(
+            Parameter(p["name"], p["kind"], p["position"], p["default"]) for p in params
+        ),
+        returns=d["returns"],
+        bases=tuple(d["bases"]),
+        deprecated=d["deprecated"],
+        line=int(d["line"]),
+        shape=d.get("shape", ""),
+    )
+
+
+def c3_merge(name: str, base_orders: list[tuple[str, ...]]) -> tuple[str, ...] | None:
+    """C3 linearisation (as Python computes `__mro__`); None when the bases are inconsistent."""
+    seqs = [list(s) for s in base_orders if s]
+    out = [name]
+    while seqs:
+        for seq in seqs:
+            head = seq[0]
+            if not any(head in s[1:] for s in seqs):
+                break
+        else:
+            return None
+        out.append(head)
+        seqs = [s[1:] if s[0] == head else s for s in seqs]
+        seqs = [s for s in seqs if s]
+    return tuple(out)
+
+
+def class_mros(members: Mapping[str, Member]) -> dict[str, tuple[str, ...]]:
+    """C3 order over library-internal bases for every class; outside bases are left out."""
+    done: dict[str, tuple[str, ...]] = {}
+
+    def visit(cls: str, active: frozenset[str]) -> tuple[str, ...]:
+        if cls in done:
+            return done[cls]
+        bases = [b for b in members[cls].bases if b in members and members[b].kind == "class" and b not in active]
+        orders = [visit(b, active | {cls}) for b in bases]
+        merged = c3_merge(cls, [*orders, tuple(bases)])
+        if merged is None:
+            # Python would refuse this class; keep a depth-first order so look-ups still work.
+            seen: dict[str, None] = {cls: None}
+            for order in orders:
+                seen.update(dict.fromkeys(order))
+            merged = tuple(seen)
+        done[cls] = merged
+        return merged
+
+    for name, member in members.items():
+        if member.kind == "class":
+            visit(name, frozenset())
+    return done

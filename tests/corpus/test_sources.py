@@ -1,0 +1,398 @@
+from __future__ import annotations
+
+import ast
+import io
+import os
+import sysconfig
+import tokenize
+
+import nbformat
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from IPython.core.inputtransformer2 import TransformerManager
+from nbformat import v3, v4
+
+from impactscope.corpus.sources import (
+    CodeCell,
+    Source,
+    SourceError,
+    _transform,
+    decode_python,
+    looks_like_python2,
+    read_notebook,
+    read_python,
+)
+
+
+def reference_decode(data: bytes) -> str:
+    """What PEP 263 says the text is, per the standard library's own
+    implementation of it (tokenize.detect_encoding)."""
+    encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
+    text = data.decode(encoding)
+    return text.removeprefix("\ufeff").replace("\r\n", "\n").replace("\r", "\n")
+
+
+# --------------------------------------------------------------------- PEP 263
+
+# Reference: PEP 263 and tokenize.detect_encoding.
+@pytest.mark.parametrize(
+    "data",
+    [
+        "# -*- coding: latin-1 -*-\nname = 'café'\n".encode("latin-1"),
+        b"\xef\xbb\xbfname = '" + "café".encode() + b"'\n",
+        b"#!/usr/bin/env python\n# vim: set fileencoding=cp1252 :\nq = '\x93quoted\x94'\n",
+        "x = 'plain utf-8 — dash'\r\ny = 2\r".encode(),
+        b"",
+    ],
+    ids=["latin-1 cookie", "utf-8 bom", "cookie on line 2", "crlf utf-8", "empty"],
+)
+def test_decode_matches_detect_encoding(data: bytes) -> None:
+    assert decode_python(data, "m.py") == reference_decode(data)
+
+
+def test_decode_latin1_cookie_keeps_non_ascii() -> None:
+    data = "# coding: latin-1\ns = 'naïve'\n".encode("latin-1")
+    assert "naïve" in decode_python(data, "m.py")
+
+
+def test_decode_normalises_newlines() -> None:
+    assert decode_python(b"a = 1\r\nb = 2\rc = 3\n", "m.py") == "a = 1\nb = 2\nc = 3\n"
+
+
+def test_cookie_on_line_3_is_ignored() -> None:
+    # PEP 263: only lines 1 and 2 may carry the declaration.
+    data = b"# one\n# two\n# coding: latin-1\ns = '\xe9'\n"
+    assert tokenize.detect_encoding(io.BytesIO(data).readline)[0] == "utf-8"
+    with pytest.raises(UnicodeDecodeError):
+        reference_decode(data)
+    with pytest.raises(SourceError) as caught:
+        decode_python(data, "m.py")
+    assert caught.value.reason == "encoding"
+
+
+def test_bad_bytes_without_cookie() -> None:
+    data = b"x = 1\ny = 2\ns = '\xff\xfe'\n"
+    with pytest.raises(SourceError) as caught:
+        decode_python(data, "pkg/m.py")
+    error = caught.value
+    assert error.reason == "encoding"
+    assert "pkg/m.py" in error.detail and "line 3" in error.detail and "0xff" in error.detail
+    assert isinstance(error, ValueError)
+
+
+def test_unknown_codec() -> None:
+    data = b"# coding: klingon-8\nx = 1\n"
+    with pytest.raises(SyntaxError):  # the standard library agrees it is unusable
+        tokenize.detect_encoding(io.BytesIO(data).readline)
+    with pytest.raises(SourceError) as caught:
+        decode_python(data, "m.py")
+    assert caught.value.reason == "encoding"
+    assert "klingon-8" in caught.value.detail
+
+
+def test_codec_that_is_not_a_text_encoding() -> None:
+    with pytest.raises(SourceError) as caught:
+        decode_python(b"# coding: rot13\nk = 1\n", "m.py")
+    assert caught.value.reason == "encoding"
+
+
+def test_bom_with_conflicting_cookie() -> None:
+    # PEP 263: a BOM together with a cookie other than utf-8 is an error.
+    with pytest.raises(SourceError) as caught:
+        decode_python(b"\xef\xbb\xbf# coding: latin-1\nx = 1\n", "m.py")
+    assert caught.value.reason == "encoding"
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.binary(max_size=200))
+def test_decode_agrees_with_detect_encoding_on_any_bytes(data: bytes) -> None:
+    # Reference: tokenize.detect_encoding; our result or error must match its verdict.
+    try:
+        expected: str | None = reference_decode(data)
+    except (SyntaxError, UnicodeDecodeError, LookupError):
+        expected = None
+    if expected is None:
+        with pytest.raises(SourceError):
+            decode_python(data, "m.py")
+    else:
+        assert decode_python(data, "m.py") == expected
+
+
+def test_read_python() -> None:
+    source = read_python(b"import heronframe\n", "a/b.py")
+    assert source == Source("a/b.py", "module", (CodeCell(None, "import heronframe\n", 1),), ())
+
+
+def test_source_error_str() -> None:
+    error = SourceError("encoding", "m.py: bad")
+    assert str(error) == "encoding: m.py: bad"
+    assert (error.reason, error.detail) == ("encoding", "m.py: bad")
+
+
+# --------------------------------------------------------------------- notebooks
+
+
+def notebook_bytes(nb: nbformat.NotebookNode, version: int = 4) -> bytes:
+    return nbformat.writes(nb, version=version).encode()
+
+
+def reference_code_cells(data: bytes) -> list[tuple[int, str]]:
+    """Code cells and their indices as nbformat itself reads them, each put
+    through IPython's transformer (which, among other things, ends the text
+    with a newline)."""
+    nb = nbformat.reads(data.decode(), as_version=4)
+    manager = TransformerManager()
+    return [(i, manager.transform_cell(c.source)) for i, c in enumerate(nb.cells) if c.cell_type == "code"]
+
+
+# Reference: nbformat (v4 API and reads(as_version=4)).
+def test_v4_notebook_cells_and_indices() -> None:
+    nb = v4.new_notebook(
+        cells=[
+            v4.new_markdown_cell("# Title"),
+            v4.new_code_cell("import heronframe as hf\nt = hf.read_table('x')"),
+            v4.new_markdown_cell("more"),
+            v4.new_code_cell("t.stack_rows(1)"),
+        ]
+    )
+    data = notebook_bytes(nb)
+    source = read_notebook(data, "n.ipynb")
+    assert source.kind == "notebook" and source.path == "n.ipynb"
+    assert [(c.index, c.code) for c in source.cells] == reference_code_cells(data)
+    assert all(c.first_line == 1 for c in source.cells)
+    assert source.skipped_cells == ()
+
+
+# Reference: nbformat v3 API and its v3 -> v4 conversion.
+def test_v3_notebook_matches_nbformat_conversion() -> None:
+    nb = v3.new_notebook(
+        worksheets=[
+            v3.new_worksheet(
+                cells=[
+                    v3.new_code_cell(input="import heronframe"),
+                    v3.new_text_cell("markdown", source="notes"),
+                    v3.new_code_cell(input="x = 1\ny = 2"),
+                ]
+            ),
+            v3.new_worksheet(cells=[v3.new_code_cell(input="z = 3")]),
+        ],
+        metadata=v3.new_metadata(),
+    )
+    data = notebook_bytes(nb, version=3)
+    assert b'"worksheets"' in data
+    source = read_notebook(data, "old.ipynb")
+    expected = reference_code_cells(data)
+    assert [(c.index, c.code) for c in source.cells] == expected
+    assert [index for index, _ in expected] == [0, 2, 3]
+
+
+def test_source_given_as_line_list() -> None:
+    data = b'{"nbformat": 4, "nbformat_minor": 2, "metadata": {}, "cells": [' \
+           b'{"cell_type": "code", "metadata": {}, "outputs": [], "execution_count": null,' \
+           b' "source": ["a = 1\\n", "b = 2"]}]}'
+    source = read_notebook(data, "n.ipynb")
+    assert [(c.index, c.code) for c in source.cells] == reference_code_cells(data)
+
+
+@pytest.mark.parametrize(
+    "text",
+    ["{", "[]", '"notebook"', "{}", '{"nbformat": 4}', '{"nbformat": 9, "nbformat_minor": 0}'],
+    ids=["truncated", "list", "string", "empty object", "no cells", "unknown version"],
+)
+def test_invalid_notebook(text: str) -> None:
+    with pytest.raises(SourceError) as caught:
+        read_notebook(text.encode(), "bad.ipynb")
+    assert caught.value.reason == "invalid notebook"
+    assert caught.value.detail.startswith("bad.ipynb: ")
+
+
+def test_notebook_that_is_not_utf8() -> None:
+    with pytest.raises(SourceError) as caught:
+        read_notebook(b'{"cells": "\xff"}', "bad.ipynb")
+    assert caught.value.reason == "encoding"
+
+
+def test_cell_with_non_string_source_is_skipped() -> None:
+    data = b'{"nbformat": 4, "nbformat_minor": 4, "metadata": {}, "cells": [' \
+           b'{"cell_type": "code", "metadata": {}, "outputs": [], "execution_count": null, "source": 5},' \
+           b'{"cell_type": "code", "metadata": {}, "outputs": [], "execution_count": null, "source": "x = 1"}]}'
+    source = read_notebook(data, "n.ipynb")
+    assert source.skipped_cells == ((0, "invalid cell source"),)
+    assert [(c.index, c.code) for c in source.cells] == [(1, "x = 1\n")]
+
+
+@pytest.mark.parametrize(
+    "metadata",
+    [{"kernelspec": {"name": "ir", "language": "R", "display_name": "R"}},
+     {"language_info": {"name": "julia"}}],
+    ids=["kernelspec", "language_info"],
+)
+def test_non_python_kernel(metadata: dict[str, object]) -> None:
+    nb = v4.new_notebook(cells=[v4.new_code_cell("library(x)"), v4.new_markdown_cell("m"),
+                                v4.new_code_cell("y <- 1")], metadata=metadata)
+    source = read_notebook(notebook_bytes(nb), "r.ipynb")
+    assert source.cells == ()
+    assert source.skipped_cells == ((0, "non-python kernel"), (2, "non-python kernel"))
+
+
+def test_python_kernel_is_read() -> None:
+    metadata = {"kernelspec": {"name": "python3", "language": "python", "display_name": "Python 3"},
+                "language_info": {"name": "python"}}
+    nb = v4.new_notebook(cells=[v4.new_code_cell("x = 1")], metadata=metadata)
+    assert [c.code for c in read_notebook(notebook_bytes(nb), "p.ipynb").cells] == ["x = 1\n"]
+
+
+# --------------------------------------------------------------------- IPython syntax
+
+
+def one_cell(code: str) -> Source:
+    return read_notebook(notebook_bytes(v4.new_notebook(cells=[v4.new_code_cell(code)])), "n.ipynb")
+
+
+# Reference: IPython's own input transformer (TransformerManager.transform_cell).
+@pytest.mark.parametrize(
+    "code",
+    ["%matplotlib inline\nimport heronframe", "!pip install x", "df?", "%timeit f()",
+     "files = !ls\nprint(files)", "%load_ext autoreload\n%autoreload 2\n\nimport heronframe as hf"],
+)
+def test_line_magics_match_ipython(code: str) -> None:
+    (cell,) = one_cell(code).cells
+    assert cell.code == TransformerManager().transform_cell(code)
+    assert cell.first_line == 1
+    ast.parse(cell.code)
+
+
+def test_magics_keep_line_numbers() -> None:
+    code = "%matplotlib inline\n!pip install heronframe\ndf?\nimport heronframe\n"
+    (cell,) = one_cell(code).cells
+    assert cell.code.split("\n")[3] == "import heronframe"
+    ast.parse(cell.code)
+
+
+def test_time_cell_magic_body_is_python() -> None:
+    body = "import heronframe\n%matplotlib inline\nt = heronframe.Table()"
+    (cell,) = one_cell("%%time\n" + body).cells
+    assert cell.first_line == 2
+    assert cell.code == TransformerManager().transform_cell(body)
+    ast.parse(cell.code)
+
+
+def test_stacked_cell_magics() -> None:
+    (cell,) = one_cell("\n%%timeit -n 3\n%%capture out\nimport heronframe").cells
+    assert cell.first_line == 4
+    assert cell.code.strip() == "import heronframe"
+
+
+@pytest.mark.parametrize("magic", ["bash", "html", "writefile out.py", "sql", "javascript", "latex"])
+def test_other_cell_magics_are_skipped(magic: str) -> None:
+    source = one_cell(f"%%{magic}\nimport heronframe\n")
+    name = magic.split()[0]
+    assert source.cells == ()
+    assert source.skipped_cells == ((0, f"cell magic %%{name}"),)
+
+
+def test_line_count_changing_transform_falls_back_line_by_line() -> None:
+    code = "!pip install \\\n    heronframe\nimport heronframe\nif True:\n    %time heronframe.f()\n"
+    # IPython joins the continued shell line, which would move everything below it up.
+    reference = TransformerManager().transform_cell(code)
+    assert reference.count("\n") != code.count("\n")
+    (cell,) = one_cell(code).cells
+    lines = cell.code.split("\n")
+    assert len(lines) == len(code.split("\n"))
+    assert lines[2] == "import heronframe"
+    assert lines[4].startswith("    get_ipython()")
+    ast.parse(cell.code)
+
+
+def test_transformer_failure_keeps_text() -> None:
+    class Choking:
+        def transform_cell(self, cell: str) -> str:
+            raise ValueError("cannot")
+
+    assert _transform("x = (\n", Choking()) == "x = (\n"  # type: ignore[arg-type]
+
+
+def test_unparseable_cell_is_kept_for_the_parser() -> None:
+    (cell,) = one_cell("def broken(:\n    pass").cells
+    assert "def broken(:" in cell.code
+
+
+# --------------------------------------------------------------------- Python 2
+
+PY2 = {
+    "print string": 'print "hello"\n',
+    "print name": "x = 1\nprint x\n",
+    "print after colon": "if x: print x, y\n",
+    "print after semicolon": "x = 1; print x\n",
+    "print number": "print 42\n",
+    "except comma": "try:\n    pass\nexcept ValueError, e:\n    pass\n",
+    "backtick": "s = `x`\n",
+    "not equal": "if a <> b:\n    pass\n",
+    "ur literal": "s = ur'raw'\n",
+    "UR literal": 's = UR"raw"\n',
+    "exec string": 'exec "x = 1"\n',
+    "exec in": "exec code in namespace\n",
+    "raise comma": 'raise ValueError, "bad"\n',
+    "octal": "os.chmod(p, 0777)\n",
+    "long": "n = 10L\n",
+    "hex long": "n = 0xFFL\n",
+}
+
+
+@pytest.mark.parametrize("code", PY2.values(), ids=PY2.keys())
+def test_python2_constructs(code: str) -> None:
+    with pytest.raises(SyntaxError):  # each is invalid Python 3 (reference: the parser)
+        ast.parse(code)
+    assert looks_like_python2(code)
+
+
+PY3 = {
+    "print call": "print('x')\nprint(x, file=f)\n",
+    "print bare": "print\n",
+    "print assigned": "print = logger.info\nprint: int = 3\n",
+    "print in strings": "s = 'print x'\nt = \"\"\"\nprint x\nexec code\n\"\"\"\n",
+    "print in comment": "x = 1  # print x\n# except A, e:\n",
+    "print keyword after": "print if flag else other\nprint not in items\n",
+    "except tuple": "try:\n    pass\nexcept (A, B) as e:\n    pass\n",
+    "raise call": 'raise ValueError("a, b")\n',
+    "octal 3": "m = 0o777\nz = 00\nf = 0777.5\n",
+    "not equal 3": "a != b\n",
+    "raw bytes": "a = rb'x'\nb = Rb'y'\nc = f'{x!r}'\n",
+    "flufl": "from __future__ import barry_as_FLUFL\nx = a <> b\n",
+    "call with comma": "f(a, b)\nx = a, b\n",
+    "continuation": "x = 1 + \\\n    2\n",
+    "lambda": "f = lambda: print\n",
+}
+
+
+@pytest.mark.parametrize("code", PY3.values(), ids=PY3.keys())
+def test_python3_code_is_not_python2(code: str) -> None:
+    if "barry_as_FLUFL" not in code:
+        ast.parse(code)
+    assert not looks_like_python2(code)
+
+
+def stdlib_sample() -> list[str]:
+    stdlib = sysconfig.get_paths()["stdlib"]
+    names = sorted(name for name in os.listdir(stdlib) if name.endswith(".py"))
+    return [os.path.join(stdlib, name) for name in names[::8]]
+
+
+# Reference: the running interpreter's standard library, which is valid Python 3.
+@pytest.mark.parametrize("path", stdlib_sample(), ids=os.path.basename)
+def test_stdlib_is_not_python2(path: str) -> None:
+    with open(path, "rb") as handle:
+        text = decode_python(handle.read(), path)
+    assert not looks_like_python2(text)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet=st.sampled_from(list("print exc'\"`<>\\\n\t#ur0L7(),:;=x")), max_size=60))
+def test_python2_check_never_raises_and_valid_code_is_false(text: str) -> None:
+    result = looks_like_python2(text)
+    try:
+        ast.parse(text)
+    except (SyntaxError, ValueError):
+        return
+    assert not result
