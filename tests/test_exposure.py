@@ -314,7 +314,7 @@ def test_pip_coding_cookie_and_bad_encoding():
     assert one({"requirements.txt": latin}).specifier == SpecifierSet("<3")
     result = read_manifests({"requirements.txt": b"heronframe<3 # caf\xe9\n"}, "heronframe")
     assert result.declared == ()
-    assert result.problems[0].startswith("requirements.txt: not valid utf-8-sig")
+    assert result.problems[0].startswith("requirements.txt: not valid UTF-8")
 
 
 # --- PEP 503 names ----------------------------------------------------------------------------
@@ -364,7 +364,7 @@ def test_pep621_dynamic_and_bad_toml_are_problems():
     result = read_manifests({"pyproject.toml": b"[project]\ndependencies = 'heronframe'\n"}, "heronframe")
     assert result.problems == ("pyproject.toml [project.dependencies]: expected a list of requirement strings, got str",)
     result = read_manifests({"pyproject.toml": b"\xff\xfe[project]"}, "heronframe")
-    assert result.problems[0].startswith("pyproject.toml: not valid utf-8")
+    assert result.problems[0].startswith("pyproject.toml: not valid UTF-8")
 
 
 # Source: PEP 735, `[dependency-groups]` holds lists of PEP 508 strings and include tables.

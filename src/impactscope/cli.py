@@ -43,23 +43,45 @@ def _guarded(action: Callable[[], T]) -> T:
 def scan(
     changes: Path = typer.Argument(..., help="The change list (TOML)."),
     roots: List[Path] = typer.Argument(..., help="Corpus roots: folders or archives of projects."),
-    out: Path = typer.Option(Path("impactscope-results.sqlite"), "--out", help="Results file to write."),
+    out: Path = typer.Option(
+        Path("impactscope-results.sqlite"), "--out",
+        help="Results file. An existing one from the same change list and tool version is resumed: "
+        "unchanged projects are reused.",
+    ),
     single: bool = typer.Option(False, "--single", help="Treat each root as one project."),
     jobs: int = typer.Option(0, "--jobs", help="Worker processes (0: one per core)."),
+    fresh: bool = typer.Option(False, "--fresh", help="Ignore an existing results file and scan everything."),
+    cluster: Optional[str] = typer.Option(
+        None, "--cluster", metavar="ADDRESS",
+        help="Run on a Dask scheduler (tcp://host:8786), or `local` for two local Dask workers.",
+    ),
     quiet: bool = typer.Option(False, "--quiet", help="Print nothing but errors."),
 ) -> None:
     """Scan downstream code for uses of the changed members and write a results file."""
-    from impactscope.scan.run import run_scan, stderr_progress
+    from impactscope.scan.progress import for_stream
+    from impactscope.scan.run import run_scan
 
-    summary = _guarded(
-        lambda: run_scan(
-            changes, roots, out, single=single, jobs=jobs or (os.cpu_count() or 1),
-            progress=None if quiet else stderr_progress(),
+    if jobs < 0:
+        typer.echo("impactscope: error: --jobs must be 0 (one per core) or a positive number", err=True)
+        raise typer.Exit(2)
+    try:
+        summary = _guarded(
+            lambda: run_scan(
+                changes, roots, out, single=single, jobs=jobs, fresh=fresh, cluster=cluster,
+                progress=for_stream(sys.stderr, quiet=quiet),
+            )
         )
-    )
-    if not quiet:
+    except KeyboardInterrupt:
         typer.echo(
-            f"scanned {summary.projects} projects, {summary.files} files in {summary.seconds:.1f} s; "
+            f"impactscope: interrupted; finished projects are saved in {out}; "
+            "run the same command again to resume",
+            err=True,
+        )
+        raise typer.Exit(130) from None
+    if not quiet:
+        reused = f" ({summary.reused} unchanged, reused)" if summary.reused else ""
+        typer.echo(
+            f"scanned {summary.projects} projects{reused}, {summary.files} files in {summary.seconds:.1f} s; "
             f"{summary.findings} findings -> {summary.out}",
             err=True,
         )
@@ -70,16 +92,37 @@ def report(
     results: Path = typer.Argument(..., help="A results file written by `scan`."),
     format: Format = typer.Option(Format.table, "--format", help="table, json or markdown."),
     output: Optional[Path] = typer.Option(None, "--output", help="Write here instead of standard output."),
+    confidence: float = typer.Option(0.95, "--confidence", help="Confidence level of the intervals."),
+    population: Optional[int] = typer.Option(
+        None, "--population", help="Size of the population the corpus was sampled from (finite population correction)."
+    ),
+    weights: Optional[Path] = typer.Option(None, "--weights", help="CSV of project,weight (e.g. downloads)."),
+    python: str = typer.Option("3.12", "--python", help="Python version for evaluating requirement markers."),
 ) -> None:
     """Print the impact report from a results file."""
     from impactscope.report.aggregate import build_report
     from impactscope.report.render import to_json, to_markdown, to_table
+    from impactscope.report.sizing import SizingError, SizingOptions, read_weights
     from impactscope.store import ResultStore
 
     def build() -> str:
+        if not 0 < confidence < 1:
+            raise SizingError(f"--confidence must be between 0 and 1, got {confidence}")
+        if population is not None and population < 1:
+            raise SizingError(f"--population must be a positive whole number, got {population}")
+        options = SizingOptions(
+            confidence=confidence,
+            population=population,
+            python=python,
+            weights=read_weights(weights) if weights is not None else None,
+        )
         store = ResultStore.open(results)
         try:
-            document = build_report(store)
+            if population is not None and population < len(store.projects()):
+                raise SizingError(
+                    f"--population {population} is smaller than the {len(store.projects())} projects scanned"
+                )
+            document = build_report(store, options)
         finally:
             store.close()
         render = {Format.table: to_table, Format.json: to_json, Format.markdown: to_markdown}[format]
@@ -90,6 +133,33 @@ def report(
         _guarded(lambda: output.write_text(text, encoding="utf-8"))
     else:
         sys.stdout.write(text)
+
+
+@app.command()
+def sample(
+    population_list: Path = typer.Argument(..., help="Project names or paths, one a line (or a CSV with a weight column)."),
+    size: Optional[int] = typer.Option(None, "--size", help="How many projects to draw."),
+    margin: Optional[float] = typer.Option(
+        None, "--margin", help="Instead of --size: the margin of error wanted (Cochran's formula, with FPC)."
+    ),
+    confidence: float = typer.Option(0.95, "--confidence", help="Confidence level for --margin."),
+    seed: int = typer.Option(0, "--seed", help="Seed, for a reproducible draw."),
+    stratified: bool = typer.Option(False, "--stratified", help="Stratify by weight (needs a weight column)."),
+) -> None:
+    """Draw a reproducible random sample of projects to scan."""
+    from impactscope.sampling import SamplingError, needed_size, read_population
+
+    def draw() -> list[str]:
+        population = read_population(population_list)
+        if (size is None) == (margin is None):
+            raise SamplingError("give exactly one of --size N or --margin E (e.g. --margin 0.03)")
+        n = size if size is not None else needed_size(len(population), margin, confidence)  # type: ignore[arg-type]
+        if margin is not None:
+            typer.echo(f"sample size for margin {margin} at {confidence:.0%}: {n} of {len(population)}", err=True)
+        return population.stratified(n, seed) if stratified else population.sample(n, seed)
+
+    for name in _guarded(draw):
+        typer.echo(name)
 
 
 @app.command()

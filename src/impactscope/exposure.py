@@ -20,7 +20,7 @@ import fnmatch
 import posixpath
 import re
 import tomllib
-from collections.abc import Collection, Iterable, Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import libcst as cst
@@ -143,7 +143,7 @@ class _Reader:
         self.target = canonicalize_name(distribution)
         self.declared: list[Declared] = []
         self.problems: list[str] = []
-        self._read_requirement_files: set[tuple[str, bool]] = set()
+        self.requirement_files_read: set[tuple[str, bool]] = set()  # (path, as constraints)
 
     def problem(self, message: str) -> None:
         self.problems.append(message)
@@ -162,7 +162,8 @@ class _Reader:
             # about the library is reported, since skipping it may change the answer.
             leading = _LEADING_NAME.match(text)
             if leading and self.is_target(leading.group(0)):
-                self.problem(f"{source}: invalid requirement {text!r}: {exc}")
+                reason = str(exc).splitlines()[0] if str(exc) else "invalid"
+                self.problem(f"{source}: invalid requirement {text!r}: {reason}")
             return
         if not self.is_target(requirement.name):
             return
@@ -203,7 +204,8 @@ def _decode_text(path: str, data: bytes, reader: _Reader, *, allow_cookie: bool 
     except LookupError:
         reader.problem(f"{path}: unknown encoding {encoding!r} in the coding comment; not read")
     except UnicodeDecodeError as exc:
-        reader.problem(f"{path}: not valid {encoding} ({exc.reason} at byte {exc.start}); not read")
+        label = "UTF-8" if encoding == "utf-8-sig" else encoding
+        reader.problem(f"{path}: not valid {label} ({exc.reason} at byte {exc.start}); not read")
     return None
 
 
@@ -291,9 +293,9 @@ def _looks_like_location(text: str) -> bool:
 
 def _read_requirement_file(path: str, reader: _Reader, *, constraint: bool, prereleases: bool = False) -> None:
     key = (path, constraint)
-    if key in reader._read_requirement_files:
+    if key in reader.requirement_files_read:
         return  # already read: includes may repeat or cycle
-    reader._read_requirement_files.add(key)
+    reader.requirement_files_read.add(key)
     text = _decode_text(path, reader.files[path], reader, allow_cookie=True)
     if text is None:
         return
@@ -795,8 +797,11 @@ def read_manifests(files: Mapping[str, bytes], distribution: str) -> Manifests:
 
     `files` maps POSIX paths relative to the project to their content; files that are not
     manifests are ignored. Names compare after PEP 503 normalisation. Requirement files are read
-    starting from those named like `requirements*.txt` (or in a `requirements/` folder); others
-    are read only when included with `-r` (a requirement file) or `-c` (a constraints file).
+    starting from those named like `*requirements*.txt` or lying in a `requirements/` folder
+    (but not named like `*constraints*.txt`); any other file is read only when one of those
+    includes it with `-r` (a requirement file) or `-c` (a constraints file, whose entries are
+    marked `constraint`). Files are visited in sorted path order, includes where they occur, and
+    each file once per role, so include cycles end.
     """
     reader = _Reader(files, distribution)
     for path in sorted(files):
@@ -857,7 +862,7 @@ def _applies(marker: Marker | None, environment: Mapping[str, str] | None) -> bo
 
 
 def classify(
-    declared: Sequence[Declared] | Collection[Declared],
+    declared: Sequence[Declared],
     release: Version | str,
     environment: Mapping[str, str] | None = None,
 ) -> Exposure:

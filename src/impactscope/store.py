@@ -1,6 +1,10 @@
 """The results store: one SQLite file that `scan` writes and every later command reads.
 
-Each project is written in one transaction, so a crash loses at most the project in flight.
+The file is in WAL mode. A project's rows (its files, findings, manifests) and its cache key are
+written in the same transaction, and a transaction holds whole projects only, so a crash or kill
+loses only work that was not committed yet; the key row is the mark that a project is complete.
+A rescan onto the same file under the same settings (change list, tool version, prefilter)
+reuses every project whose key is unchanged; `meta.complete` is "1" only after a scan finished.
 """
 
 from __future__ import annotations
@@ -30,11 +34,22 @@ CREATE TABLE IF NOT EXISTS findings (
 CREATE INDEX IF NOT EXISTS findings_project ON findings (project);
 CREATE TABLE IF NOT EXISTS manifests (
     project TEXT NOT NULL, path TEXT NOT NULL, content BLOB NOT NULL, PRIMARY KEY (project, path));
+CREATE TABLE IF NOT EXISTS scan_keys (
+    project TEXT PRIMARY KEY, key TEXT NOT NULL, files INTEGER NOT NULL, findings INTEGER NOT NULL);
 """
 
 
 class StoreError(ValueError):
     """A results file that cannot be read; the message names it and says what to do."""
+
+
+@dataclass(frozen=True)
+class CachedProject:
+    """What a finished project left in the store: its cache key and its counts."""
+
+    key: str
+    files: int
+    findings: int
 
 
 @dataclass(frozen=True)
@@ -51,14 +66,16 @@ class ResultStore:
 
     # -------------------------------------------------------------- opening
     @classmethod
-    def create(cls, path: str | os.PathLike[str], changes: ChangeList, changes_text: str) -> "ResultStore":
+    def create(
+        cls, path: str | os.PathLike[str], changes: ChangeList, changes_text: str, *, settings: str = ""
+    ) -> "ResultStore":
+        """A new, empty results file at `path` (whatever was there is replaced)."""
         p = Path(path)
         if p.exists():
             p.unlink()
         for suffix in ("-wal", "-shm"):
             Path(str(p) + suffix).unlink(missing_ok=True)
-        db = sqlite3.connect(p)
-        db.execute("PRAGMA journal_mode=WAL")
+        db = cls._connect(p)
         db.executescript(SCHEMA)
         store = cls(p, db)
         store._set_meta(
@@ -68,9 +85,44 @@ class ResultStore:
             changes_path=str(changes.source or ""),
             changes_digest=changes.digest,
             tool_version=__version__,
+            scan_settings=settings,
             complete="0",
         )
         return store
+
+    @classmethod
+    def resume(
+        cls, path: str | os.PathLike[str], changes: ChangeList, changes_text: str, *, settings: str
+    ) -> tuple["ResultStore", bool]:
+        """Reopen `path` for writing if it was made under the same `settings` (the scan settings'
+        fingerprint, which covers change list and tool version), else start it afresh.
+        The flag says whether the existing file was kept."""
+        p = Path(path)
+        if p.is_file():
+            try:
+                db = cls._connect(p)
+                meta = dict(db.execute("SELECT key, value FROM meta"))
+            except sqlite3.DatabaseError:
+                meta, db = {}, None
+            if db is not None and meta.get("scan_settings") == settings and settings and (
+                meta.get("changes_digest") == changes.digest and meta.get("tool_version") == __version__
+            ):
+                db.executescript(SCHEMA)
+                store = cls(p, db)
+                store._set_meta(complete="0", changes_toml=changes_text, changes_path=str(changes.source or ""))
+                return store, True
+            if db is not None:
+                db.close()
+        return cls.create(p, changes, changes_text, settings=settings), False
+
+    @staticmethod
+    def _connect(path: Path) -> sqlite3.Connection:
+        db = sqlite3.connect(path)
+        db.execute("PRAGMA journal_mode=WAL")
+        # In WAL mode NORMAL survives a killed process; only an OS crash can drop the last commits,
+        # and those projects are simply scanned again.
+        db.execute("PRAGMA synchronous=NORMAL")
+        return db
 
     @classmethod
     def open(cls, path: str | os.PathLike[str]) -> "ResultStore":
@@ -95,28 +147,67 @@ class ResultStore:
     def set_meta(self, **values: str) -> None:
         self._set_meta(**values)
 
-    def add_project(self, result: ProjectResult) -> None:
-        with self._db:
+    def add_project(self, result: ProjectResult, key: str | None = None, *, commit: bool = True) -> None:
+        """Write one project's rows, replacing any it had, with its cache key (None: no reuse).
+
+        With `commit=False` the rows wait in the open transaction for `commit()`; a transaction
+        only ever holds whole projects.
+        """
+        db = self._db
+        try:
+            self._write_project(result, key)
+        except BaseException:
+            db.rollback()
+            raise
+        if commit:
+            db.commit()
+
+    def commit(self) -> None:
+        self._db.commit()
+
+    def cached(self) -> dict[str, CachedProject]:
+        """The projects a scan under this file's settings finished, by name."""
+        rows = self._db.execute("SELECT project, key, files, findings FROM scan_keys")
+        return {p: CachedProject(k, f, n) for p, k, f, n in rows}
+
+    def prune(self, keep: set[str]) -> int:
+        """Delete the projects not in `keep` (gone from the corpus since the last scan)."""
+        gone = [name for (name,) in self._db.execute("SELECT name FROM projects") if name not in keep]
+        for name in gone:
+            self._delete_project(name)
+            self._db.execute("DELETE FROM projects WHERE name = ?", (name,))
+        self._db.commit()
+        return len(gone)
+
+    def _delete_project(self, name: str) -> None:
+        for table in ("files", "findings", "manifests", "scan_keys"):
+            self._db.execute(f"DELETE FROM {table} WHERE project = ?", (name,))
+
+    def _write_project(self, result: ProjectResult, key: str | None) -> None:
+        self._db.execute(
+            "INSERT OR REPLACE INTO projects VALUES (?, ?, ?)",
+            (result.name, result.origin, int(result.uses_library)),
+        )
+        self._delete_project(result.name)
+        self._db.executemany(
+            "INSERT INTO files VALUES (?, ?, ?, ?, ?, ?, ?)",
+            [(result.name, f.path, f.status, f.reason, f.detail, f.digest, f.kind) for f in result.files],
+        )
+        self._db.executemany(
+            "INSERT INTO findings VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+            [
+                (f.project, f.file, f.cell, f.line, f.column, f.change, int(f.confidence), f.pattern)
+                for f in result.findings
+            ],
+        )
+        self._db.executemany(
+            "INSERT OR REPLACE INTO manifests VALUES (?, ?, ?)",
+            [(result.name, path, data) for path, data in result.manifests.items()],
+        )
+        if key is not None:
             self._db.execute(
-                "INSERT OR REPLACE INTO projects VALUES (?, ?, ?)",
-                (result.name, result.origin, int(result.uses_library)),
-            )
-            self._db.execute("DELETE FROM files WHERE project = ?", (result.name,))
-            self._db.execute("DELETE FROM findings WHERE project = ?", (result.name,))
-            self._db.executemany(
-                "INSERT INTO files VALUES (?, ?, ?, ?, ?, ?, ?)",
-                [(result.name, f.path, f.status, f.reason, f.detail, f.digest, f.kind) for f in result.files],
-            )
-            self._db.executemany(
-                "INSERT INTO findings VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-                [
-                    (f.project, f.file, f.cell, f.line, f.column, f.change, int(f.confidence), f.pattern)
-                    for f in result.findings
-                ],
-            )
-            self._db.executemany(
-                "INSERT OR REPLACE INTO manifests VALUES (?, ?, ?)",
-                [(result.name, path, data) for path, data in result.manifests.items()],
+                "INSERT INTO scan_keys VALUES (?, ?, ?, ?)",
+                (result.name, key, len(result.files), len(result.findings)),
             )
 
     # -------------------------------------------------------------- reading

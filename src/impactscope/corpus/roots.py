@@ -458,20 +458,35 @@ def _layout_of(members: Iterable[_Member], prefix: tuple[str, ...], library: str
 # zip -------------------------------------------------------------------------
 
 
-def _read_zip(archive: zipfile.ZipFile, info: zipfile.ZipInfo) -> bytes:
+# A zip archive: the path of a file, or the bytes of a nested archive.
+_ZipSource = str | bytes
+
+
+def _open_zip(source: _ZipSource) -> zipfile.ZipFile:
+    return zipfile.ZipFile(source if isinstance(source, str) else io.BytesIO(source))
+
+
+def _read_zip(archive: zipfile.ZipFile, source: _ZipSource, info: zipfile.ZipInfo) -> bytes:
+    """A member's bytes, from the open archive, or from the archive opened again
+    if the listing that produced the entry has finished and closed it."""
     try:
-        return archive.read(info)
+        if archive.fp is not None:
+            return archive.read(info)
+        with _open_zip(source) as again:
+            return again.read(info)
     except _ARCHIVE_ERRORS as exc:
         raise EntryError(f"corrupt archive: {exc}") from None
 
 
-def _zip_members(archive: zipfile.ZipFile, infos: Iterable[zipfile.ZipInfo]) -> list[_Member]:
+def _zip_members(
+    archive: zipfile.ZipFile, source: _ZipSource, infos: Iterable[zipfile.ZipInfo]
+) -> list[_Member]:
     members = []
     for info in infos:
         if info.is_dir():
             continue
         stamp = f"c{info.CRC}:{info.file_size}"
-        read = functools.partial(_read_zip, archive, info)
+        read = functools.partial(_read_zip, archive, source, info)
         if info.flag_bits & 0x1:
             members.append(_Member(info.filename, info.file_size, stamp, read, error="encrypted archive member"))
         elif stat.S_ISLNK(info.external_attr >> 16):
@@ -485,16 +500,16 @@ def _zip_members(archive: zipfile.ZipFile, infos: Iterable[zipfile.ZipInfo]) -> 
     return members
 
 
-def _zip_entries(source: str | IO[bytes], name: str, library: str) -> Iterator[Entry]:
+def _zip_entries(source: _ZipSource, name: str, library: str) -> Iterator[Entry]:
     """All entries of a zip archive that is one project."""
     try:
-        archive = zipfile.ZipFile(source)
+        archive = _open_zip(source)
     except _ARCHIVE_ERRORS as exc:
         yield _broken_entry(name, exc)
         return
     with archive:
         try:
-            members = _zip_members(archive, archive.infolist())
+            members = _zip_members(archive, source, archive.infolist())
         except _ARCHIVE_ERRORS as exc:
             yield _broken_entry(name, exc)
             return
@@ -750,8 +765,9 @@ def _directory_root(root: str, library: str) -> Iterator[Project]:
 
 
 class _SharedZip:
-    """A zip root's ZipFile, shared by its projects while `discover` is on that root;
-    a project listed later opens the archive again for itself."""
+    """A zip root's ZipFile, shared by its projects while `discover` is on that
+    root, so the central directory is read once; a project listed later opens
+    the archive again for itself."""
 
     def __init__(self, location: str) -> None:
         self.location = location
@@ -814,7 +830,7 @@ def _zip_folder(
 ) -> Iterator[Entry]:
     try:
         with shared.borrow() as archive:
-            members = _zip_members(archive, infos)
+            members = _zip_members(archive, shared.location, infos)
             yield from _sorted_member_entries(members, prefix, library)
     except _ARCHIVE_ERRORS as exc:
         yield _broken_entry(os.path.basename(shared.location), exc)
@@ -851,7 +867,7 @@ def _nested_archive(name: str, size: int, open_member: Callable[[], IO[bytes]], 
             except _ARCHIVE_ERRORS as exc:
                 yield _broken_entry(name, exc)
                 return
-            yield from _zip_entries(io.BytesIO(data), name, library)
+            yield from _zip_entries(data, name, library)
         else:
             yield from _tar_entries(member, name, library)
 

@@ -8,12 +8,14 @@ from typing import Any
 import pandas as pd
 
 from impactscope.findings import Confidence
+from impactscope.report.sizing import SizingOptions, change_sizing, corpus_sizing, project_facts
 from impactscope.store import ResultStore
 
 LEVELS = (Confidence.RESOLVED, Confidence.INFERRED, Confidence.POSSIBLE)
 
 
-def build_report(store: ResultStore) -> dict[str, Any]:
+def build_report(store: ResultStore, options: SizingOptions | None = None) -> dict[str, Any]:
+    options = options or SizingOptions()
     changes = store.change_list()
     projects = store.projects()
     findings = store.findings()
@@ -31,6 +33,17 @@ def build_report(store: ResultStore) -> dict[str, Any]:
         "files_skipped": status["skipped"],
         "files_unparsed": status["unparsed"],
     }
+    by_project: dict[str, list] = {}
+    for project, outcome in file_rows:
+        by_project.setdefault(project, []).append(outcome)
+    facts = project_facts(
+        changes,
+        [(p.name, p.uses_library) for p in projects],
+        by_project,
+        {p.name: store.manifests(p.name) for p in projects},
+        findings,
+        options,
+    )
     frame = pd.DataFrame(
         [(f.project, f.file, f.change, int(f.confidence), f.pattern) for f in findings],
         columns=["project", "file", "change", "confidence", "pattern"],
@@ -60,6 +73,7 @@ def build_report(store: ResultStore) -> dict[str, Any]:
                 "sites": int(len(rows)),
                 "files": int(rows[["project", "file"]].drop_duplicates().shape[0]) if not rows.empty else 0,
                 "patterns": patterns,
+                **change_sizing(change.id, findings, facts, options),
             }
         )
     affected = frame["project"].nunique() if not frame.empty else 0
@@ -74,6 +88,8 @@ def build_report(store: ResultStore) -> dict[str, Any]:
         ],
         "projects_affected": int(affected),
         "changes": out_changes,
+        "corpus": corpus_sizing(by_project, facts),
+        "projects": [facts[p.name] for p in projects],
         "findings": [f.to_json() for f in findings],
         "files_by_project": _per_project(file_rows),
     }

@@ -14,9 +14,43 @@ def to_json(report: dict[str, Any]) -> str:
     return json.dumps(report, indent=2, sort_keys=False) + "\n"
 
 
+def _confidence(report: dict[str, Any]) -> str:
+    for c in report["changes"]:
+        if c.get("share"):
+            return f"{c['share']['confidence']:.0%}"
+    return "95%"
+
+
 def _bounds(change: dict[str, Any]) -> str:
     p = change["projects"]
     return f"{p['resolved']} / {p['inferred']} / {p['possible']}"
+
+
+def _share(change: dict[str, Any]) -> str:
+    share = change.get("share")
+    if not share or not share["denominator"]:
+        return "n/a"
+    r, p = share["resolved"], share["possible"]
+    return f"{r['estimate']:.1%} ({r['low']:.1%}–{p['high']:.1%})"
+
+
+def _exposed(change: dict[str, Any]) -> str:
+    e = change.get("exposure") or {}
+    return f"{e.get('exposed', 0)} / {e.get('shielded', 0)} / {e.get('unconstrained', 0)}"
+
+
+def _legacy_rows(report: dict[str, Any]) -> list[tuple[str, int, int]]:
+    rows = []
+    for c in report["changes"]:
+        sites = [f for f in report["findings"] if f["change"] == c["id"] and f["pattern"].startswith("legacy:")]
+        if sites:
+            rows.append((c["id"], len({f["project"] for f in sites}), len(sites)))
+    return rows
+
+
+def _users(report: dict[str, Any]) -> str:
+    t = report["totals"]
+    return f"{t['projects_using_library']} projects that use {report['library']}"
 
 
 def to_markdown(report: dict[str, Any]) -> str:
@@ -28,13 +62,23 @@ def to_markdown(report: dict[str, Any]) -> str:
         f"{t['files']} files: {t['files_parsed']} parsed, {t['files_skipped']} skipped, "
         f"{t['files_unparsed']} unparsed.",
         "",
-        "Projects hit are given as proven / likely / at most (resolved, inferred, possible).",
+        "Projects hit are given as proven / likely / at most (resolved, inferred, possible). "
+        f"Share is of the {_users(report)}: the proven share, with the interval running from the low end "
+        f"for proven to the high end for at most ({_confidence(report)} Wilson score). Exposure counts proven "
+        "projects whose declared requirement admits the release / excludes it / declares none.",
         "",
-        "| change | member | kind | projects hit | sites |",
-        "|---|---|---|---|---|",
+        "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
+        "|---|---|---|---|---|---|---|",
     ]
     for c in report["changes"]:
-        lines.append(f"| {c['id']} | `{c['member']}` | {c['kind']} | {_bounds(c)} | {c['sites']} |")
+        lines.append(
+            f"| {c['id']} | `{c['member']}` | {c['kind']} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c['sites']} |"
+        )
+    legacy = _legacy_rows(report)
+    if legacy:
+        lines += ["", "## Python 2 files (token-level reading, all at possible)", "",
+                  "| change | projects | sites |", "|---|---|---|"]
+        lines += [f"| {cid} | {p} | {n} |" for cid, p, n in legacy]
     for c in report["changes"]:
         if not c["patterns"]:
             continue
@@ -51,21 +95,33 @@ def to_markdown(report: dict[str, Any]) -> str:
     return "\n".join(lines) + "\n"
 
 
-def to_table(report: dict[str, Any], width: int = 120) -> str:
+def to_table(report: dict[str, Any], width: int = 150) -> str:
     buffer = io.StringIO()
-    console = Console(file=buffer, width=width, force_terminal=False, color_system=None)
+    console = Console(file=buffer, width=width, force_terminal=False, color_system=None, emoji=False)
     t = report["totals"]
     console.print(
         f"{report['library']} {report['release'] or ''}: {t['projects']} projects scanned, "
         f"{t['projects_using_library']} use the library; files {t['files']} = "
         f"{t['files_parsed']} parsed + {t['files_skipped']} skipped + {t['files_unparsed']} unparsed"
     )
-    summary = Table(title="Projects hit per planned change (proven / likely / at most)", title_justify="left")
-    for column in ("change", "member", "kind", "projects hit", "sites"):
-        summary.add_column(column, justify="right" if column in ("projects hit", "sites") else "left")
+    summary = Table(
+        title=f"Projects hit per planned change (proven / likely / at most); share of the {_users(report)}, "
+        f"{_confidence(report)} interval",
+        title_justify="left",
+    )
+    for column in ("change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"):
+        summary.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
     for c in report["changes"]:
-        summary.add_row(c["id"], c["member"], c["kind"], _bounds(c), str(c["sites"]))
+        summary.add_row(c["id"], c["member"], c["kind"], _bounds(c), _share(c), _exposed(c), str(c["sites"]))
     console.print(summary)
+    legacy = _legacy_rows(report)
+    if legacy:
+        table = Table(title="Python 2 files (token-level reading, all at possible)", title_justify="left")
+        for column in ("change", "projects", "sites"):
+            table.add_column(column)
+        for cid, p, n in legacy:
+            table.add_row(cid, str(p), str(n))
+        console.print(table)
     for c in report["changes"]:
         if not c["patterns"]:
             continue

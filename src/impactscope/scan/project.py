@@ -7,7 +7,8 @@ from dataclasses import dataclass, field
 
 from impactscope.corpus.roots import Project
 from impactscope.corpus.sources import Source, SourceError, read_notebook, read_python
-from impactscope.findings import Finding
+from impactscope.findings import Confidence, Finding
+from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
 from impactscope.scan.prefilter import Prefilter
@@ -89,6 +90,8 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
         prior = outcomes[path]
         outcomes[path] = FileOutcome(path, fa.status, fa.reason, fa.detail, prior.digest, prior.kind)
         result.findings.extend(fa.findings)
+        if fa.reason == "python 2":
+            result.findings.extend(_legacy_findings(project.name, path, texts[path], query))
         if fa.result is not None and fa.result.uses_library:
             result.uses_library = True
     if not result.uses_library:
@@ -97,6 +100,19 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
     return result
+
+
+def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[Finding]:
+    """Python 2 files do not parse: a token-level reading still finds their uses, as `possible`."""
+    out: set[Finding] = set()
+    for top in sorted(query.tops):
+        for hit in legacy_hits(text, top, query.names):
+            for cc in query.by_name(hit.name):
+                out.add(
+                    Finding(project, path, None, hit.line, hit.column, cc.change.id, Confidence.POSSIBLE,
+                            f"legacy: {hit.dotted}")
+                )
+    return sorted(out)
 
 
 def _imports_library(text: str, tops: frozenset[str]) -> bool:

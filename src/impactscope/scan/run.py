@@ -1,19 +1,48 @@
-"""Drive a scan: change list and roots in, a results store out."""
+"""Drive a scan: change list and roots in, a results store out; resumable and parallel.
+
+For every project discovered, the project's cache key (see `scan.cache`) is compared with the one
+the results file holds from an earlier scan under the same settings; an unchanged project is
+reused without reading any of its files. The rest travel in batches to an executor (this process,
+a process pool, or a Dask cluster) and come back with their keys; this process alone writes the
+store, committing whole projects every half second or so, so a scan that is killed and started
+again redoes only uncommitted work and ends with exactly the results of an uninterrupted scan.
+"""
 
 from __future__ import annotations
 
+import contextlib
 import os
-import sys
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable, Sequence
+from typing import Iterable, Iterator, Sequence
 
 from impactscope.changes import ChangeList, load_change_list
-from impactscope.corpus.roots import check_roots, discover
+from impactscope.corpus.roots import Entry, Project, archive_stem, check_roots, discover
 from impactscope.resolve.query import Query
-from impactscope.scan.executor import run_inline, run_pool
-from impactscope.store import ResultStore
+from impactscope.scan.cache import (
+    ScanSettings,
+    held,
+    origin_stamp,
+    picklable,
+    project_key,
+    replayed,
+    streamed,
+)
+from impactscope.scan.executor import Batch, Scanned, run_inline, run_pool
+from impactscope.scan.progress import ScanProgress, Silent, Tally
+from impactscope.store import CachedProject, ResultStore
+
+# A batch is sent off once it holds this many projects or this many bytes of files.
+BATCH_PROJECTS = 8
+BATCH_BYTES = 2_000_000
+# Finished projects are committed together at most this often (and at the end, and on Ctrl-C).
+COMMIT_SECONDS = 0.5
+COMMIT_PROJECTS = 200
+
+
+class ScanOptionError(ValueError):
+    """Scan options that do not fit together or are out of range."""
 
 
 @dataclass(frozen=True)
@@ -23,6 +52,94 @@ class ScanSummary:
     findings: int
     seconds: float
     out: Path
+    reused: int = 0  # projects taken unchanged from the earlier scan in the same results file
+    removed: int = 0  # projects of the earlier scan that are no longer in the corpus
+
+
+class _Tallier:
+    """Counts for one scan run (kept by `run_scan`, never shared between runs)."""
+
+    def __init__(self, total: int | None, display: ScanProgress) -> None:
+        self.total = total
+        self.display = display
+        self.started = time.perf_counter()
+        self.projects = self.files = self.findings = self.reused = 0
+
+    def tally(self) -> Tally:
+        return Tally(self.projects, self.total, self.files, self.reused, self.findings,
+                     time.perf_counter() - self.started)
+
+    def add(self, files: int, findings: int, *, reused: bool) -> None:
+        self.projects += 1
+        self.files += files
+        self.findings += findings
+        self.reused += int(reused)
+        self.display.update(self.tally())
+
+
+def count_projects(roots: Sequence[str | os.PathLike[str]], *, single: bool, library: str) -> int | None:
+    """The number of projects, when that is cheap: folder and zip roots list their children
+    without reading files; a tar root would have to be streamed whole, so then it is unknown."""
+    if single:
+        return len(roots)
+    total = 0
+    for root in roots:
+        location = os.fspath(root)
+        if not os.path.isdir(location):
+            stem = archive_stem(os.path.basename(location))
+            if stem is None or not location.lower().endswith(".zip"):
+                return None
+        total += sum(1 for _ in discover([location], library=library))
+    return total
+
+
+def _weight(project: Project, entries: Sequence[Entry] | None) -> int:
+    if entries is None:
+        try:
+            return os.stat(project.origin).st_size
+        except OSError:
+            return 0
+    return sum(e.size for e in entries if e.skip is None and e.error is None)
+
+
+def _plan(
+    found: Iterable[Project],
+    cached: dict[str, CachedProject],
+    fingerprint: str,
+    tallier: _Tallier,
+    seen: set[str],
+) -> Iterator[Batch]:
+    """Batches of the projects that need scanning; unchanged ones are counted as reused here."""
+    batch: list[Project] = []
+    weight = 0
+    for project in found:
+        seen.add(project.name)
+        prior = cached.get(project.name)
+        stamp = origin_stamp(project.origin)
+        entries: list[Entry] | None = None
+        if stamp is not None:
+            key = project_key(fingerprint, project, stamp, None)
+            work = project
+        else:
+            # A streamed tar member can only be read now, while its project is being listed.
+            entries = [held(e) for e in project.entries()] if streamed(project) else list(project.entries())
+            key = project_key(fingerprint, project, None, entries)
+            work = replayed(project, entries)
+        if prior is not None and prior.key == key:
+            tallier.add(prior.files, prior.findings, reused=True)
+            continue
+        if not picklable(work):
+            # Holds an open archive: take the bytes now, so it can travel and be listed again.
+            # (A streamed project holds them already; a zip root's project can be listed again.)
+            again = entries if entries is not None and streamed(project) else project.entries()
+            work = replayed(project, [held(e) for e in again])
+        batch.append(work)
+        weight += _weight(project, entries)
+        if len(batch) >= BATCH_PROJECTS or weight >= BATCH_BYTES:
+            yield tuple(batch)
+            batch, weight = [], 0
+    if batch:
+        yield tuple(batch)
 
 
 def run_scan(
@@ -33,40 +150,87 @@ def run_scan(
     single: bool = False,
     jobs: int = 1,
     prefilter: bool = True,
-    progress: Callable[[int, int, str], None] | None = None,
+    progress: ScanProgress | None = None,
+    fresh: bool = False,
+    cluster: str | None = None,
 ) -> ScanSummary:
+    """Scan `roots` for the changes in `changes_path` into the results file `out`.
+
+    Unless `fresh`, an existing `out` written under the same change list, tool version and
+    prefilter setting is resumed: unchanged projects are reused, the rest scanned, vanished ones
+    removed. `jobs` <= 0 means one worker per core; `cluster` is a Dask scheduler address or
+    "local". Raises KeyboardInterrupt after committing the finished projects.
+    """
     changes = load_change_list(changes_path)
     check_roots(roots)
+    if cluster is not None and not cluster.strip():
+        raise ScanOptionError("--cluster needs a scheduler address such as tcp://host:8786, or `local`")
+    workers = jobs if jobs > 0 else (os.cpu_count() or 1)
     text = Path(changes_path).read_text(encoding="utf-8")
-    query = Query(changes)
-    store = ResultStore.create(out, changes, text)
-    started = time.perf_counter()
-    projects = files = findings = 0
+    settings = ScanSettings.of(changes, prefilter=prefilter)
+    fingerprint = settings.fingerprint
+    if fresh:
+        store, kept = ResultStore.create(out, changes, text, settings=fingerprint), False
+    else:
+        store, kept = ResultStore.resume(out, changes, text, settings=fingerprint)
+    display = progress if progress is not None else Silent()
+    total = None if isinstance(display, Silent) else count_projects(roots, single=single, library=changes.import_name)
+    tallier = _Tallier(total, display)
+    seen: set[str] = set()
+    removed = 0
+    display.start(total)
     try:
-        found = discover(roots, single=single, library=changes.import_name)
-        if jobs > 1:
-            results = run_pool(found, changes, query, jobs, prefilter)
-        else:
-            results = run_inline(found, query, prefilter)
-        for result in results:
-            store.add_project(result)
-            projects += 1
-            files += len(result.files)
-            findings += len(result.findings)
-            if progress is not None:
-                progress(projects, files, result.name)
+        with contextlib.ExitStack() as stack:
+            cached = store.cached() if kept else {}
+            query = Query(changes)
+            found = discover(roots, single=single, library=changes.import_name)
+            batches = _plan(found, cached, fingerprint, tallier, seen)
+            results = stack.enter_context(
+                contextlib.closing(_execute(batches, changes, query, prefilter, fingerprint, workers, cluster, stack))
+            )
+            last_commit = time.monotonic()
+            uncommitted = 0
+            for scanned in results:
+                result = scanned.result
+                store.add_project(result, scanned.key, commit=False)
+                uncommitted += 1
+                tallier.add(len(result.files), len(result.findings), reused=False)
+                now = time.monotonic()
+                if uncommitted >= COMMIT_PROJECTS or now - last_commit >= COMMIT_SECONDS:
+                    store.commit()
+                    last_commit, uncommitted = now, 0
+        store.commit()
+        removed = store.prune(seen)
         store.set_meta(complete="1")
     finally:
+        # Whatever finished is whole and worth keeping: a rerun resumes from here.
+        store.commit()
         store.close()
-    return ScanSummary(projects, files, findings, time.perf_counter() - started, Path(out))
+        display.finish(tallier.tally())
+    return ScanSummary(
+        tallier.projects, tallier.files, tallier.findings, time.perf_counter() - tallier.started,
+        Path(out), tallier.reused, removed,
+    )
 
 
-def stderr_progress(every: int = 50) -> Callable[[int, int, str], None]:
-    def report(projects: int, files: int, name: str) -> None:
-        if projects % every == 0:
-            print(f"  ... {projects} projects, {files} files", file=sys.stderr)
+def _execute(
+    batches: Iterable[Batch],
+    changes: ChangeList,
+    query: Query,
+    prefilter: bool,
+    fingerprint: str,
+    workers: int,
+    cluster: str | None,
+    stack: contextlib.ExitStack,
+) -> Iterator[Scanned]:
+    if cluster is not None:
+        from impactscope.scan.cluster import connect, run_cluster
 
-    return report
+        client = stack.enter_context(connect(cluster.strip()))
+        return run_cluster(batches, changes, query, prefilter, fingerprint, client)
+    if workers > 1:
+        return run_pool(batches, changes, query, workers, prefilter, fingerprint)
+    return run_inline(batches, query, prefilter, fingerprint)
 
 
-__all__ = ["run_scan", "ScanSummary", "ChangeList"]
+__all__ = ["ChangeList", "ScanOptionError", "ScanSummary", "count_projects", "run_scan"]

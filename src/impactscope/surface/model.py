@@ -310,9 +310,11 @@ class Surface:
         return self._reach.get(canonical, ())
 
     def _rank(self, path: str, target: str) -> tuple[int, int, int, str]:
-        parent = target.rpartition(".")[0]
-        direct = path == target or self.canonical(path.rpartition(".")[0]) == parent
-        return (0 if direct else 1, path.count("."), len(path), path)
+        # A path through a subclass (`Sub.inherited`) ranks after paths through the defining class.
+        via = self.canonical(path.rpartition(".")[0]) if path != target else target.rpartition(".")[0]
+        owner = self.members.get(via)
+        inherited = owner is not None and owner.kind == "class" and via != target.rpartition(".")[0]
+        return (1 if inherited else 0, path.count("."), len(path), path)
 
     # -- serialisation and display --------------------------------------------------------
 

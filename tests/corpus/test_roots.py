@@ -1,0 +1,529 @@
+from __future__ import annotations
+
+import io
+import os
+import random
+import tarfile
+import zipfile
+from collections.abc import Iterator, Mapping
+from pathlib import Path
+
+import pytest
+
+from impactscope.corpus.roots import (
+    MAX_FILE_SIZE,
+    CorpusError,
+    Entry,
+    EntryError,
+    Project,
+    archive_stem,
+    check_roots,
+    classify,
+    discover,
+)
+
+LIB = "heronframe"
+NOISE = random.Random(0).randbytes(300)  # not any archive format (fixed seed: no gzip magic)
+Files = Mapping[str, bytes | str]
+
+# A small project that exercises most classification rules at once.
+PROJECT: dict[str, bytes | str] = {
+    "app/main.py": "import heronframe\n",
+    "app/analysis.ipynb": "{}",
+    "README.md": "# readme\n",
+    ".git/config": "[core]\n",
+    "app/__pycache__/main.cpython-311.pyc": b"\x00\x01",
+    "node_modules/pkg/index.py": "x = 1\n",
+    "heronframe/__init__.py": "",
+    "heronframe/table.py": "class Table: ...\n",
+}
+EXPECTED_SKIPS = {
+    ".git/config": "version control",
+    "README.md": "not source",
+    "app/__pycache__/main.cpython-311.pyc": "cache",
+    "app/analysis.ipynb": None,
+    "app/main.py": None,
+    "heronframe/__init__.py": "vendored library",
+    "heronframe/table.py": "vendored library",
+    "node_modules/pkg/index.py": "node modules",
+}
+
+
+def _bytes(content: bytes | str) -> bytes:
+    return content if isinstance(content, bytes) else content.encode()
+
+
+def write_tree(base: Path, files: Files) -> Path:
+    for name, content in files.items():
+        path = base / name
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_bytes(_bytes(content))
+    return base
+
+
+def write_zip(path: Path, files: Files) -> Path:
+    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as archive:
+        for name, content in files.items():
+            archive.writestr(name, _bytes(content))
+    return path
+
+
+def tar_bytes(files: Files, mode: str = "w:gz") -> bytes:
+    buffer = io.BytesIO()
+    with tarfile.open(fileobj=buffer, mode=mode) as archive:
+        for name, content in files.items():
+            data = _bytes(content)
+            info = tarfile.TarInfo(name)
+            info.size = len(data)
+            info.mtime = 1_700_000_000
+            archive.addfile(info, io.BytesIO(data))
+    return buffer.getvalue()
+
+
+def write_tar(path: Path, files: Files, mode: str = "w:gz") -> Path:
+    path.write_bytes(tar_bytes(files, mode))
+    return path
+
+
+def prefixed(prefix: str, files: Files) -> dict[str, bytes | str]:
+    return {f"{prefix}/{name}": content for name, content in files.items()}
+
+
+def listing(project: Project) -> dict[str, str | None]:
+    """path -> skip (or 'error: ...') for every entry, reading each readable one."""
+    result: dict[str, str | None] = {}
+    for entry in project.entries():
+        if entry.error is not None:
+            result[entry.path] = f"error: {entry.error}"
+            continue
+        if entry.skip is None:
+            assert isinstance(entry.read(), bytes)
+        result[entry.path] = entry.skip
+    return result
+
+
+def projects(*roots: os.PathLike[str] | str, single: bool = False) -> dict[str, dict[str, str | None]]:
+    return {p.name: listing(p) for p in discover(list(roots), single=single, library=LIB)}
+
+
+def snapshot(base: Path) -> list[tuple[str, int]]:
+    return sorted((str(p.relative_to(base)), p.stat().st_size) for p in base.rglob("*"))
+
+
+# ------------------------------------------------------------------ roots
+
+
+def test_directory_root_projects(tmp_path: Path) -> None:
+    root = tmp_path / "corpus"
+    write_tree(root / "beta", PROJECT)
+    write_tree(root, {"loose.py": "import heronframe\n", "notes.txt": "not a project",
+                      ".hidden/x.py": "", ".secret.py": "", "alpha/empty.py": ""})
+    write_zip(root / "gamma.zip", PROJECT)
+    write_tar(root / "delta.tar.gz", PROJECT)
+    found = list(discover([root], library=LIB))
+    assert [p.name for p in found] == ["alpha", "beta", "delta", "gamma", "loose.py"]
+    assert found[0].origin == os.path.join(str(root), "alpha")
+    got = {p.name: listing(p) for p in found}
+    assert got["alpha"] == {"empty.py": None}
+    assert got["loose.py"] == {"loose.py": None}
+    for name in ("beta", "gamma", "delta"):
+        assert got[name] == EXPECTED_SKIPS, name
+
+
+@pytest.mark.parametrize("mode, suffix", [("w", ".tar"), ("w:gz", ".tar.gz"), ("w:gz", ".tgz"),
+                                          ("w:bz2", ".tar.bz2"), ("w:xz", ".tar.xz")])
+def test_tar_roots(tmp_path: Path, mode: str, suffix: str) -> None:
+    files = {**prefixed("one", PROJECT), **prefixed("two", {"b.py": "", "a.py": ""}),
+             "top.py": "x = 1\n", "readme.txt": "", ".hidden/x.py": ""}
+    root = write_tar(tmp_path / f"corpus{suffix}", files, mode)
+    # A tar root is streamed once: each project is listed before discovery moves on.
+    found = [(p.name, p.origin, listing(p)) for p in discover([root], library=LIB)]
+    assert [origin for _, origin, _ in found] == [f"{root}!one", f"{root}!two", f"{root}!top.py"]
+    got = {name: entries for name, _, entries in found}
+    assert got == {"one": EXPECTED_SKIPS, "two": {"b.py": None, "a.py": None}, "top.py": {"top.py": None}}
+    # tar entries come in archive order (a single streaming pass)
+    assert list(got["two"]) == ["b.py", "a.py"]
+
+
+def test_zip_root(tmp_path: Path) -> None:
+    files = {**prefixed("zeta", PROJECT), **prefixed("eta", {"b.py": "", "a.py": ""}),
+             "top.ipynb": "{}", "LICENSE": "", "__init__.txt": "", ".DS_Store": ""}
+    root = write_zip(tmp_path / "corpus.zip", files)
+    found = list(discover([root], library=LIB))
+    assert [p.name for p in found] == ["eta", "top.ipynb", "zeta"]
+    assert found[0].origin == f"{root}!eta"
+    got = {p.name: listing(p) for p in found}
+    assert got["zeta"] == EXPECTED_SKIPS
+    assert list(got["eta"]) == ["a.py", "b.py"]  # zip entries are sorted
+    assert got["top.ipynb"] == {"top.ipynb": None}
+
+
+def test_zip_entries_can_be_read_after_listing(tmp_path: Path) -> None:
+    inner = io.BytesIO()
+    with zipfile.ZipFile(inner, "w") as archive:
+        archive.writestr("n.py", "y = 2\n")
+    root = write_zip(tmp_path / "corpus.zip", {"p/a.py": "x = 1\n", "q.zip": inner.getvalue()})
+    (tmp_path / "dir").mkdir()
+    write_zip(tmp_path / "dir" / "r.zip", {"b.py": "z = 3\n"})
+    found = list(discover([root, tmp_path / "dir"], library=LIB))
+    entries = [entry for project in found for entry in list(project.entries())]
+    assert [entry.read() for entry in entries] == [b"x = 1\n", b"y = 2\n", b"z = 3\n"]
+
+
+def test_single_roots(tmp_path: Path) -> None:
+    folder = write_tree(tmp_path / "myrepo", PROJECT)
+    zipped = write_zip(tmp_path / "zipped-main.zip", PROJECT)
+    tarred = write_tar(tmp_path / "tarred.tar.xz", PROJECT, "w:xz")
+    got = projects(folder, zipped, tarred, single=True)
+    assert list(got) == ["myrepo", "zipped-main", "tarred"]
+    assert all(listing == EXPECTED_SKIPS for listing in got.values())
+
+
+def test_entry_bytes_and_stamps(tmp_path: Path) -> None:
+    root = tmp_path / "corpus"
+    write_tree(root / "f", {"a.py": "x = 1\n"})
+    write_zip(root / "z.zip", {"a.py": "x = 1\n"})
+    write_tar(root / "t.tar", {"a.py": "x = 1\n"}, "w")
+    entries = {p.name: next(iter(p.entries())) for p in discover([root], library=LIB)}
+    stat = (root / "f" / "a.py").stat()
+    crc = zipfile.ZipFile(root / "z.zip").getinfo("a.py").CRC  # reference: zipfile's own header
+    assert entries["f"].stamp == f"m{stat.st_mtime_ns}:6"
+    assert entries["z"].stamp == f"c{crc}:6"
+    assert entries["t"].stamp == "t1700000000:6"
+    for name in ("f", "z", "t"):
+        assert entries[name].size == 6
+
+
+def test_nested_archives_in_archive_roots(tmp_path: Path) -> None:
+    inner_zip = io.BytesIO()
+    with zipfile.ZipFile(inner_zip, "w") as archive:
+        archive.writestr("a.py", "import heronframe\n")
+    inner_tar = tar_bytes({"b.py": "import heronframe\n"})
+    members = {"pz.zip": inner_zip.getvalue(), "pt.tar.gz": inner_tar}
+    expected = {"pt": {"b.py": None}, "pz": {"a.py": None}}
+    assert projects(write_zip(tmp_path / "outer.zip", members)) == expected
+    assert projects(write_tar(tmp_path / "outer.tgz", members)) == expected
+
+
+def test_duplicate_names_across_roots(tmp_path: Path) -> None:
+    first = write_tree(tmp_path / "first", {"proj/a.py": "", "proj.zip/x": ""})
+    second = write_tree(tmp_path / "second", {"proj/b.py": ""})
+    third = write_zip(tmp_path / "second.zip", {"proj/c.py": ""})
+    names = [p.name for p in discover([first, second, third], library=LIB)]
+    assert names == ["proj", "proj.zip", "proj@second", "proj@second-2"]
+
+
+def test_deterministic_order(tmp_path: Path) -> None:
+    files = {f"d{i % 3}/m{i}.py": "" for i in range(30)}
+    root = tmp_path / "corpus"
+    write_tree(root / "p", files)
+    write_zip(root / "q.zip", files)
+    first = [(p.name, [e.path for e in p.entries()]) for p in discover([root], library=LIB)]
+    second = [(p.name, [e.path for e in p.entries()]) for p in discover([root], library=LIB)]
+    assert first == second
+    for _, paths in first:
+        assert paths == sorted(files)
+
+
+def test_reading_archives_writes_nothing(tmp_path: Path) -> None:
+    root = tmp_path / "corpus"
+    root.mkdir()
+    write_zip(root / "z.zip", PROJECT)
+    write_tar(root / "t.tar.gz", PROJECT)
+    write_zip(tmp_path / "zroot.zip", prefixed("p", PROJECT))
+    write_tar(tmp_path / "troot.tar.bz2", prefixed("p", PROJECT), "w:bz2")
+    before = snapshot(tmp_path)
+    for project in discover([root, tmp_path / "zroot.zip", tmp_path / "troot.tar.bz2"], library=LIB):
+        for entry in project.entries():
+            entry.read()
+    assert snapshot(tmp_path) == before
+
+
+# ------------------------------------------------------------------ bad roots, corrupt archives
+
+
+def test_missing_root(tmp_path: Path) -> None:
+    missing = tmp_path / "nope"
+    with pytest.raises(CorpusError, match="does not exist") as caught:
+        check_roots([missing])
+    assert str(missing) in str(caught.value) and ".zip" in str(caught.value)
+    with pytest.raises(CorpusError):
+        list(discover([missing], library=LIB))
+    assert isinstance(caught.value, ValueError)
+
+
+def test_root_that_is_not_an_archive(tmp_path: Path) -> None:
+    loose = write_tree(tmp_path, {"script.py": ""}) / "script.py"
+    with pytest.raises(CorpusError, match="neither a directory nor a known archive"):
+        check_roots([loose])
+
+
+def test_no_roots() -> None:
+    with pytest.raises(CorpusError, match="no corpus root"):
+        check_roots([])
+
+
+def _assert_corrupt(project: Project, archive_name: str) -> None:
+    (entry,) = list(project.entries())
+    assert entry.path == archive_name
+    assert entry.error is not None and entry.error.startswith("corrupt archive: ")
+    with pytest.raises(EntryError):
+        entry.read()
+
+
+def test_corrupt_project_archives_do_not_stop_discovery(tmp_path: Path) -> None:
+    root = tmp_path / "corpus"
+    root.mkdir()
+    (root / "random.zip").write_bytes(NOISE)
+    whole = write_zip(tmp_path / "whole.zip", PROJECT).read_bytes()
+    (root / "truncated.zip").write_bytes(whole[: len(whole) // 2])
+    (root / "random.tar.gz").write_bytes(NOISE)
+    write_tree(root / "zz_ok", {"a.py": ""})
+    found = {p.name: p for p in discover([root], library=LIB)}
+    # random.tar.gz sorts first and keeps the name; random.zip gets the root's name appended.
+    assert list(found) == ["random", "random@corpus", "truncated", "zz_ok"]
+    _assert_corrupt(found["truncated"], "truncated.zip")
+    _assert_corrupt(found["random@corpus"], "random.zip")
+    _assert_corrupt(found["random"], "random.tar.gz")
+    assert listing(found["zz_ok"]) == {"a.py": None}
+
+
+def test_truncated_tar_keeps_what_was_read(tmp_path: Path) -> None:
+    noise = random.Random(1)
+    files = {f"m{i}.py": noise.randbytes(20_000) for i in range(5)}  # incompressible
+    data = tar_bytes(files)
+    root = tmp_path / "corpus"
+    root.mkdir()
+    # Cut in the middle of m2's data (tarfile treats a cut between members as the end).
+    (root / "cut.tar.gz").write_bytes(data[: len(data) // 2])
+    (project,) = discover([root], library=LIB)
+    entries = []
+    for entry in project.entries():
+        if entry.error is None:
+            try:
+                entry.read()
+            except EntryError as exc:
+                assert str(exc).startswith("corrupt archive: ")
+        entries.append(entry)
+    assert entries[0].path == "m0.py" and entries[0].error is None
+    assert entries[-1].path == "cut.tar.gz" and entries[-1].error.startswith("corrupt archive: ")
+
+
+@pytest.mark.parametrize("name", ["broken.zip", "broken.tar.gz"])
+def test_corrupt_archive_root(tmp_path: Path, name: str) -> None:
+    (tmp_path / name).write_bytes(b"this is not an archive" * 10)
+    after = write_tree(tmp_path / "after", {"p/a.py": ""})
+    found = list(discover([tmp_path / name, after], library=LIB))
+    assert [p.name for p in found] == ["broken", "p"]
+    _assert_corrupt(found[0], name)
+
+
+# ------------------------------------------------------------------ classification
+
+
+@pytest.mark.parametrize(
+    "path, reason",
+    [
+        (".git/hooks/pre-commit.py", "version control"),
+        ("sub/.hg/x.py", "version control"),
+        (".svn/x.py", "version control"),
+        ("pkg/__pycache__/m.py", "cache"),
+        (".ipynb_checkpoints/n-checkpoint.ipynb", "cache"),
+        (".mypy_cache/x.py", "cache"),
+        (".pytest_cache/x.py", "cache"),
+        (".tox/py311/x.py", "cache"),
+        ("web/node_modules/x/setup.py", "node modules"),
+        ("lib/python3.11/site-packages/heronframe/__init__.py", "virtual environment"),
+        ("usr/lib/python3/dist-packages/x.py", "virtual environment"),
+        ("docs/logo.png", "not source"),
+        ("src/app.py", None),
+        ("notebooks/a.ipynb", None),
+    ],
+)
+def test_name_rules(tmp_path: Path, path: str, reason: str | None) -> None:
+    assert classify(path, 10, library=LIB) == reason
+    root = write_tree(tmp_path / "r", {path: "x = 1\n"})
+    assert projects(root, single=True) == {"r": {path: reason}}
+
+
+@pytest.mark.parametrize(
+    "files, expected",
+    [
+        ({"myenv/pyvenv.cfg": "", "myenv/lib/x.py": "", "app.py": ""},
+         {"myenv/pyvenv.cfg": "virtual environment", "myenv/lib/x.py": "virtual environment", "app.py": None}),
+        ({"venv/bin/activate": "", "venv/bin/tool.py": ""},
+         {"venv/bin/activate": "virtual environment", "venv/bin/tool.py": "virtual environment"}),
+        ({"env/Scripts/activate": "", "env/Lib/x.py": ""},
+         {"env/Scripts/activate": "virtual environment", "env/Lib/x.py": "virtual environment"}),
+        ({".venv/x.py": ""}, {".venv/x.py": None}),  # no marker: an ordinary folder
+        ({"env/__init__.py": "", "env/settings.py": ""}, {"env/__init__.py": None, "env/settings.py": None}),
+    ],
+    ids=["pyvenv.cfg", "bin/activate", "Scripts/activate", "bare .venv", "package named env"],
+)
+def test_virtual_environments_in_folders_and_zips(tmp_path: Path, files: Files, expected: dict[str, str | None]) -> None:
+    folder = write_tree(tmp_path / "f", files)
+    zipped = write_zip(tmp_path / "z.zip", files)
+    got = projects(folder, zipped, single=True)
+    assert got == {"f": expected, "z": expected}
+
+
+def test_virtual_environments_in_tar_use_names_only(tmp_path: Path) -> None:
+    files = {"app.py": "", ".venv/x.py": "", "env/__init__.py": "", "myenv/pyvenv.cfg": "",
+             "myenv/lib/x.py": "", "lib/site-packages/y.py": ""}
+    got = projects(write_tar(tmp_path / "t.tgz", files), single=True)
+    assert got == {"t": {"app.py": None, ".venv/x.py": "virtual environment",
+                         "env/__init__.py": "virtual environment", "myenv/pyvenv.cfg": "not source",
+                         "myenv/lib/x.py": None, "lib/site-packages/y.py": "virtual environment"}}
+
+
+def test_vendored_library_needs_init(tmp_path: Path) -> None:
+    files = {"third_party/heronframe/__init__.py": "", "third_party/heronframe/core.py": "",
+             "examples/heronframe/demo.py": "", "heronframe.py": "", "heronframe_extra/x.py": ""}
+    expected = {"third_party/heronframe/__init__.py": "vendored library",
+                "third_party/heronframe/core.py": "vendored library",
+                "examples/heronframe/demo.py": None, "heronframe.py": None, "heronframe_extra/x.py": None}
+    got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files), single=True)
+    assert got == {"f": expected, "z": expected}
+    # A tar stream cannot look ahead for __init__.py: the directory name decides.
+    tarred = projects(write_tar(tmp_path / "t.tgz", files), single=True)["t"]
+    assert tarred["examples/heronframe/demo.py"] == "vendored library"
+
+
+def test_too_large(tmp_path: Path) -> None:
+    files = {"big.py": b"#" * (MAX_FILE_SIZE + 1), "edge.py": b"#" * MAX_FILE_SIZE, "big.csv": b"," * (MAX_FILE_SIZE + 1)}
+    expected = {"big.py": "too large", "edge.py": None, "big.csv": "not source"}
+    got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files),
+                   write_tar(tmp_path / "t.tar", files, "w"), single=True)
+    assert got == {"f": expected, "z": expected, "t": expected}
+
+
+@pytest.mark.parametrize(
+    "path, reason",
+    [
+        ("node_modules/.git/x.py", "version control"),
+        ("node_modules/__pycache__/x.py", "cache"),
+        ("site-packages/node_modules/x.py", "node modules"),
+        ("lib/site-packages/heronframe/__init__.py", "virtual environment"),
+        ("heronframe/readme.txt", "vendored library"),
+    ],
+)
+def test_rule_order(path: str, reason: str) -> None:
+    assert classify(path, MAX_FILE_SIZE + 1, library=LIB) == reason
+
+
+def test_classify_with_layout_order(tmp_path: Path) -> None:
+    files = {"e/pyvenv.cfg": "", "e/heronframe/__init__.py": "", "heronframe/__init__.py": "",
+             "heronframe/data.bin": b"\0" * (MAX_FILE_SIZE + 1)}
+    assert projects(write_tree(tmp_path / "f", files), single=True)["f"] == {
+        "e/heronframe/__init__.py": "virtual environment", "e/pyvenv.cfg": "virtual environment",
+        "heronframe/__init__.py": "vendored library", "heronframe/data.bin": "vendored library"}
+
+
+# ------------------------------------------------------------------ links, unsafe members
+
+
+@pytest.mark.skipif(not hasattr(os, "symlink"), reason="needs symlinks")
+def test_symlinks_in_folders(tmp_path: Path) -> None:
+    outside = write_tree(tmp_path / "outside", {"secret.py": "s = 1\n", "dir/x.py": ""})
+    root = tmp_path / "corpus"
+    project = write_tree(root / "p", {"real/a.py": "a = 1\n"})
+    (project / "out.py").symlink_to(outside / "secret.py")
+    (project / "outdir").symlink_to(outside / "dir")
+    (project / "alias.py").symlink_to(project / "real" / "a.py")
+    (project / "realdir").symlink_to(project / "real")
+    (project / "dangling.py").symlink_to(project / "missing.py")
+    (root / "linked").symlink_to(outside)
+    found = {p.name: p for p in discover([root], library=LIB)}
+    assert sorted(found) == ["linked", "p"]
+    assert listing(found["linked"]) == {"linked": "link outside root"}
+    got = {e.path: e for e in found["p"].entries()}
+    assert sorted(got) == ["alias.py", "dangling.py", "out.py", "outdir", "real/a.py"]
+    assert got["out.py"].skip == "link outside root" and got["outdir"].skip == "link outside root"
+    assert got["alias.py"].skip is None and got["alias.py"].read() == b"a = 1\n"
+    assert got["dangling.py"].error == "broken link"
+    with pytest.raises(EntryError):
+        got["out.py"].read()
+
+
+def test_unsafe_member_paths(tmp_path: Path) -> None:
+    members = {"ok.py": "", "../evil.py": "", "/abs/evil.py": "", "a/../../evil.py": "", "C:/evil.py": ""}
+    expected = {"ok.py": None, "../evil.py": "unsafe path", "/abs/evil.py": "unsafe path",
+                "a/../../evil.py": "unsafe path", "C:/evil.py": "unsafe path"}
+    zipped = write_zip(tmp_path / "z.zip", members)
+    tarred = write_tar(tmp_path / "t.tar", members, "w")
+    got = projects(zipped, tarred, single=True)
+    assert got["z"] == expected
+    assert got["t"] == expected
+
+
+def test_unsafe_members_in_archive_root(tmp_path: Path) -> None:
+    members = {"p/ok.py": "", "p/../../evil.py": "", "../evil.py": ""}
+    got = projects(write_zip(tmp_path / "z.zip", members))
+    assert got == {"p": {"ok.py": None, "../../evil.py": "unsafe path"}}
+
+
+def test_tar_links(tmp_path: Path) -> None:
+    buffer = io.BytesIO()
+    with tarfile.open(fileobj=buffer, mode="w") as archive:
+        data = b"x = 1\n"
+        info = tarfile.TarInfo("pkg/a.py")
+        info.size = len(data)
+        archive.addfile(info, io.BytesIO(data))
+        for name, target, kind in [("pkg/b.py", "a.py", tarfile.SYMTYPE),
+                                   ("pkg/c.py", "../../etc/passwd", tarfile.SYMTYPE),
+                                   ("pkg/d.py", "pkg/a.py", tarfile.LNKTYPE),
+                                   ("pkg/e.py", "/etc/passwd", tarfile.SYMTYPE)]:
+            link = tarfile.TarInfo(name)
+            link.type, link.linkname = kind, target
+            archive.addfile(link)
+    path = tmp_path / "links.tar"
+    path.write_bytes(buffer.getvalue())
+    assert projects(path, single=True) == {"links": {
+        "pkg/a.py": None, "pkg/b.py": "archive link", "pkg/c.py": "link outside root",
+        "pkg/d.py": "archive link", "pkg/e.py": "link outside root"}}
+
+
+def test_zip_symlink_member(tmp_path: Path) -> None:
+    path = tmp_path / "links.zip"
+    with zipfile.ZipFile(path, "w") as archive:
+        archive.writestr("a.py", "x = 1\n")
+        for name, target in [("in.py", "a.py"), ("out.py", "../../x.py")]:
+            info = zipfile.ZipInfo(name)
+            info.external_attr = (0o120777 << 16)  # S_IFLNK, as Info-ZIP stores links
+            archive.writestr(info, target)
+    assert projects(path, single=True) == {"links": {"a.py": None, "in.py": "archive link",
+                                                     "out.py": "link outside root"}}
+
+
+# ------------------------------------------------------------------ tar streaming contract
+
+
+def test_tar_root_projects_must_be_read_in_turn(tmp_path: Path) -> None:
+    root = write_tar(tmp_path / "c.tgz", {"a/x.py": "1", "a/y.py": "2", "b/z.py": "3"})
+    walk = discover([root], library=LIB)
+    first = next(walk)
+    entry = next(iter(first.entries()))
+    assert entry.read() == b"1"
+    second = next(walk)  # skips a/y.py unread
+    assert listing(second) == {"z.py": None}
+    with pytest.raises(EntryError, match="before advancing discover"):
+        list(first.entries())
+
+
+def test_tar_entry_read_after_advance(tmp_path: Path) -> None:
+    root = write_tar(tmp_path / "c.tgz", {"x.py": "1", "y.py": "2"})
+    (project,) = discover([root], library=LIB, single=True)
+    entries: Iterator[Entry] = project.entries()
+    first, second = next(entries), next(entries)
+    assert second.read() == b"2"
+    with pytest.raises(EntryError):
+        first.read()
+
+
+def test_archive_stem() -> None:
+    assert archive_stem("repo-main.tar.gz") == "repo-main"
+    assert archive_stem("x.TGZ") == "x"
+    assert archive_stem("x.tar.bz2") == "x"
+    assert archive_stem("x.zip") == "x"
+    assert archive_stem("x.gz") is None
+    assert archive_stem(".zip") is None

@@ -1,0 +1,252 @@
+"""The change list loader (impactscope.changes): the format of DESIGN.md "Change list (TOML)".
+
+Error messages must name the file, the [[change]] entry (1-based index and id) and the fix
+(DESIGN.md: "Unknown keys, unknown kinds, bad versions and duplicate ids are errors that name
+the file and the entry"; "A bad input prints one clear message (what, where, how to fix)").
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from packaging.version import Version
+
+from impactscope.changes import ChangeList, ChangeListError, Kind, load_change_list, parse_change_list
+
+HEAD = '[library]\nname = "heronframe"\nrelease = "3.0"\n'
+
+FIRST = '[[change]]\nid = "HF-1"\nmember = "heronframe.Table.stack_rows"\nkind = "removed"\n'
+
+
+def parse(text: str, name: str = "changes.toml") -> ChangeList:
+    return parse_change_list(text.encode("utf-8"), Path(name))
+
+
+def error(text: str, name: str = "changes.toml") -> str:
+    with pytest.raises(ChangeListError) as info:
+        parse(text, name)
+    message = str(info.value)
+    assert "\n" not in message.strip() or "[library]\\n" in message  # one line
+    return message
+
+
+def second(body: str) -> str:
+    """A list whose second [[change]] entry is `body` (the first one is valid)."""
+    return HEAD + FIRST + "[[change]]\n" + body
+
+
+# ---------------------------------------------------------------------------- valid lists
+def test_valid_list_loads() -> None:
+    text = HEAD + 'requires_python = ">=3.9"\n' + '''
+[types]
+"heronframe.read_table" = "heronframe.Table"
+"heronframe.Table" = "heronframe.Table"
+
+[[change]]
+id = "HF-1"
+member = "heronframe.Table.stack_rows"
+kind = "renamed"
+replacement = "heronframe.Table.append_rows"
+deprecated_in = "2.4"
+note = "free text"
+
+[[change]]
+member = "heronframe.Table.sort_by"
+kind = "parameter-removed"
+parameter = "inplace"
+position = 1
+
+[[change]]
+id = "HF-3"
+member = "heronframe.read_table"
+kind = "parameter-renamed"
+parameter = "sep"
+new_parameter = "delimiter"
+'''
+    cl = parse(text)
+    assert cl.library == "heronframe" and cl.import_name == "heronframe"
+    assert cl.release == Version("3.0")
+    assert cl.requires_python is not None and "3.9" in cl.requires_python
+    assert cl.types["heronframe.read_table"] == "heronframe.Table"
+    first, second_, third = cl.changes
+    assert (first.id, first.kind, first.replacement, first.deprecated_in, first.note) == (
+        "HF-1", Kind.RENAMED, "heronframe.Table.append_rows", Version("2.4"), "free text",
+    )
+    # DESIGN.md: "id ... optional; unique; default derived from member".
+    assert second_.id and "sort_by" in second_.id
+    assert (second_.parameter, second_.position) == ("inplace", 1)
+    assert (third.parameter, third.new_parameter) == ("sep", "delimiter")
+    assert cl.by_id("HF-3") is third
+    assert cl.digest and cl.digest == parse(text).digest
+    assert cl.digest != parse(text + "\n").digest
+
+
+@pytest.mark.parametrize("kind", [k.value for k in Kind])
+def test_every_documented_kind_is_accepted(kind: str) -> None:
+    # DESIGN.md lists the kinds: removed | renamed | moved | parameter-removed |
+    # parameter-renamed | default-changed | behaviour-changed.
+    extra = ""
+    if kind in ("renamed", "moved"):
+        extra += 'replacement = "heronframe.other"\n'
+    if kind.startswith("parameter-") or kind == "default-changed":
+        extra += 'parameter = "fill"\n'
+    if kind == "parameter-renamed":
+        extra += 'new_parameter = "fill_value"\n'
+    cl = parse(HEAD + f'[[change]]\nmember = "heronframe.f"\nkind = "{kind}"\n' + extra)
+    assert cl.changes[0].kind.value == kind
+
+
+def test_documented_kind_names_are_exactly_these() -> None:
+    # DESIGN.md, "Change list (TOML)", the comment beside `kind`.
+    assert {k.value for k in Kind} == {
+        "removed", "renamed", "moved", "parameter-removed", "parameter-renamed",
+        "default-changed", "behaviour-changed",
+    }
+
+
+# PEP 440 examples of valid versions (from the PEP's "Examples of compliant version schemes"
+# and "Summary of permitted suffixes and relative ordering"; from memory).
+@pytest.mark.parametrize("version", ["3.0", "1.0.dev456", "1.0a1", "1.0b2.post345.dev456", "1.0rc1", "1.0.post456", "1!2.0", "2012.10"])
+def test_pep440_versions_load(version: str) -> None:
+    cl = parse(HEAD.replace('"3.0"', f'"{version}"') + FIRST.replace('kind = "removed"', f'kind = "removed"\ndeprecated_in = "{version}"'))
+    assert cl.release == Version(version) and cl.changes[0].deprecated_in == Version(version)
+
+
+# ---------------------------------------------------------------------------- errors in [[change]]
+def test_unknown_key_names_file_entry_and_allowed_keys() -> None:
+    message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\nsince = "2.0"\n'), "lists/planned.toml")
+    assert "lists/planned.toml" in message
+    assert "#2" in message and "'HF-2'" in message
+    assert "since" in message
+    assert "allowed" in message and "deprecated_in" in message  # the fix: the keys you can use
+
+
+def test_unknown_kind_lists_the_kinds() -> None:
+    message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "deleted"\n'))
+    assert "changes.toml" in message and "#2" in message and "'HF-2'" in message
+    assert "'deleted'" in message
+    for kind in Kind:
+        assert kind.value in message
+
+
+# PEP 440 "Public version identifiers": [N!]N(.N)*[{a|b|rc}N][.postN][.devN], plus an optional
+# "+local". Strings outside that grammar (and its normalisation rules) are invalid. "3.0.*" is
+# a wildcard, valid only inside a version-matching specifier (PEP 440 "Version matching");
+# ">=3.0" is a specifier, not a version.
+INVALID_VERSIONS = ["latest", "3.0.*", ">=3.0", "3.x", "1..0", "1.0+", "v", "3.0 final", "1.0-beta-2-extra"]
+
+
+@pytest.mark.parametrize("bad", INVALID_VERSIONS)
+def test_bad_release_version(bad: str) -> None:
+    message = error(HEAD.replace('"3.0"', f'"{bad}"') + FIRST, "c.toml")
+    assert "c.toml" in message and "release" in message and repr(bad) in message
+    assert "PEP 440" in message and 'e.g. "3.0"' in message
+
+
+@pytest.mark.parametrize("bad", INVALID_VERSIONS)
+def test_bad_deprecated_in_version(bad: str) -> None:
+    message = error(second(f'id = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\ndeprecated_in = "{bad}"\n'))
+    assert "#2" in message and "'HF-2'" in message and "deprecated_in" in message
+    assert repr(bad) in message and "PEP 440" in message
+
+
+def test_duplicate_id_names_both_entries() -> None:
+    message = error(second('id = "HF-1"\nmember = "heronframe.stack"\nkind = "removed"\n'))
+    assert "changes.toml" in message and "#2" in message and "'HF-1'" in message
+    assert "duplicate" in message and "#1" in message and "unique" in message
+
+
+def test_default_ids_collide_when_the_member_repeats() -> None:
+    body = '[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n'
+    message = error(HEAD + body + body)
+    assert "duplicate" in message and "#2" in message
+
+
+@pytest.mark.parametrize("kind", ["renamed", "moved"])
+def test_renamed_or_moved_without_replacement(kind: str) -> None:
+    message = error(second(f'id = "HF-2"\nmember = "heronframe.stack"\nkind = "{kind}"\n'))
+    assert "#2" in message and "'HF-2'" in message
+    assert "replacement" in message
+
+
+def test_parameter_renamed_without_new_parameter() -> None:
+    message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "parameter-renamed"\nparameter = "fill"\n'))
+    assert "#2" in message and "'HF-2'" in message and "new_parameter" in message
+
+
+def test_parameter_kind_without_parameter() -> None:
+    message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "default-changed"\n'))
+    assert "#2" in message and "parameter" in message
+
+
+@pytest.mark.parametrize("position", ["-1", '"2"', "true", "1.5"])
+def test_bad_position(position: str) -> None:
+    message = error(second(f'id = "HF-2"\nmember = "heronframe.stack"\nkind = "parameter-removed"\nparameter = "fill"\nposition = {position}\n'))
+    assert "#2" in message and "'HF-2'" in message and "position" in message
+    assert ">= 0" in message  # the fix: a whole number from 0
+
+
+def test_position_on_a_kind_without_parameter() -> None:
+    message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\nposition = 1\n'))
+    assert "#2" in message and "position" in message
+
+
+def test_member_must_be_dotted() -> None:
+    message = error(second('id = "HF-2"\nmember = "heronframe..stack"\nkind = "removed"\n'))
+    assert "#2" in message and "member" in message and "e.g." in message
+
+
+# ---------------------------------------------------------------------------- errors elsewhere
+def test_toml_syntax_error_names_the_line() -> None:
+    text = HEAD + FIRST + "[[change]]\nid = HF-2\n"  # line 9: a bare word is not a TOML value
+    assert text.splitlines()[8] == "id = HF-2"
+    message = error(text, "broken.toml")
+    # TOML v1.0.0: a value must be a string, number, boolean, date, array or table.
+    assert "broken.toml" in message and "line 9" in message
+
+
+def test_unknown_top_level_and_library_keys() -> None:
+    assert "colour" in error(HEAD + "[colour]\nx = 1\n" + FIRST)
+    message = error(HEAD + 'homepage = "x"\n' + FIRST)
+    assert "homepage" in message and "[library]" in message and "allowed" in message
+
+
+def test_missing_library_name_and_no_changes() -> None:
+    assert "[library]" in error(FIRST)
+    assert "[[change]]" in error(HEAD)
+
+
+def test_bad_requires_python() -> None:
+    # PEP 440 "Version specifiers": a specifier needs a comparison operator before the version.
+    message = error(HEAD + 'requires_python = "python3"\n' + FIRST)
+    assert "requires_python" in message and "'python3'" in message and "specifier" in message
+
+
+def test_bad_types_entry() -> None:
+    message = error(HEAD + '[types]\n"heronframe.read_table" = 3\n' + FIRST)
+    assert "[types]" in message and "heronframe.read_table" in message
+
+
+def test_not_utf8() -> None:
+    with pytest.raises(ChangeListError) as info:
+        parse_change_list(HEAD.encode() + b"# \xff\xfe\n" + FIRST.encode(), Path("latin.toml"))
+    assert "latin.toml" in str(info.value) and "UTF-8" in str(info.value)
+
+
+def test_missing_file(tmp_path: Path) -> None:
+    missing = tmp_path / "nope.toml"
+    with pytest.raises(ChangeListError) as info:
+        load_change_list(missing)
+    assert str(missing) in str(info.value)
+
+
+def test_load_from_disk(tmp_path: Path) -> None:
+    path = tmp_path / "c.toml"
+    path.write_text(HEAD + FIRST, encoding="utf-8")
+    assert load_change_list(path).changes[0].id == "HF-1"
+
+
+def test_errors_are_value_errors() -> None:
+    # DESIGN.md: errors subclass ValueError (the packaging style the design points to).
+    assert issubclass(ChangeListError, ValueError)
