@@ -2,6 +2,7 @@ from __future__ import annotations
 
 import io
 import os
+import pickle
 import random
 import tarfile
 import zipfile
@@ -360,7 +361,9 @@ def test_name_rules(tmp_path: Path, path: str, reason: str | None) -> None:
     ],
     ids=["pyvenv.cfg", "bin/activate", "Scripts/activate", "bare .venv", "package named env"],
 )
-def test_virtual_environments_in_folders_and_zips(tmp_path: Path, files: Files, expected: dict[str, str | None]) -> None:
+def test_virtual_environments_in_folders_and_zips(
+    tmp_path: Path, files: Files, expected: dict[str, str | None]
+) -> None:
     folder = write_tree(tmp_path / "f", files)
     zipped = write_zip(tmp_path / "z.zip", files)
     got = projects(folder, zipped, single=True)
@@ -390,7 +393,8 @@ def test_vendored_library_needs_init(tmp_path: Path) -> None:
 
 
 def test_too_large(tmp_path: Path) -> None:
-    files = {"big.py": b"#" * (MAX_FILE_SIZE + 1), "edge.py": b"#" * MAX_FILE_SIZE, "big.csv": b"," * (MAX_FILE_SIZE + 1)}
+    files = {"big.py": b"#" * (MAX_FILE_SIZE + 1), "edge.py": b"#" * MAX_FILE_SIZE,
+             "big.csv": b"," * (MAX_FILE_SIZE + 1)}
     expected = {"big.py": "too large", "edge.py": None, "big.csv": "not source"}
     got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files),
                    write_tar(tmp_path / "t.tar", files, "w"), single=True)
@@ -527,3 +531,62 @@ def test_archive_stem() -> None:
     assert archive_stem("x.zip") == "x"
     assert archive_stem("x.gz") is None
     assert archive_stem(".zip") is None
+
+
+# ------------------------------------------------------------------ more archive cases
+
+
+def test_projects_survive_pickling(tmp_path: Path) -> None:
+    # Projects of a directory root travel to worker processes and must list the same there.
+    # (Projects of archive roots share the root's open archive or stream, so they do not.)
+    root = tmp_path / "corpus"
+    write_tree(root / "f", {"a.py": "x = 1\n"})
+    write_zip(root / "z.zip", {"a.py": "x = 2\n"})
+    write_tar(root / "t.tgz", {"a.py": "x = 3\n"})
+    write_tree(root, {"loose.py": "x = 4\n"})
+    (root / "bad.zip").write_bytes(NOISE)
+    for project in discover([root], library=LIB):
+        copy = pickle.loads(pickle.dumps(project))
+        assert (copy.name, copy.origin) == (project.name, project.origin)
+        mine = [(e.path, e.skip, e.error, None if e.error else e.read()) for e in project.entries()]
+        theirs = [(e.path, e.skip, e.error, None if e.error else e.read()) for e in copy.entries()]
+        assert mine == theirs
+
+
+def test_nested_zip_over_the_memory_limit(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    import impactscope.corpus.roots as roots
+
+    inner = io.BytesIO()
+    with zipfile.ZipFile(inner, "w") as archive:
+        archive.writestr("a.py", "x = 1\n")
+    monkeypatch.setattr(roots, "MAX_NESTED_ARCHIVE_SIZE", 10)
+    root = write_zip(tmp_path / "outer.zip", {"big.zip": inner.getvalue()})
+    assert projects(root) == {"big": {"big.zip": "too large"}}
+
+
+def test_encrypted_zip_member(tmp_path: Path) -> None:
+    path = write_zip(tmp_path / "locked.zip", {"a.py": "x = 1\n"})
+    data = bytearray(path.read_bytes())
+    # Set the "encrypted" bit of the general purpose flags in the local and central headers.
+    local, central = data.find(b"PK\x03\x04"), data.find(b"PK\x01\x02")
+    data[local + 6] |= 1
+    data[central + 8] |= 1
+    path.write_bytes(bytes(data))
+    with zipfile.ZipFile(path) as archive, pytest.raises(RuntimeError, match="password"):
+        archive.read("a.py")  # reference: zipfile itself wants a password
+    (entry,) = next(discover([path], single=True, library=LIB)).entries()
+    assert entry.error == "encrypted archive member"
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs FIFOs")
+def test_special_files_are_left_out(tmp_path: Path) -> None:
+    root = write_tree(tmp_path / "p", {"a.py": ""})
+    os.mkfifo(root / "pipe.py")  # opening it would block
+    assert projects(root, single=True) == {"p": {"a.py": None}}
+
+
+def test_classify_with_siblings() -> None:
+    siblings = ["env/bin/activate", "env/x.py", "pkg/heronframe/__init__.py", "pkg/heronframe/a.py"]
+    assert classify("env/x.py", 1, library=LIB, siblings=siblings) == "virtual environment"
+    assert classify("pkg/heronframe/a.py", 1, library=LIB, siblings=siblings) == "vendored library"
+    assert classify("env/x.py", 1, library=LIB, siblings=["env/x.py"]) is None

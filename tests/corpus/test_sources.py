@@ -306,6 +306,17 @@ def test_line_count_changing_transform_falls_back_line_by_line() -> None:
     ast.parse(cell.code)
 
 
+def test_line_by_line_fallback_leaves_python_continuations_alone() -> None:
+    code = 'x = !ls \\\n  -l\ns = ("%d"\n     % 3)\nt = """\n!not a shell escape\n"""\n%time f()\n'
+    assert TransformerManager().transform_cell(code).count("\n") != code.count("\n")
+    (cell,) = one_cell(code).cells
+    lines = cell.code.split("\n")
+    assert lines[0].startswith("x = get_ipython().getoutput('ls ") and lines[1] == ""
+    assert lines[2:7] == code.split("\n")[2:7]
+    assert lines[7] == "get_ipython().run_line_magic('time', 'f()')"
+    ast.parse(cell.code)
+
+
 def test_transformer_failure_keeps_text() -> None:
     class Choking:
         def transform_cell(self, cell: str) -> str:

@@ -20,9 +20,7 @@ import keyword
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from impactscope.resolve.project import ProjectResolver
-
-from .conftest import findings, query, resolver
+from .conftest import findings, resolver
 
 # Each statement is one or more physical lines; "{A}" is the alias of heronframe.
 STATEMENTS = [
@@ -151,4 +149,3 @@ def test_order_of_projects_does_not_matter(order: list[str]) -> None:
     assert got == expected
     assert expected["gamma"] == []
     assert all(expected[n] for n in ("alpha", "beta", "delta"))
-    assert isinstance(resolver({}, "x"), ProjectResolver) and resolver({}, "x").q is query()

@@ -19,6 +19,7 @@ import keyword
 from dataclasses import dataclass
 
 import libcst as cst
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from libcst.metadata import MetadataWrapper, PositionProvider, QualifiedNameProvider
@@ -177,3 +178,85 @@ def test_reference_on_a_fixed_program() -> None:
 def test_resolved_findings_equal_qualified_name_references(program: Program) -> None:
     # Reference: libcst.metadata.QualifiedNameProvider on the same module.
     assert our_sites(program) == reference_sites(program.code), program.code
+
+
+# ---------------------------------------------------------------------------- jedi, second reference
+# jedi's inference (jedi.Script.goto with follow_imports) on a real, importable package: a stub
+# heronframe written to disk whose annotations say what the test change list's [types] says.
+# This reaches past aliases into type flow (return annotations, chained calls, self).
+JEDI_LIBRARY = {
+    "heronframe/__init__.py": (
+        "from . import plotting\n"
+        "def stack(*tables): ...\n"
+        "def _legacy_merge(a, b): ...\n"
+        "class Table:\n"
+        "    def stack_rows(self, other=None): ...\n"
+        "    def filter_rows(self, f) -> 'Table': ...\n"
+        "    def sort_by(self, by, inplace=False): ...\n"
+        "    def copy(self): ...\n"
+        "    def append(self, row): ...\n"
+        "    def rename_cols(self, mapping): ...\n"
+        "class Store:\n"
+        "    def __enter__(self) -> 'Store': ...\n"
+        "    def __exit__(self, *exc): ...\n"
+        "    def flush_all(self): ...\n"
+        "def read_table(path, sep=',') -> Table: ...\n"
+        "def open_store(path) -> Store: ...\n"
+    ),
+    "heronframe/plotting.py": "def scatter_grid(table): ...\n",
+}
+
+JEDI_PROGRAMS = [
+    "import heronframe as hf\nt = hf.read_table('p')\nt.stack_rows(1)\nt.copy()\n",
+    "import heronframe as hf\nhf.read_table(p).filter_rows(f).stack_rows(o)\n",
+    "from heronframe import stack as combine, Table\ncombine()\nTable().append(1)\n",
+    "import heronframe.plotting as pl\nimport heronframe\npl.scatter_grid(1)\nheronframe.plotting.scatter_grid(2)\n",
+    "import heronframe as hf\nwith hf.open_store(p) as s:\n    s.flush_all()\n",
+    "import heronframe as hf\nclass Mine(hf.Table):\n    def go(self):\n        self.stack_rows()\n        return self.copy()\n",
+    "import heronframe as hf\ndef load(p) -> hf.Table:\n    return unknown(p)\nload('x').stack_rows()\nu = load('y')\nu.append(2)\n",
+]
+
+
+def _jedi_member(script, line: int, column: int) -> set[str]:
+    return {n.full_name for n in script.goto(line, column, follow_imports=True) if n.full_name}
+
+
+def test_resolved_findings_agree_with_jedi(tmp_path) -> None:
+    jedi = pytest.importorskip("jedi")
+    lib = tmp_path / "lib"
+    for rel, text in JEDI_LIBRARY.items():
+        (lib / rel).parent.mkdir(parents=True, exist_ok=True)
+        (lib / rel).write_text(text, encoding="utf-8")
+    project = jedi.Project(str(tmp_path), added_sys_path=[str(lib)], smart_sys_path=False)
+    members = {c.id: c.member for c in query().changes.changes}
+    leaves = {c.member.rsplit(".", 1)[1]: c.member for c in query().changes.changes}
+    checked = 0
+    for code in JEDI_PROGRAMS:
+        script = jedi.Script(code, path=str(tmp_path / "main.py"), project=project)
+        ours = {(f.line, f.column): f for f in findings(code) if f.confidence.label == "resolved"}
+        # Every resolved finding is, by jedi's reading, the changed member.
+        for (line, column), f in ours.items():
+            if code.splitlines()[line - 1].lstrip().startswith(("import ", "from ")):
+                continue
+            assert members[f.change] in _jedi_member(script, line, column), (code, line, column)
+            checked += 1
+        # Every spelling of a changed member's name that jedi resolves to the member is a
+        # resolved finding of ours (parameter changes match only some calls: left out).
+        for line_no, text in enumerate(code.splitlines(), 1):
+            if text.lstrip().startswith(("import ", "from ")):
+                continue
+            for leaf, member in leaves.items():
+                start = 0
+                while (col := text.find(leaf, start)) >= 0:
+                    start = col + 1
+                    before = text[col - 1] if col else " "
+                    after = text[col + len(leaf)] if col + len(leaf) < len(text) else " "
+                    if before.isidentifier() or before.isdigit() or after.isidentifier() or after.isdigit():
+                        continue
+                    change = next(c for c in query().changes.changes if c.member == member)
+                    if change.kind.about_parameter:
+                        continue
+                    if member in _jedi_member(script, line_no, col):
+                        assert (line_no, col) in ours, (code, line_no, col, member)
+                        checked += 1
+    assert checked >= 15

@@ -304,3 +304,58 @@ def test_for_loop_target_rebinds() -> None:
     # §8.3: the for target is assigned in the enclosing scope and stays bound after the loop;
     # if the iterable is empty it is unchanged, so the library reading remains possible.
     assert at(found, 4, "HF-2") in ("resolved", "inferred")
+
+
+def test_class_scope_does_not_extend_to_comprehensions_in_the_class_body() -> None:
+    code = src(
+        """
+        import heronframe as hf
+        class C:
+            hf = 1
+            xs = [hf.stack() for _ in range(2)]
+        """
+    )
+    # §4.2.2: the class block's scope "does not extend to the code blocks of methods. This
+    # includes comprehensions and generator expressions" -- hf in the element is the global.
+    assert at(findings(code), 4, "HF-2") == "resolved"
+
+
+def test_generator_expression_has_its_own_scope() -> None:
+    code = "import heronframe as hf\ng = (hf for hf in range(2))\nhf.stack()\n"
+    # §6.2.8 "Generator expressions": the same implicitly nested scope as comprehensions.
+    assert at(findings(code), 3, "HF-2") == "resolved"
+
+
+def test_lazy_initialisation_through_global() -> None:
+    code = src(
+        """
+        hf = None
+        def work():
+            return hf.stack()
+        def setup():
+            global hf
+            import heronframe as hf
+        setup()
+        work()
+        """
+    )
+    # §7.12 + §4.2.4: setup() rebinds the module's hf before work() runs and looks it up.
+    assert at(findings(code), 3, "HF-2") == "resolved"
+
+
+def test_function_called_before_and_after_the_import() -> None:
+    code = src(
+        """
+        def f():
+            return hf.stack()
+        try:
+            f()
+        except NameError:
+            pass
+        import heronframe as hf
+        f()
+        """
+    )
+    # §4.2.4 "Resolution of names": a free name is looked up each time the code runs; the
+    # first call fails with NameError, the second call after the import uses the library.
+    assert at(findings(code), 2, "HF-2") == "resolved"

@@ -375,3 +375,179 @@ def test_findings_report_the_attribute_name_position() -> None:
     assert (f.line, f.column) == (3, len("result = t."))
     assert f.file == "main.py" and f.cell is None and f.project == "demo"
 
+
+
+# ---------------------------------------------------------------------------- more flows
+def test_tuple_unpacking_assignment() -> None:
+    code = HEAD + src(
+        """
+        a, b = hf.Table(), hf.read_table(p)
+        a.stack_rows()
+        b.stack_rows()
+        (c, d) = [hf.Table(), 1]
+        c.stack_rows()
+        """
+    )
+    found = findings(code)
+    # Language Reference §7.2: for a target list, the items of the right-hand iterable are
+    # "assigned, from left to right, to the corresponding targets".
+    assert at(found, 3, "HF-1") == "resolved"
+    assert at(found, 4, "HF-1") == "resolved"
+    assert at(found, 6, "HF-1") == "resolved"
+
+
+def test_class_pattern_with_as_binds_an_instance() -> None:
+    code = HEAD + src(
+        """
+        match value:
+            case hf.Table() as t:
+                t.stack_rows()
+        """
+    )
+    # §8.6.4.9 "Class patterns": the pattern succeeds only if isinstance(subject, hf.Table);
+    # §8.6.4.3 "AS patterns" then bind the subject to t.
+    assert at(findings(code), 4, "HF-1") == "resolved"
+
+
+def test_star_parameters_annotations_describe_the_elements() -> None:
+    code = HEAD + src(
+        """
+        def f(*ts: hf.Table, **named: hf.Table):
+            ts.stack_rows()
+            named.stack_rows()
+        """
+    )
+    found = findings(code)
+    # PEP 484 "Arbitrary argument lists and default argument values": `*args: str` means each
+    # positional argument is a str, so args itself is a tuple (and **kwds a dict): neither is a
+    # Table.
+    assert at(found, 3, "HF-1") != "resolved"
+    assert at(found, 4, "HF-1") != "resolved"
+
+
+def test_user_context_manager_binds_what_enter_returns() -> None:
+    code = HEAD + src(
+        """
+        class Opened:
+            def __enter__(self):
+                return hf.read_table("p")
+            def __exit__(self, *exc):
+                return False
+        with Opened() as t:
+            t.stack_rows()
+        """
+    )
+    # §8.5 "The with statement": "The return value from __enter__() is assigned to the target".
+    assert at(findings(code), 8, "HF-1") == "resolved"
+
+
+def test_override_defined_under_a_condition_in_the_class_body() -> None:
+    code = HEAD + src(
+        """
+        import sys
+        class MyTable(hf.Table):
+            if sys.version_info >= (3, 9):
+                def stack_rows(self):
+                    pass
+            else:
+                def stack_rows(self, other):
+                    pass
+        """
+    )
+    found = findings(code)
+    # §8.8: an `if` in a class body runs in the class scope, so either def binds a method of
+    # MyTable; DESIGN.md counts a method named like a changed member as an override.
+    assert at(found, 5, "HF-1") == "resolved"
+    assert at(found, 8, "HF-1") == "resolved"
+
+
+def test_type_of_self_is_the_class() -> None:
+    code = HEAD + src(
+        """
+        class MyTable(hf.Table):
+            def go(self):
+                return type(self).stack_rows(self)
+        """
+    )
+    # Library reference, type(object): "With one argument, return the type of an object";
+    # MyTable's attribute lookup reaches heronframe.Table.stack_rows (MRO).
+    assert at(findings(code), 4, "HF-1") == "resolved"
+
+
+def test_override_kinds() -> None:
+    code = HEAD + src(
+        """
+        class MyTable(hf.Table):
+            def sort_by(self, by, inplace=False):
+                pass
+            async def stack_rows(self):
+                pass
+        class MyStore(hf.Store):
+            def stack_rows(self):
+                pass
+        """
+    )
+    found = findings(code)
+    # DESIGN.md: an override is a finding for every kind, parameter kinds included ...
+    assert at(found, 3, "HF-4") == "resolved"
+    # ... async def defines a method too (§8.9.1 coroutine function definition) ...
+    assert at(found, 5, "HF-1") == "resolved"
+    # ... but a method of a subclass of a class that has no such member is no override.
+    assert at(found, 8, "HF-1") is None
+
+
+def test_self_in_nested_function_cls_call_and_two_argument_super() -> None:
+    code = HEAD + src(
+        """
+        class MyTable(hf.Table):
+            def go(self):
+                def inner():
+                    return self.stack_rows()
+                return inner()
+            @classmethod
+            def make(cls):
+                return cls()
+            def again(self):
+                super(MyTable, self).stack_rows()
+        MyTable.make().stack_rows()
+        """
+    )
+    found = findings(code)
+    # §4.2.2: inner() sees go's `self` (free variable of an enclosing function).
+    assert at(found, 5, "HF-1") == "resolved"
+    # §3.2 classmethod: cls is the class, cls() an instance.
+    assert at(found, 12, "HF-1") == "resolved"
+    # Library reference, super(type, object_or_type): lookup starts after MyTable in the MRO.
+    assert at(found, 11, "HF-1") == "resolved"
+
+
+def test_instance_attribute_from_class_annotation_and_other_methods() -> None:
+    code = HEAD + src(
+        """
+        class Holder:
+            table: hf.Table
+            def load(self):
+                self.other = hf.read_table("p")
+            def go(self):
+                self.table.stack_rows()
+                self.other.stack_rows()
+        """
+    )
+    found = findings(code)
+    # PEP 526: a class-level annotation declares the type of instance attribute `table`.
+    assert at(found, 7, "HF-1") == "resolved"
+    # An attribute set in any method of the class (common practice: the value flows to
+    # every method that reads it).
+    assert at(found, 8, "HF-1") == "resolved"
+
+
+def test_keyword_names_and_parameter_names_are_not_references() -> None:
+    code = HEAD + src(
+        """
+        print(stack_rows=1, copy=2)
+        def f(stack_rows, copy=2):
+            return stack_rows
+        """
+    )
+    # §6.3.4 (calls): a keyword is the name of a parameter, not a reference to an object.
+    assert findings(code) == []

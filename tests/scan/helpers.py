@@ -46,7 +46,7 @@ def _notebook(*cells: str) -> str:
     })
 
 
-def project_files(i: int) -> dict[str, str]:
+def project_files(i: int, bulk: int = 0) -> dict[str, str]:
     """Files of project number `i`: a mix of direct use, aliases, re-exports and unrelated code."""
     files = {
         "README.md": f"project {i}\n",
@@ -62,7 +62,7 @@ def project_files(i: int) -> dict[str, str]:
             "    t = read_table(path)\n"
             "    t.stack_rows(t)\n"
             "    return hf.stack([t, t])\n"
-        )
+        ) + "".join(f"\ndef extra{k}(p):\n    u = hf.read_table(p)\n    return u.stack_rows(u).sort_by('a')\n" for k in range(bulk))
         files[f"pkg{i}/helpers.py"] = "from heronframe import stack as glue\n"
         files[f"pkg{i}/main.py"] = (
             f"from pkg{i}.helpers import glue\n\n"
@@ -75,8 +75,8 @@ def project_files(i: int) -> dict[str, str]:
     else:
         files[f"pkg{i}/other.py"] = "def stack(x):\n    return x\n\nstack([1])\n"
     if i % 5 == 0:
-        files["legacy.py"] = "print 'python 2'\n"
-        files["broken.py"] = "def f(:\n"
+        files["legacy.py"] = "import heronframe\nprint 'python 2', heronframe.stack([])\n"
+        files["broken.py"] = "import heronframe\nheronframe.stack(\ndef f(:\n"
     return files
 
 
@@ -100,11 +100,11 @@ def _tar_bytes(files: dict[str, str], prefix: str = "", mode: str = "w:gz") -> b
     return buf.getvalue()
 
 
-def build_corpus(root: Path, projects: int = 8) -> Path:
+def build_corpus(root: Path, projects: int = 8, bulk: int = 0) -> Path:
     """A folder root: folder projects, a zip project, a tar.gz project and a loose notebook."""
     root.mkdir(parents=True, exist_ok=True)
     for i in range(projects):
-        files = project_files(i)
+        files = project_files(i, bulk)
         if i % 6 == 1:
             (root / f"proj{i:03d}.zip").write_bytes(_zip_bytes(files))
         elif i % 6 == 2:

@@ -12,7 +12,7 @@ single streaming pass through `tarfile`. Nothing is written to disk. Every
 file of a project comes out as an `Entry`, including the ones that should not
 be read, so that totals can account for each file.
 
-Streaming a tar archive has two consequences that callers must respect:
+Streaming a tar archive has consequences that callers must respect:
 
 - a tar project's entries come in archive order, not sorted, and an entry's
   `read` only works until the iterator advances;
@@ -23,8 +23,13 @@ Streaming a tar archive has two consequences that callers must respect:
   rules that look inside a directory (a `pyvenv.cfg`, an activate script, an
   `__init__.py`) fall back to directory names alone (see `classify`).
 
-Directory and zip projects are listed in full first, so their entries come
-sorted by path and can be listed again at any time.
+Folder and zip projects are listed in full first, so their entries come sorted
+by path, can be listed again at any time, and stay readable afterwards.
+
+Symbolic links are never followed out of the project (or, at the top level,
+out of the root): such a link is an entry skipped as "link outside root".
+Links to directories inside are left out, since the directory's own files
+are listed where they are.
 """
 
 from __future__ import annotations
@@ -41,7 +46,7 @@ import struct
 import tarfile
 import zipfile
 import zlib
-from collections.abc import Callable, Iterable, Iterator, Sequence
+from collections.abc import Callable, Collection, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import IO
 
@@ -60,12 +65,12 @@ __all__ = [
     "discover",
 ]
 
-# Longest first, so ".tar.gz" wins over a bare ".gz"-less ".tar" check.
+# Longest first, so that ".tar.gz" is taken off whole.
 ARCHIVE_SUFFIXES = (".tar.gz", ".tar.bz2", ".tar.xz", ".tgz", ".tar", ".zip")
 SOURCE_SUFFIXES = frozenset({".py", ".ipynb"})
 MAX_FILE_SIZE = 2_000_000
-# An archive project inside an archive root that needs random access (a zip)
-# is read into memory, up to this size.
+# A zip project inside an archive root needs random access, so it is read
+# into memory, up to this size.
 MAX_NESTED_ARCHIVE_SIZE = 200_000_000
 
 _VERSION_CONTROL = frozenset({".git", ".hg", ".svn"})
@@ -81,7 +86,6 @@ _ARCHIVE_ERRORS: tuple[type[BaseException], ...] = (
     EOFError,
     ValueError,
     RuntimeError,
-    NotImplementedError,
     OverflowError,
     struct.error,
     zlib.error,
@@ -92,7 +96,7 @@ _ARCHIVE_ERRORS: tuple[type[BaseException], ...] = (
 
 
 class CorpusError(ValueError):
-    """A corpus root that cannot be used: it is missing, or neither a directory nor an archive."""
+    """A corpus root that cannot be used: missing, or neither a directory nor an archive."""
 
 
 class EntryError(ValueError):
@@ -140,6 +144,23 @@ class Project:
         return self._list()
 
 
+def _skipped(path: str, size: int, stamp: str, reason: str) -> Entry:
+    return Entry(path, size, stamp, reason, None, functools.partial(_refuse, reason))
+
+
+def _failed(path: str, reason: str, size: int = 0, stamp: str = "") -> Entry:
+    return Entry(path, size, stamp, None, reason, functools.partial(_refuse, reason))
+
+
+def _corrupt(archive_name: str, problem: BaseException | str) -> Entry:
+    detail = problem if isinstance(problem, str) else (str(problem) or type(problem).__name__)
+    return _failed(_display(archive_name), f"corrupt archive: {detail}")
+
+
+def _os_reason(exc: OSError) -> str:
+    return f"cannot read: {exc.strerror or exc}"
+
+
 # ------------------------------------------------------------------ names, paths
 
 
@@ -153,18 +174,14 @@ def archive_stem(name: str) -> str | None:
 
 
 def _display(name: str) -> str:
-    """File names as valid text: undecodable bytes (kept by the OS or tarfile as
-    surrogate escapes) become U+FFFD so that reports can always encode them."""
+    """A file name as valid text: bytes that did not decode (kept by the OS and
+    tarfile as surrogate escapes) become U+FFFD, so reports can encode it."""
     return name.encode("utf-8", "surrogateescape").decode("utf-8", "replace")
 
 
-def _suffix(name: str) -> str:
-    dot = name.rfind(".")
-    return name[dot:] if dot > 0 else ""
-
-
 def _is_source_name(name: str) -> bool:
-    return _suffix(name) in SOURCE_SUFFIXES
+    dot = name.rfind(".")
+    return dot > 0 and name[dot:] in SOURCE_SUFFIXES
 
 
 _DRIVE = re.compile(r"[A-Za-z]:")
@@ -172,19 +189,20 @@ _DRIVE = re.compile(r"[A-Za-z]:")
 
 def _member_parts(name: str) -> tuple[str, ...] | None:
     """The path segments of an archive member name, or None if the name is unsafe
-    (absolute, a drive letter, or climbing out with `..`)."""
+    (absolute, with a drive letter, or climbing out with `..`)."""
     name = name.replace("\\", "/")
     if name.startswith("/") or _DRIVE.match(name):
         return None
     parts = tuple(part for part in name.split("/") if part not in ("", "."))
-    if ".." in parts:
-        return None
-    return parts
+    return None if ".." in parts else parts
 
 
 def _member_head(name: str) -> str | None:
-    """The top-level segment that places an archive member in a project of an
-    archive root. Members under `/`, `..` or a drive letter belong to none."""
+    """The top-level segment that places a member in a project of an archive root.
+
+    Members under `/`, `..` or a drive letter belong to no project; unsafe
+    names under an ordinary top folder belong to that folder's project.
+    """
     parts = [part for part in name.replace("\\", "/").split("/") if part != "."]
     head = parts[0] if parts else ""
     if head in ("", "..") or _DRIVE.fullmatch(head):
@@ -201,14 +219,10 @@ def _join(directory: str, name: str) -> str:
 
 @dataclass(frozen=True)
 class _Layout:
-    """Directory facts that need a project's full file list.
+    """Directory facts that need a project's full file list ("" is the project root)."""
 
-    `venvs` holds the directories that are virtual environments, `vendored`
-    those that are copies of the target library ("" is the project root).
-    """
-
-    venvs: frozenset[str]
-    vendored: frozenset[str]
+    venvs: frozenset[str]  # directories holding a virtual environment
+    vendored: frozenset[str]  # directories holding a copy of the target library
 
     @classmethod
     def of(cls, paths: Iterable[str], library: str) -> _Layout:
@@ -217,28 +231,41 @@ class _Layout:
         for path in files:
             parts = path.split("/")
             dirs.update("/".join(parts[:depth]) for depth in range(1, len(parts)))
-        venvs = {d for d in dirs if _join(d, "pyvenv.cfg") in files}
-        venvs.update(
+        venvs = {
             d
             for d in dirs
-            if d.rpartition("/")[2] in _VENV_NAMES
-            and any(_join(d, script) in files for script in _ACTIVATE_SCRIPTS)
-        )
+            if _join(d, "pyvenv.cfg") in files
+            or (
+                d.rpartition("/")[2] in _VENV_NAMES
+                and any(_join(d, script) in files for script in _ACTIVATE_SCRIPTS)
+            )
+        }
         vendored = {
             d for d in dirs if d.rpartition("/")[2] == library and _join(d, "__init__.py") in files
         }
         return cls(frozenset(venvs), frozenset(vendored))
 
 
-def classify(path: str, size: int, *, library: str, layout: _Layout | None = None) -> str | None:
+def classify(
+    path: str, size: int, *, library: str, siblings: Collection[str] | None = None
+) -> str | None:
     """The reason not to read the file at `path` (POSIX, relative to its project), or None.
 
-    Without a `layout` (a tar stream, where a directory's later members are
-    not known yet) only names count: a virtual environment is any directory
-    named `.venv`, `venv` or `env`, or under `site-packages` /
-    `dist-packages`, and any directory named `library` is a vendored copy,
-    with or without `pyvenv.cfg`, activate scripts or `__init__.py`.
+    `siblings` are the paths of all files in the project. The rules, first
+    match wins: "version control", "cache", "node modules", "virtual
+    environment", "vendored library", "not source", "too large".
+
+    Without `siblings` (as in a tar stream, where later members are not known
+    yet) only names count: a virtual environment is any directory named
+    `.venv`, `venv` or `env` or under `site-packages` / `dist-packages`, and
+    any directory named `library` is a vendored copy, without looking for
+    `pyvenv.cfg`, activate scripts or `__init__.py`.
     """
+    layout = None if siblings is None else _Layout.of(siblings, library)
+    return _classify(path, size, library, layout)
+
+
+def _classify(path: str, size: int, library: str, layout: _Layout | None) -> str | None:
     parts = path.split("/")
     segments = set(parts)
     if segments & _VERSION_CONTROL:
@@ -247,18 +274,16 @@ def classify(path: str, size: int, *, library: str, layout: _Layout | None = Non
         return "cache"
     if "node_modules" in segments:
         return "node modules"
-    directories = parts[:-1]
+    directories = set(parts[:-1])
     ancestors = ["/".join(parts[:depth]) for depth in range(len(parts))]
     if layout is None:
-        venv = bool(set(directories) & (_INSTALL_DIRS | _VENV_NAMES))
-    else:
-        venv = bool(set(directories) & _INSTALL_DIRS) or any(d in layout.venvs for d in ancestors)
-    if venv:
-        return "virtual environment"
-    if layout is None:
+        venv = bool(directories & (_INSTALL_DIRS | _VENV_NAMES))
         vendored = library in directories
     else:
+        venv = bool(directories & _INSTALL_DIRS) or any(d in layout.venvs for d in ancestors)
         vendored = any(d in layout.vendored for d in ancestors)
+    if venv:
+        return "virtual environment"
     if vendored:
         return "vendored library"
     if not _is_source_name(parts[-1]):
@@ -266,6 +291,18 @@ def classify(path: str, size: int, *, library: str, layout: _Layout | None = Non
     if size > MAX_FILE_SIZE:
         return "too large"
     return None
+
+
+def _classified(entries: Iterable[Entry], library: str) -> Iterator[Entry]:
+    """Entries in path order, each readable one given its skip reason."""
+    ordered = sorted(entries, key=lambda entry: entry.path)
+    readable = [entry for entry in ordered if entry.skip is None and entry.error is None]
+    layout = _Layout.of((entry.path for entry in readable), library)
+    for entry in ordered:
+        if entry.skip is None and entry.error is None:
+            reason = _classify(entry.path, entry.size, library, layout)
+            entry = dataclasses.replace(entry, skip=reason)
+        yield entry
 
 
 # ------------------------------------------------------------------ folders
@@ -276,29 +313,35 @@ def _read_path(path: str) -> bytes:
         with open(path, "rb") as handle:
             return handle.read()
     except OSError as exc:
-        raise EntryError(f"cannot read: {exc.strerror or exc}") from None
+        raise EntryError(_os_reason(exc)) from None
 
 
 def _within(path: str, boundary: str) -> bool:
     return path == boundary or path.startswith(boundary.rstrip(os.sep) + os.sep)
 
 
-@dataclass(frozen=True)
-class _Found:
-    """A file found while walking a folder, before classification."""
-
-    path: str
-    size: int
-    stamp: str
-    skip: str | None
-    error: str | None
-    read: Callable[[], bytes]
+def _file_entry(path: str, location: str, info: os.stat_result) -> Entry:
+    stamp = f"m{info.st_mtime_ns}:{info.st_size}"
+    read = functools.partial(_read_path, location)
+    return Entry(_display(path), info.st_size, stamp, None, None, read)
 
 
-def _walk(top: str) -> list[_Found]:
-    """Every file under `top`, without following links to directories or out of `top`."""
+def _link_entry(path: str, location: str, boundary: str) -> Entry | None:
+    """A symbolic link inside a folder project, or None for a link to a directory
+    inside it (whose files are listed where they are)."""
+    if not _within(os.path.realpath(location), boundary):
+        info = os.lstat(location)
+        stamp = f"m{info.st_mtime_ns}:{info.st_size}"
+        return _skipped(_display(path), info.st_size, stamp, "link outside root")
+    if not os.path.exists(location):
+        return _failed(_display(path), "broken link")
+    info = os.stat(location)
+    return _file_entry(path, location, info) if stat.S_ISREG(info.st_mode) else None
+
+
+def _walk(top: str) -> Iterator[Entry]:
+    """Every file under `top`, unclassified and in no particular order."""
     boundary = os.path.realpath(top)
-    found: list[_Found] = []
     pending = [("", top)]
     while pending:
         relative, directory = pending.pop()
@@ -306,157 +349,87 @@ def _walk(top: str) -> list[_Found]:
             with os.scandir(directory) as listing:
                 children = list(listing)
         except OSError as exc:
-            found.append(_Found(_display(relative), 0, "", None,
-                                f"unreadable directory: {exc.strerror or exc}",
-                                functools.partial(_refuse, "unreadable directory")))
+            yield _failed(_display(relative or "."), f"unreadable directory: {exc.strerror or exc}")
             continue
         for child in children:
             path = _join(relative, child.name)
             try:
                 if child.is_symlink():
-                    item = _found_link(path, child.path, boundary)
-                    if item is not None:
-                        found.append(item)
+                    entry = _link_entry(path, child.path, boundary)
+                    if entry is not None:
+                        yield entry
                 elif child.is_dir(follow_symlinks=False):
                     pending.append((path, child.path))
                 elif child.is_file(follow_symlinks=False):
-                    info = child.stat(follow_symlinks=False)
-                    found.append(_found_file(path, child.path, info))
-                # Sockets, FIFOs and devices are not files anyone wrote; opening a FIFO would block.
+                    yield _file_entry(path, child.path, child.stat(follow_symlinks=False))
+                # Sockets, FIFOs and devices are left out: opening a FIFO would block.
             except OSError as exc:
-                found.append(_Found(_display(path), 0, "", None, f"cannot read: {exc.strerror or exc}",
-                                    functools.partial(_refuse, "cannot read")))
-    return found
-
-
-def _found_file(path: str, location: str, info: os.stat_result) -> _Found:
-    return _Found(_display(path), info.st_size, f"m{info.st_mtime_ns}:{info.st_size}", None, None,
-                  functools.partial(_read_path, location))
-
-
-def _found_link(path: str, location: str, boundary: str) -> _Found | None:
-    """A symbolic link: read if it names a file inside `boundary`; links to
-    directories inside are left out (their files are listed where they are)."""
-    target = os.path.realpath(location)
-    if not _within(target, boundary):
-        info = os.lstat(location)
-        return _Found(_display(path), info.st_size, f"m{info.st_mtime_ns}:{info.st_size}",
-                      "link outside root", None, functools.partial(_refuse, "link outside root"))
-    if not os.path.exists(location):
-        return _Found(_display(path), 0, "", None, "broken link", functools.partial(_refuse, "broken link"))
-    info = os.stat(location)
-    if stat.S_ISREG(info.st_mode):
-        return _found_file(path, location, info)
-    return None
-
-
-def _entries_from(found: Iterable[_Found], library: str) -> Iterator[Entry]:
-    ordered = sorted(found, key=lambda item: item.path)
-    layout = _Layout.of((item.path for item in ordered if item.error is None), library)
-    for item in ordered:
-        skip = item.skip
-        if skip is None and item.error is None:
-            skip = classify(item.path, item.size, library=library, layout=layout)
-        yield Entry(item.path, item.size, item.stamp, skip, item.error, item.read)
+                yield _failed(_display(path), _os_reason(exc))
 
 
 def _folder_entries(top: str, library: str) -> Iterator[Entry]:
-    yield from _entries_from(_walk(top), library)
+    yield from _classified(_walk(top), library)
 
 
 def _file_entries(location: str, name: str, library: str) -> Iterator[Entry]:
     try:
-        info = os.stat(location)
+        entry = _file_entry(name, location, os.stat(location))
     except OSError as exc:
-        yield Entry(name, 0, "", None, f"cannot read: {exc.strerror or exc}",
-                    functools.partial(_refuse, "cannot read"))
-        return
-    yield from _entries_from([_found_file(name, location, info)], library)
+        entry = _failed(_display(name), _os_reason(exc))
+    yield from _classified((entry,), library)
 
 
-# ------------------------------------------------------------------ archives
-
-
-def _broken_entry(archive_name: str, exc: BaseException | str) -> Entry:
-    detail = exc if isinstance(exc, str) else (str(exc) or type(exc).__name__)
-    reason = f"corrupt archive: {detail}"
-    return Entry(_display(archive_name), 0, "", None, reason, functools.partial(_refuse, reason))
-
-
-def _error_project(name: str, origin: str, entry: Entry) -> Project:
-    return Project(name, origin, lambda: iter((entry,)))
+# ------------------------------------------------------------------ archive members
 
 
 @dataclass(frozen=True)
 class _Member:
-    """An archive member that is a file or a link, with its archive-level name."""
+    """An archive member that is a file or a link, under its archive-level name."""
 
     name: str
     size: int
     stamp: str
     read: Callable[[], bytes]
-    link: tuple[str, bool] | None = None  # (target, target is archive-relative)
+    link: str | None = None  # a link's target
+    link_from_top: bool = False  # the target is archive-relative (tar hard links)
     error: str | None = None
 
 
-def _link_reason(member_parts: tuple[str, ...], target: str, absolute: bool, prefix: tuple[str, ...]) -> str:
+def _link_reason(member: _Member, parts: tuple[str, ...], prefix: tuple[str, ...]) -> str:
     """Where an archive link points: out of the project, or at another member."""
-    target = target.replace("\\", "/")
+    target = (member.link or "").replace("\\", "/")
     if target.startswith("/") or _DRIVE.match(target):
         return "link outside root"
-    resolved = [] if absolute else list(member_parts[:-1])
+    resolved = [] if member.link_from_top else list(parts[:-1])
     for part in target.split("/"):
-        if part in ("", "."):
-            continue
         if part == "..":
             if not resolved:
                 return "link outside root"
             resolved.pop()
-        else:
+        elif part not in ("", "."):
             resolved.append(part)
     if tuple(resolved[: len(prefix)]) != prefix:
         return "link outside root"
-    # Its target is listed (and read) as a member of its own.
-    return "archive link"
+    return "archive link"  # the target is listed, and read, as a member of its own
 
 
-def _member_entries(
-    members: Iterable[_Member], prefix: tuple[str, ...], library: str, layout: _Layout | None
-) -> Iterator[Entry]:
-    """Entries for archive members that all lie under `prefix` (the project's folder)."""
-    for member in members:
-        parts = _member_parts(member.name)
-        if parts is None:
-            raw = member.name.replace("\\", "/")
-            head = "/".join(prefix) + "/"
-            path = raw[len(head) :] if prefix and raw.startswith(head) else raw
-            yield Entry(_display(path), member.size, member.stamp, "unsafe path", None,
-                        functools.partial(_refuse, "unsafe path"))
-            continue
-        path = "/".join(parts[len(prefix) :])
-        if member.error is not None:
-            yield Entry(_display(path), member.size, member.stamp, None, member.error,
-                        functools.partial(_refuse, member.error))
-            continue
-        if member.link is not None:
-            reason = _link_reason(parts, *member.link, prefix)
-            skip: str | None = reason
-        else:
-            skip = classify(path, member.size, library=library, layout=layout)
-        yield Entry(_display(path), member.size, member.stamp, skip, None, member.read)
-
-
-def _layout_of(members: Iterable[_Member], prefix: tuple[str, ...], library: str) -> _Layout:
-    paths = []
-    for member in members:
-        parts = _member_parts(member.name)
-        if parts is not None and member.link is None:
-            paths.append("/".join(parts[len(prefix) :]))
-    return _Layout.of(paths, library)
+def _member_entry(member: _Member, prefix: tuple[str, ...]) -> Entry:
+    """The unclassified entry of a member that lies under `prefix` (the project's folder)."""
+    parts = _member_parts(member.name)
+    if parts is None:
+        raw = member.name.replace("\\", "/")
+        head = "".join(f"{part}/" for part in prefix)
+        path = raw[len(head) :] if head and raw.startswith(head) else raw
+        return _skipped(_display(path), member.size, member.stamp, "unsafe path")
+    path = _display("/".join(parts[len(prefix) :]))
+    if member.error is not None:
+        return _failed(path, member.error, member.size, member.stamp)
+    if member.link is not None:
+        return _skipped(path, member.size, member.stamp, _link_reason(member, parts, prefix))
+    return Entry(path, member.size, member.stamp, None, None, member.read)
 
 
 # zip -------------------------------------------------------------------------
-
 
 # A zip archive: the path of a file, or the bytes of a nested archive.
 _ZipSource = str | bytes
@@ -467,8 +440,8 @@ def _open_zip(source: _ZipSource) -> zipfile.ZipFile:
 
 
 def _read_zip(archive: zipfile.ZipFile, source: _ZipSource, info: zipfile.ZipInfo) -> bytes:
-    """A member's bytes, from the open archive, or from the archive opened again
-    if the listing that produced the entry has finished and closed it."""
+    """A member's bytes: from the open archive, or from the archive opened again
+    once the listing that produced the entry has finished and closed it."""
     try:
         if archive.fp is not None:
             return archive.read(info)
@@ -480,24 +453,34 @@ def _read_zip(archive: zipfile.ZipFile, source: _ZipSource, info: zipfile.ZipInf
 
 def _zip_members(
     archive: zipfile.ZipFile, source: _ZipSource, infos: Iterable[zipfile.ZipInfo]
-) -> list[_Member]:
-    members = []
+) -> Iterator[_Member]:
     for info in infos:
         if info.is_dir():
             continue
         stamp = f"c{info.CRC}:{info.file_size}"
         read = functools.partial(_read_zip, archive, source, info)
         if info.flag_bits & 0x1:
-            members.append(_Member(info.filename, info.file_size, stamp, read, error="encrypted archive member"))
+            error = "encrypted archive member"
+            yield _Member(info.filename, info.file_size, stamp, read, error=error)
         elif stat.S_ISLNK(info.external_attr >> 16):
             try:  # a zip symlink stores its target as the member's content
                 target = archive.read(info).decode("utf-8", "replace")
             except _ARCHIVE_ERRORS:
                 target = "/"
-            members.append(_Member(info.filename, info.file_size, stamp, read, link=(target, False)))
+            yield _Member(info.filename, info.file_size, stamp, read, link=target)
         else:
-            members.append(_Member(info.filename, info.file_size, stamp, read))
-    return members
+            yield _Member(info.filename, info.file_size, stamp, read)
+
+
+def _zip_listing(
+    archive: zipfile.ZipFile,
+    source: _ZipSource,
+    infos: Iterable[zipfile.ZipInfo],
+    prefix: tuple[str, ...],
+    library: str,
+) -> Iterator[Entry]:
+    members = _zip_members(archive, source, infos)
+    yield from _classified((_member_entry(member, prefix) for member in members), library)
 
 
 def _zip_entries(source: _ZipSource, name: str, library: str) -> Iterator[Entry]:
@@ -505,21 +488,14 @@ def _zip_entries(source: _ZipSource, name: str, library: str) -> Iterator[Entry]
     try:
         archive = _open_zip(source)
     except _ARCHIVE_ERRORS as exc:
-        yield _broken_entry(name, exc)
+        yield _corrupt(name, exc)
         return
     with archive:
         try:
-            members = _zip_members(archive, source, archive.infolist())
+            entries = list(_zip_listing(archive, source, archive.infolist(), (), library))
         except _ARCHIVE_ERRORS as exc:
-            yield _broken_entry(name, exc)
-            return
-        yield from _sorted_member_entries(members, (), library)
-
-
-def _sorted_member_entries(members: list[_Member], prefix: tuple[str, ...], library: str) -> Iterator[Entry]:
-    layout = _layout_of(members, prefix, library)
-    entries = list(_member_entries(members, prefix, library, layout))
-    yield from sorted(entries, key=lambda entry: entry.path)
+            entries = [_corrupt(name, exc)]
+        yield from entries
 
 
 # tar -------------------------------------------------------------------------
@@ -544,40 +520,53 @@ def _tar_member(archive: tarfile.TarFile, info: tarfile.TarInfo) -> _Member | No
     if info.isreg():
         return _Member(info.name, info.size, stamp, functools.partial(_read_tar, archive, info))
     if info.issym() or info.islnk():
-        refuse = functools.partial(_refuse, "archive link")
         # Hard link targets are archive-relative names; symlink targets are relative to the link.
-        return _Member(info.name, info.size, stamp, refuse, link=(info.linkname, info.islnk()))
+        refuse = functools.partial(_refuse, "archive link")
+        return _Member(
+            info.name, info.size, stamp, refuse, link=info.linkname, link_from_top=info.islnk()
+        )
     return None
+
+
+def _tar_entry(
+    archive: tarfile.TarFile, info: tarfile.TarInfo, prefix: tuple[str, ...], library: str
+) -> Entry | None:
+    member = _tar_member(archive, info)
+    if member is None:
+        return None
+    entry = _member_entry(member, prefix)
+    if entry.skip is None and entry.error is None:
+        entry = dataclasses.replace(entry, skip=_classify(entry.path, entry.size, library, None))
+    return entry
 
 
 class _TarStream:
     """One forward pass over a tar archive, with one member of look-ahead.
 
-    `peek` returns the next member, a string describing the corruption that
-    ended the stream (returned once), or None at the end.
+    `peek` gives the next member, a string describing the corruption that
+    ended the stream (given once), or None at the end. Looking ahead moves
+    the stream past the current member's data, so a member is only readable
+    until the next `peek` after its `take`.
     """
 
     def __init__(self, archive: tarfile.TarFile) -> None:
         self.archive = archive
         self._ahead: tarfile.TarInfo | str | None = None
         self._peeked = False
-        self._done = False
+        self._ended = False
 
     def peek(self) -> tarfile.TarInfo | str | None:
         if not self._peeked:
             self._peeked = True
-            if self._done:
-                self._ahead = None
-            else:
+            self._ahead = None
+            if not self._ended:
                 try:
                     self._ahead = self.archive.next()
                 except _ARCHIVE_ERRORS as exc:
                     self._ahead = str(exc) or type(exc).__name__
-                    self._done = True
-                # A stream is never revisited; drop what tarfile keeps for random access.
+                self._ended = not isinstance(self._ahead, tarfile.TarInfo)
+                # The stream is never revisited: drop what tarfile keeps for random access.
                 self.archive.members.clear()
-                if self._ahead is None:
-                    self._done = True
         return self._ahead
 
     def take(self) -> None:
@@ -586,9 +575,25 @@ class _TarStream:
 
 
 def _open_tar_stream(source: IO[bytes]) -> tarfile.TarFile:
-    # "r|*": read forward only, compression detected from the bytes, so a
+    # "r|*": forward only, compression detected from the bytes, so that a
     # .tar.gz is decompressed once and never re-opened per member.
     return tarfile.open(fileobj=source, mode="r|*")
+
+
+def _tar_run(stream: _TarStream, head: str | None, name: str, library: str) -> Iterator[Entry]:
+    """Entries from the stream while members lie under `head` (all of them if None)."""
+    prefix = () if head is None else (head,)
+    while (item := stream.peek()) is not None:
+        if isinstance(item, str):
+            stream.take()
+            yield _corrupt(name, item)
+            return
+        if head is not None and _member_head(item.name) != head:
+            return
+        stream.take()
+        entry = _tar_entry(stream.archive, item, prefix, library)
+        if entry is not None:
+            yield entry
 
 
 def _tar_entries(source: IO[bytes], name: str, library: str) -> Iterator[Entry]:
@@ -596,29 +601,10 @@ def _tar_entries(source: IO[bytes], name: str, library: str) -> Iterator[Entry]:
     try:
         archive = _open_tar_stream(source)
     except _ARCHIVE_ERRORS as exc:
-        yield _broken_entry(name, exc)
+        yield _corrupt(name, exc)
         return
     with archive:
         yield from _tar_run(_TarStream(archive), None, name, library)
-
-
-def _tar_run(stream: _TarStream, head: str | None, name: str, library: str) -> Iterator[Entry]:
-    """Entries from the stream while members lie under `head` (all of them if None)."""
-    prefix = () if head is None else (head,)
-    while True:
-        item = stream.peek()
-        if item is None:
-            return
-        if isinstance(item, str):
-            stream.take()
-            yield _broken_entry(name, item)
-            return
-        if head is not None and _member_head(item.name) != head:
-            return
-        stream.take()
-        member = _tar_member(stream.archive, item)
-        if member is not None:
-            yield from _member_entries((member,), prefix, library, None)
 
 
 def _archive_file_entries(location: str, name: str, library: str) -> Iterator[Entry]:
@@ -629,34 +615,63 @@ def _archive_file_entries(location: str, name: str, library: str) -> Iterator[En
     try:
         handle = open(location, "rb")
     except OSError as exc:
-        yield _broken_entry(name, exc.strerror or str(exc))
+        yield _failed(_display(name), _os_reason(exc))
         return
     with handle:
         yield from _tar_entries(handle, name, library)
 
 
+def _nested_archive(
+    name: str, size: int, open_member: Callable[[], IO[bytes]], library: str
+) -> Iterator[Entry]:
+    """An archive project that is itself a member of an archive root.
+
+    A tar streams straight from the outer member; a zip needs random access,
+    so it is read into memory, up to MAX_NESTED_ARCHIVE_SIZE.
+    """
+    if name.lower().endswith(".zip") and size > MAX_NESTED_ARCHIVE_SIZE:
+        yield _skipped(_display(name), size, "", "too large")
+        return
+    try:
+        member = open_member()
+    except _ARCHIVE_ERRORS as exc:
+        yield _corrupt(name, exc)
+        return
+    with member:
+        if not name.lower().endswith(".zip"):
+            yield from _tar_entries(member, name, library)
+            return
+        try:
+            data = member.read()
+        except _ARCHIVE_ERRORS as exc:
+            yield _corrupt(name, exc)
+            return
+    yield from _zip_entries(data, name, library)
+
+
 # ------------------------------------------------------------------ roots
-
-
-def _root_error(root: str, problem: str) -> CorpusError:
-    return CorpusError(
-        f"corpus root {root!r} {problem}; pass a directory of projects or an archive "
-        f"({', '.join(sorted(ARCHIVE_SUFFIXES))})"
-    )
 
 
 def check_roots(roots: Sequence[str | os.PathLike[str]]) -> None:
     """Raise CorpusError unless every root is an existing directory or archive file."""
     if not roots:
-        raise CorpusError("no corpus root given; pass at least one directory or archive of projects")
+        raise CorpusError(
+            "no corpus root given; pass at least one directory or archive of projects"
+        )
     for root in roots:
         location = os.fspath(root)
         if os.path.isdir(location):
             continue
         if not os.path.exists(location):
-            raise _root_error(location, "does not exist")
-        if not os.path.isfile(location) or archive_stem(os.path.basename(location)) is None:
-            raise _root_error(location, "is neither a directory nor a known archive")
+            problem = "does not exist"
+        elif not os.path.isfile(location) or archive_stem(os.path.basename(location)) is None:
+            problem = "is neither a directory nor a known archive"
+        else:
+            continue
+        raise CorpusError(
+            f"corpus root {location!r} {problem}; pass a directory of projects or an archive "
+            f"({', '.join(ARCHIVE_SUFFIXES)})"
+        )
 
 
 def _root_name(location: str) -> str:
@@ -665,17 +680,16 @@ def _root_name(location: str) -> str:
 
 
 class _Names:
-    """Project names handed out so far; a repeat gets `@<root name>` appended."""
+    """Project names handed out so far in one discovery."""
 
     def __init__(self) -> None:
         self._taken: set[str] = set()
 
     def claim(self, name: str, root_name: str) -> str:
-        candidate, counter = name, 1
+        candidate, repeat = name, 0
         while candidate in self._taken:
-            counter += 1
-            suffix = "" if counter == 2 else f"-{counter - 1}"
-            candidate = f"{name}@{root_name}{suffix}"
+            repeat += 1
+            candidate = f"{name}@{root_name}" + (f"-{repeat}" if repeat > 1 else "")
         self._taken.add(candidate)
         return candidate
 
@@ -689,10 +703,10 @@ def discover(
     a tar root, in archive order (see the module docstring). `library` is the
     target library's import name, used to recognise vendored copies of it.
 
-    Project names are unique across all roots: a name already handed out (by
+    Project names are unique across the roots: a name already handed out (by
     an earlier root, or earlier in the same root) gets `@<root name>`
-    appended, where the root name is the root's base name without archive
-    extension (then `-2`, `-3`, ... if that is taken too).
+    appended, the root name being the root's base name without archive
+    extension; should that be taken too, `-2`, `-3`, ... follow.
 
     A corrupt archive does not stop discovery: it becomes a project whose
     single entry, named after the archive file, has `error` set.
@@ -702,8 +716,9 @@ def discover(
     for root in roots:
         location = os.fspath(root)
         root_name = _root_name(location)
+        projects: Iterable[Project]
         if single:
-            projects: Iterator[Project] = iter((_single_project(location, root_name, library),))
+            projects = (_single_project(location, root_name, library),)
         elif os.path.isdir(location):
             projects = _directory_root(location, library)
         elif location.lower().endswith(".zip"):
@@ -717,13 +732,19 @@ def discover(
 def _single_project(location: str, root_name: str, library: str) -> Project:
     if os.path.isdir(location):
         return Project(root_name, location, functools.partial(_folder_entries, location, library))
-    base = os.path.basename(location)
-    return Project(root_name, location, functools.partial(_archive_file_entries, location, base, library))
+    entries = functools.partial(_archive_file_entries, location, os.path.basename(location), library)
+    return Project(root_name, location, entries)
 
 
-def _link_project(name: str, origin: str, child: str) -> Project:
-    entry = Entry(_display(child), 0, "", "link outside root", None, functools.partial(_refuse, "link outside root"))
-    return _error_project(name, origin, entry)
+def _replay(entries: tuple[Entry, ...]) -> Iterator[Entry]:
+    return iter(entries)
+
+
+def _fixed(*entries: Entry) -> Callable[[], Iterator[Entry]]:
+    return functools.partial(_replay, entries)
+
+
+# directory roots ---------------------------------------------------------------
 
 
 def _directory_root(root: str, library: str) -> Iterator[Project]:
@@ -733,41 +754,49 @@ def _directory_root(root: str, library: str) -> Iterator[Project]:
             children = sorted(listing, key=lambda child: child.name)
     except OSError as exc:
         raise CorpusError(f"cannot list corpus root {root!r}: {exc.strerror or exc}") from None
-    projects: list[Project] = []
+    projects = []
     for child in children:
-        if child.name.startswith("."):
-            continue
-        origin = os.path.join(root, child.name)
-        name = _display(child.name)
-        if child.is_symlink():
-            if not _within(os.path.realpath(child.path), boundary):
-                stem = archive_stem(child.name)
-                if child.is_dir() or stem is not None or _is_source_name(child.name):
-                    projects.append(_link_project(_display(stem or child.name), origin, child.name))
-                continue
-            if child.is_dir():
-                continue  # the directory it names is a project of its own
-        if child.is_dir():
-            projects.append(Project(name, origin, functools.partial(_folder_entries, child.path, library)))
-        elif child.is_file():
-            stem = archive_stem(child.name)
-            if stem is not None:
-                entries = functools.partial(_archive_file_entries, child.path, child.name, library)
-                projects.append(Project(_display(stem), origin, entries))
-            elif _is_source_name(child.name):
-                entries = functools.partial(_file_entries, child.path, child.name, library)
-                projects.append(Project(name, origin, entries))
-    projects.sort(key=lambda project: project.name)  # stable: ties keep file-name order
+        if not child.name.startswith("."):
+            project = _directory_child(child, os.path.join(root, child.name), boundary, library)
+            if project is not None:
+                projects.append(project)
+    projects.sort(key=lambda project: project.name)  # stable: equal names keep file-name order
     yield from projects
+
+
+def _directory_child(
+    child: os.DirEntry[str], origin: str, boundary: str, library: str
+) -> Project | None:
+    stem = archive_stem(child.name)
+    if child.is_symlink():
+        if not _within(os.path.realpath(child.path), boundary):
+            if child.is_dir() or stem is not None or _is_source_name(child.name):
+                entry = _skipped(_display(child.name), 0, "", "link outside root")
+                return Project(_display(stem or child.name), origin, _fixed(entry))
+            return None
+        if child.is_dir():
+            return None  # the directory it names is a project of its own
+    if child.is_dir():
+        entries = functools.partial(_folder_entries, child.path, library)
+        return Project(_display(child.name), origin, entries)
+    if not child.is_file():
+        return None
+    if stem is not None:
+        entries = functools.partial(_archive_file_entries, child.path, child.name, library)
+        return Project(_display(stem), origin, entries)
+    if _is_source_name(child.name):
+        entries = functools.partial(_file_entries, child.path, child.name, library)
+        return Project(_display(child.name), origin, entries)
+    return None
 
 
 # zip roots -------------------------------------------------------------------
 
 
 class _SharedZip:
-    """A zip root's ZipFile, shared by its projects while `discover` is on that
-    root, so the central directory is read once; a project listed later opens
-    the archive again for itself."""
+    """A zip root's open ZipFile, shared by its projects while `discover` is on
+    that root so that the central directory is read once; a project listed
+    later opens the archive again for itself."""
 
     def __init__(self, location: str) -> None:
         self.location = location
@@ -783,27 +812,25 @@ class _SharedZip:
 
 
 def _zip_root(location: str, root_name: str, library: str) -> Iterator[Project]:
-    base = os.path.basename(location)
-    shared = _SharedZip(location)
     try:
         archive = zipfile.ZipFile(location)
-        infos = archive.infolist()
     except _ARCHIVE_ERRORS as exc:
-        yield _error_project(root_name, location, _broken_entry(base, exc))
+        yield Project(root_name, location, _fixed(_corrupt(os.path.basename(location), exc)))
         return
+    shared = _SharedZip(location)
     with archive:
-        shared.archive = archive
         groups: dict[str, list[zipfile.ZipInfo]] = {}
-        for info in infos:
+        for info in archive.infolist():
             head = _member_head(info.filename)
             if head is not None and not head.startswith("."):
                 groups.setdefault(head, []).append(info)
         projects = []
-        for head, members in groups.items():
-            project = _zip_root_project(shared, head, members, f"{location}!{head}", library)
+        for head, infos in groups.items():
+            project = _zip_root_project(shared, head, infos, f"{location}!{head}", library)
             if project is not None:
                 projects.append(project)
         projects.sort(key=lambda project: project.name)
+        shared.archive = archive
         try:
             yield from projects
         finally:
@@ -813,16 +840,17 @@ def _zip_root(location: str, root_name: str, library: str) -> Iterator[Project]:
 def _zip_root_project(
     shared: _SharedZip, head: str, infos: list[zipfile.ZipInfo], origin: str, library: str
 ) -> Project | None:
-    top_file = [info for info in infos if _member_parts(info.filename) == (head,) and not info.is_dir()]
-    if top_file and len(infos) == 1:
-        info = top_file[0]
+    if len(infos) == 1 and not infos[0].is_dir() and _member_parts(infos[0].filename) == (head,):
         stem = archive_stem(head)
         if stem is not None:
-            return Project(_display(stem), origin, functools.partial(_zip_nested, shared, info, library))
+            entries = functools.partial(_zip_nested, shared, infos[0], library)
+            return Project(_display(stem), origin, entries)
         if _is_source_name(head):
-            return Project(_display(head), origin, functools.partial(_zip_folder, shared, infos, (), library))
+            entries = functools.partial(_zip_folder, shared, infos, (), library)
+            return Project(_display(head), origin, entries)
         return None
-    return Project(_display(head), origin, functools.partial(_zip_folder, shared, infos, (head,), library))
+    entries = functools.partial(_zip_folder, shared, infos, (head,), library)
+    return Project(_display(head), origin, entries)
 
 
 def _zip_folder(
@@ -830,10 +858,10 @@ def _zip_folder(
 ) -> Iterator[Entry]:
     try:
         with shared.borrow() as archive:
-            members = _zip_members(archive, shared.location, infos)
-            yield from _sorted_member_entries(members, prefix, library)
+            entries = list(_zip_listing(archive, shared.location, infos, prefix, library))
     except _ARCHIVE_ERRORS as exc:
-        yield _broken_entry(os.path.basename(shared.location), exc)
+        entries = [_corrupt(os.path.basename(shared.location), exc)]
+    yield from entries
 
 
 def _zip_nested(shared: _SharedZip, info: zipfile.ZipInfo, library: str) -> Iterator[Entry]:
@@ -843,47 +871,21 @@ def _zip_nested(shared: _SharedZip, info: zipfile.ZipInfo, library: str) -> Iter
         with shared.borrow() as archive:
             yield from _nested_archive(name, info.file_size, lambda: archive.open(info), library)
     except _ARCHIVE_ERRORS as exc:
-        yield _broken_entry(name, exc)
-
-
-def _nested_archive(name: str, size: int, open_member: Callable[[], IO[bytes]], library: str) -> Iterator[Entry]:
-    """An archive project that is itself a member of an archive root.
-
-    A tar streams straight from the outer member; a zip needs random access,
-    so it is read into memory, up to MAX_NESTED_ARCHIVE_SIZE.
-    """
-    try:
-        member = open_member()
-    except _ARCHIVE_ERRORS as exc:
-        yield _broken_entry(name, exc)
-        return
-    with member:
-        if name.lower().endswith(".zip"):
-            if size > MAX_NESTED_ARCHIVE_SIZE:
-                yield Entry(_display(name), size, "", "too large", None, functools.partial(_refuse, "too large"))
-                return
-            try:
-                data = member.read()
-            except _ARCHIVE_ERRORS as exc:
-                yield _broken_entry(name, exc)
-                return
-            yield from _zip_entries(data, name, library)
-        else:
-            yield from _tar_entries(member, name, library)
+        yield _corrupt(name, exc)
 
 
 # tar roots -------------------------------------------------------------------
 
 
-class _Window:
+class _Turn:
     """Whether a tar root's project is still the one its stream is positioned on."""
 
     def __init__(self) -> None:
-        self.open = True
+        self.current = True
 
 
-def _windowed(window: _Window, name: str, entries: Callable[[], Iterator[Entry]]) -> Iterator[Entry]:
-    if not window.open:
+def _in_turn(turn: _Turn, name: str, entries: Callable[[], Iterator[Entry]]) -> Iterator[Entry]:
+    if not turn.current:
         raise EntryError(
             f"project {name!r} comes from a streamed tar root; "
             "iterate its entries before advancing discover()"
@@ -896,20 +898,20 @@ def _tar_root(location: str, root_name: str, library: str) -> Iterator[Project]:
     try:
         handle = open(location, "rb")
     except OSError as exc:
-        yield _error_project(root_name, location, _broken_entry(base, exc.strerror or str(exc)))
+        yield Project(root_name, location, _fixed(_failed(_display(base), _os_reason(exc))))
         return
     with handle:
         try:
             archive = _open_tar_stream(handle)
         except _ARCHIVE_ERRORS as exc:
-            yield _error_project(root_name, location, _broken_entry(base, exc))
+            yield Project(root_name, location, _fixed(_corrupt(base, exc)))
             return
         with archive:
             stream = _TarStream(archive)
             while (item := stream.peek()) is not None:
                 if isinstance(item, str):
                     stream.take()
-                    yield _error_project(root_name, location, _broken_entry(base, item))
+                    yield Project(root_name, location, _fixed(_corrupt(base, item)))
                     return
                 head = _member_head(item.name)
                 if head is None or head.startswith("."):
@@ -918,13 +920,12 @@ def _tar_root(location: str, root_name: str, library: str) -> Iterator[Project]:
                 project = _tar_root_project(stream, item, head, f"{location}!{head}", base, library)
                 if project is None:
                     continue
-                window = _Window()
-                yield dataclasses.replace(
-                    project, _list=functools.partial(_windowed, window, project.name, project._list)
-                )
-                window.open = False
-                # Skip what the caller left unread of this project.
-                while (rest := stream.peek()) is not None and not isinstance(rest, str):
+                turn = _Turn()
+                guarded = functools.partial(_in_turn, turn, project.name, project._list)
+                yield dataclasses.replace(project, _list=guarded)
+                turn.current = False
+                # Pass over whatever of this project the caller left unread.
+                while isinstance(rest := stream.peek(), tarfile.TarInfo):
                     if _member_head(rest.name) != head:
                         break
                     stream.take()
@@ -933,23 +934,24 @@ def _tar_root(location: str, root_name: str, library: str) -> Iterator[Project]:
 def _tar_root_project(
     stream: _TarStream, item: tarfile.TarInfo, head: str, origin: str, base: str, library: str
 ) -> Project | None:
-    if _member_parts(item.name) == (head,) and not item.isdir():
-        stream.take()
-        stem = archive_stem(head)
-        if stem is not None and item.isreg():
-            archive = stream.archive
+    """The project that starts at `item`, a member of a tar root under top-level `head`."""
+    if item.isdir() or _member_parts(item.name) != (head,):
+        entries = functools.partial(_tar_run, stream, head, base, library)
+        return Project(_display(head), origin, entries)
+    stream.take()  # a top-level file: a project of its own
+    archive = stream.archive
+    stem = archive_stem(head)
+    if stem is not None and item.isreg():
 
-            def open_member() -> IO[bytes]:
-                handle = archive.extractfile(item)
-                if handle is None:
-                    raise tarfile.ExtractError("not a regular file")
-                return handle
+        def open_member() -> IO[bytes]:
+            handle = archive.extractfile(item)
+            if handle is None:
+                raise tarfile.ExtractError("not a regular file")
+            return handle
 
-            return Project(_display(stem), origin,
-                           functools.partial(_nested_archive, head, item.size, open_member, library))
-        member = _tar_member(stream.archive, item)
-        if member is None or not _is_source_name(head):
-            return None
-        return Project(_display(head), origin,
-                       lambda: _member_entries((member,), (), library, None))
-    return Project(_display(head), origin, functools.partial(_tar_run, stream, head, base, library))
+        entries = functools.partial(_nested_archive, head, item.size, open_member, library)
+        return Project(_display(stem), origin, entries)
+    if not _is_source_name(head):
+        return None
+    entry = _tar_entry(archive, item, (), library)
+    return None if entry is None else Project(_display(head), origin, _fixed(entry))

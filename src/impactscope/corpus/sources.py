@@ -265,14 +265,19 @@ def _transform_by_line(source: str, manager: TransformerManager) -> str:
     Used when the whole-cell rewrite joined or split lines (for example a shell
     escape continued with a backslash). Each IPython-only statement becomes
     its one-line rewrite (or `pass`) at the same indentation, and the physical
-    lines it continued onto become blank.
+    lines it continued onto become blank. Only lines that start a statement
+    are candidates: `% x` inside brackets or a string is Python.
     """
     lines = source.split("\n")
     out: list[str] = []
+    pending: list[str] = []  # the Python lines of the statement still open, if any
     index = 0
     while index < len(lines):
         line = lines[index]
-        if not _IPYTHON_LINE.match(line):
+        if pending and not _continues("\n".join(pending)):
+            pending = []
+        if pending or not _IPYTHON_LINE.match(line):
+            pending.append(line)
             out.append(line)
             index += 1
             continue
@@ -291,6 +296,21 @@ def _transform_by_line(source: str, manager: TransformerManager) -> str:
         out.extend("" for _ in range(end - index))
         index = end + 1
     return "\n".join(out)
+
+
+def _continues(text: str) -> bool:
+    """Whether Python text ends inside brackets, a triple-quoted string or a
+    backslash continuation, so that the next line does not start a statement."""
+    depth = 0
+    for match in _TOKEN.finditer(text):
+        kind, chunk = match.lastgroup, match.group()
+        if kind == "other" and chunk in "'\"":
+            return True  # a quote that opens no complete string: one still open
+        if kind == "op" and chunk in _OPEN:
+            depth += 1
+        elif kind == "op" and chunk in _CLOSE:
+            depth = max(depth - 1, 0)
+    return depth > 0 or text.endswith("\\")
 
 
 # --------------------------------------------------------------------- Python 2

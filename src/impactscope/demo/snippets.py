@@ -19,6 +19,7 @@ All the names here (the projects' words, columns, paths) are invented for the de
 
 from __future__ import annotations
 
+import json
 import random
 from collections import Counter
 from collections.abc import Callable, Sequence
@@ -1335,8 +1336,6 @@ class NotebookBuilder:
                 "nbformat": 4,
                 "nbformat_minor": minor,
             }
-        import json  # local: the module is otherwise free of I/O helpers
-
         return (json.dumps(document, indent=1, sort_keys=True, ensure_ascii=False) + "\n").encode("utf-8")
 
 

@@ -114,6 +114,8 @@ class ModuleResult:
     refs: list[Ref] = field(default_factory=list)
     uses_library: bool = False
     exports: dict[str, Value] = field(default_factory=dict)
+    all_names: tuple[str, ...] | None = None  # a literal `__all__`, which decides what `*` binds
+    imported: set[str] = field(default_factory=set)  # project modules it imports
 
 
 class ModuleEvaluator:
@@ -132,8 +134,15 @@ class ModuleEvaluator:
         self.scope = Scope("module", None)
         self.cell: int | None = None
         self._last: tuple[cst.CSTNode, Ref] | None = None
+        self._quiet = 0  # > 0 while a body is read only to learn what it returns
 
     # ------------------------------------------------------------------ driving
+    def partial(self) -> ModuleResult:
+        """What another module importing this one mid-run (an import cycle) sees: the names bound
+        so far, as Python's partially initialised module would show them."""
+        return ModuleResult(uses_library=self.result.uses_library, exports=dict(self.scope.names),
+                            all_names=self.result.all_names)
+
     def run(self, cells: Iterable[tuple[int | None, cst.Module]]) -> ModuleResult:
         for index, module in cells:
             self.cell = index
@@ -143,9 +152,11 @@ class ModuleEvaluator:
         return self.result
 
     def _flush(self, scope: Scope) -> None:
+        """Run deferred bodies with the bindings their scope ends with, recording references."""
         while scope.pending:
             func = scope.pending.pop(0)
-            self.returns_of(func)
+            if func.state == "pending":
+                self._run(func, record=True)
 
     # ------------------------------------------------------------------ names
     def lookup(self, scope: Scope, name: str) -> Value:
@@ -185,7 +196,8 @@ class ModuleEvaluator:
     # ------------------------------------------------------------------ references
     def _ref(self, node: cst.CSTNode, context: str, **kw: object) -> Ref:
         ref = Ref(cell=self.cell, node=node, context=context, **kw)  # type: ignore[arg-type]
-        self.result.refs.append(ref)
+        if not self._quiet:
+            self.result.refs.append(ref)
         return ref
 
     # ------------------------------------------------------------------ statements
@@ -223,8 +235,7 @@ class ModuleEvaluator:
             for item in s.items:
                 value = self.expr(item.item, scope)
                 if item.asname is not None:
-                    entered = value if isinstance(value, (Inst, UserInst)) else UNKNOWN
-                    self.assign(item.asname.name, entered, scope)
+                    self.assign(item.asname.name, self._entered(value), scope)
             self.suite(s.body, scope)
         elif isinstance(s, cst.Match):
             self.expr(s.subject, scope)
@@ -233,9 +244,63 @@ class ModuleEvaluator:
         else:
             self.generic(s, scope)
 
+    def _entered(self, manager: Value) -> Value:
+        """What `with manager as name` binds: `__enter__`'s return value."""
+        if isinstance(manager, UserInst):
+            enter = manager.cls.lookup("__enter__")
+            if isinstance(enter, UserFunc):
+                return self.returns_of(enter)
+            if not manager.cls.all_lib_bases():
+                return UNKNOWN
+            return manager
+        if isinstance(manager, Inst):
+            declared = self.q.model.returns(f"{manager.cls}.__enter__")
+            return Inst(declared) if declared is not None else manager  # most managers return self
+        return UNKNOWN
+
+    def pattern(self, node: cst.MatchPattern, scope: Scope) -> Value:
+        """Bind the captures of a match pattern; the value a capture of the whole pattern gets."""
+        if isinstance(node, cst.MatchAs):
+            value = self.pattern(node.pattern, scope) if node.pattern is not None else UNKNOWN
+            if node.name is not None:
+                self.bind(scope, node.name.value, value)
+            return value
+        if isinstance(node, cst.MatchClass):
+            cls = self.expr(node.cls, scope)
+            for p in (*node.patterns, *node.kwds):
+                self.pattern(p.pattern, scope)
+            if isinstance(cls, Lib):
+                return Inst(cls.name)
+            if isinstance(cls, UserClass):
+                return UserInst(cls)
+            return UNKNOWN
+        if isinstance(node, cst.MatchStar):
+            if node.name is not None:
+                self.bind(scope, node.name.value, UNKNOWN)
+            return UNKNOWN
+        if isinstance(node, cst.MatchValue):
+            self.expr(node.value, scope)
+            return UNKNOWN
+        if isinstance(node, cst.MatchOr):
+            for el in node.patterns:
+                self.pattern(el.pattern, scope)
+            return UNKNOWN
+        for child in node.children:
+            if isinstance(child, cst.MatchPattern):
+                self.pattern(child, scope)
+            elif hasattr(child, "pattern") and isinstance(getattr(child, "pattern"), cst.MatchPattern):
+                self.pattern(child.pattern, scope)  # type: ignore[attr-defined]
+            elif hasattr(child, "key") and isinstance(getattr(child, "key"), cst.BaseExpression):
+                self.expr(child.key, scope)  # type: ignore[attr-defined]
+                if isinstance(getattr(child, "pattern", None), cst.MatchPattern):
+                    self.pattern(child.pattern, scope)  # type: ignore[attr-defined]
+        if isinstance(node, cst.MatchMapping) and node.rest is not None:
+            self.bind(scope, node.rest.value, UNKNOWN)
+        return UNKNOWN
+
     def _case(self, case: cst.MatchCase, scope: Scope) -> Callable[[], None]:
         def run() -> None:
-            self.generic(case.pattern, scope)
+            self.pattern(case.pattern, scope)
             if case.guard is not None:
                 self.expr(case.guard, scope)
             self.suite(case.body, scope)
@@ -283,6 +348,17 @@ class ModuleEvaluator:
         if isinstance(s, cst.Expr):
             self.expr(s.value, scope)
         elif isinstance(s, cst.Assign):
+            if scope.kind == "module" and any(
+                isinstance(t.target, cst.Name) and t.target.value == "__all__" for t in s.targets
+            ):
+                self.result.all_names = _literal_names(s.value)
+            pairs = _unpacked(s)
+            if pairs is not None:
+                values = [self.expr(el.value, scope) for el in pairs]
+                for target in s.targets:
+                    for t_el, value in zip(target.target.elements, values):  # type: ignore[attr-defined]
+                        self.assign(t_el.value, value, scope)
+                return
             value = self.expr(s.value, scope)
             for target in s.targets:
                 self.assign(target.target, value, scope)
@@ -354,6 +430,7 @@ class ModuleEvaluator:
             else:
                 found = self.project.find_module(dotted, self.importer)
                 if found is not None:
+                    self.result.imported.add(found)
                     if self.project.module_uses_library(found):
                         self.result.uses_library = True
                     value = ProjMod(found)
@@ -402,6 +479,8 @@ class ModuleEvaluator:
         if project_mod is None:
             project_mod = self.project.find_module(dotted, self.importer)
         if project_mod is not None:
+            if project_mod:
+                self.result.imported.add(project_mod)
             if project_mod and self.project.module_uses_library(project_mod):
                 self.result.uses_library = True
             if isinstance(s.names, cst.ImportStar):
@@ -412,6 +491,7 @@ class ModuleEvaluator:
                 name = get_full_name_for_node(alias.name) or ""
                 sub = f"{project_mod}.{name}" if project_mod else name
                 if self._is_project_module(sub):
+                    self.result.imported.add(sub)
                     if self.project.module_uses_library(sub):
                         self.result.uses_library = True
                     value: Value = ProjMod(sub)
@@ -450,27 +530,55 @@ class ModuleEvaluator:
             if p.default is not None:
                 self.expr(p.default, scope)
         declared: dict[str, Value] = {}
+        starred = {id(params.star_arg), id(params.star_kwarg)}
         for p in _all_params(params):
             if p.annotation is not None:
                 t = self.annotation(p.annotation.annotation, scope, record=True)
-                if t is not None:
+                # `*args: T` and `**kw: T` describe the elements; the names are a tuple and a dict.
+                if t is not None and id(p) not in starred:
                     declared[p.name.value] = t
         if node.returns is not None:
             returns_decl = self.annotation(node.returns.annotation, scope, record=True)
         else:
             returns_decl = None
-        func = UserFunc(node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind)
+        func = UserFunc(
+            node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind, cell=self.cell,
+            home=self,
+        )
         func.declared = declared  # type: ignore[attr-defined]
         func.returns_decl = returns_decl  # type: ignore[attr-defined]
         scope.function_home().pending.append(func)
         self.bind(scope, node.name.value, UNKNOWN if wrapped_by_library else func)
 
     def returns_of(self, func: UserFunc) -> Value:
-        if func.state == "done":
+        """What a call returns. A body not run yet is read quietly now, with the bindings of the
+        moment of the call; its references are recorded once, when its scope ends."""
+        if func.returns is not None:
             return func.returns
         if func.state == "running":
             return UNKNOWN
+        return self._run(func, record=False)
+
+    def _run(self, func: UserFunc, record: bool) -> Value:
+        assert isinstance(func.node, cst.FunctionDef)
+        previous_state = func.state
         func.state = "running"
+        caller_cell, self.cell = self.cell, func.cell
+        if not record or func.home is not self:
+            record = False
+            self._quiet += 1
+        try:
+            result = self._run_body(func)
+        finally:
+            self.cell = caller_cell
+            if not record:
+                self._quiet -= 1
+        func.returns = result
+        # A quiet reading changes nothing about the recorded run still to come.
+        func.state = "done" if record and not self._quiet else previous_state
+        return result
+
+    def _run_body(self, func: UserFunc) -> Value:
         assert isinstance(func.node, cst.FunctionDef)
         fscope = Scope("function", func.scope, owner=func.owner)  # type: ignore[arg-type]
         declared: dict[str, Value] = getattr(func, "declared", {})
@@ -491,8 +599,6 @@ class ModuleEvaluator:
         decl = getattr(func, "returns_decl", None)
         if result is UNKNOWN and decl is not None:
             result = decl
-        func.returns = result
-        func.state = "done"
         return result
 
     def class_def(self, node: cst.ClassDef, scope: Scope) -> None:
@@ -514,7 +620,7 @@ class ModuleEvaluator:
         cls.members.update(body.names)
         ancestry = cls.all_lib_bases()
         if ancestry:
-            for stmt in _body_statements(node.body):
+            for stmt in _class_level_defs(node.body):
                 if isinstance(stmt, cst.FunctionDef):
                     for base in ancestry:
                         self._ref(stmt.name, "override", name=f"{base}.{stmt.name.value}", receiver=base)
@@ -673,23 +779,34 @@ class ModuleEvaluator:
             self.expr(arg.value, scope)
         if isinstance(func, Foreign) and func.name in ("importlib.import_module", "builtins.__import__"):
             return self._dynamic_import(node, func.name)
+        if isinstance(func, Foreign) and func.name == "builtins.type" and len(node.args) == 1 and not node.args[0].star:
+            of = self.expr(node.args[0].value, scope, record=False)
+            if isinstance(of, Inst):
+                return Lib(of.cls)
+            if isinstance(of, UserInst):
+                return of.cls
+            return UNKNOWN
         if isinstance(func, Foreign) and func.name == "builtins.super":
             owner = _method_owner(scope)
             return Super(owner) if owner is not None else UNKNOWN
+        if isinstance(func, UserFunc):
+            return self._call_user(func, scope)
         return self.call_result(func)
 
     def _dynamic_import(self, node: cst.Call, how: str) -> Value:
         if not node.args or not isinstance(node.args[0].value, cst.SimpleString):
             return UNKNOWN
         target = node.args[0].value.evaluated_value
-        if not isinstance(target, str) or not target or target.startswith("."):
+        if not isinstance(target, str) or not target:
             return UNKNOWN
+        if target.startswith("."):
+            target = _anchor(target, node.args, how)
+            if target is None:
+                return UNKNOWN
         if how == "builtins.__import__":
             # The Python Language Reference: __import__("a.b") returns the top-level package `a`
             # unless a non-empty fromlist is given.
-            fromlist = any(
-                (a.keyword is not None and a.keyword.value == "fromlist") or i >= 3 for i, a in enumerate(node.args)
-            )
+            fromlist = _nonempty_fromlist(node.args)
             bound = target if fromlist else target.split(".")[0]
         else:
             bound = target
@@ -699,6 +816,7 @@ class ModuleEvaluator:
             return Lib(bound)
         found = self.project.find_module(bound, self.importer)
         if found is not None:
+            self.result.imported.add(found)
             if self.project.module_uses_library(found):
                 self.result.uses_library = True
             return ProjMod(found)
@@ -717,6 +835,18 @@ class ModuleEvaluator:
         if isinstance(func, UserFunc):
             return self.returns_of(func)
         return UNKNOWN
+
+    def _call_user(self, func: UserFunc, scope: Scope) -> Value:
+        """A call from module level runs the body with the bindings of that moment (the Language
+        Reference resolves free names when the code runs), recording what it sees; a few such
+        runs cover "called before the import, and after"."""
+        if (
+            scope.kind == "module" and func.home is self and func.state != "running"
+            and func.top_runs < 3 and not self._quiet
+        ):
+            func.top_runs += 1
+            return self._run(func, record=True)
+        return self.returns_of(func)
 
     def comprehension(self, node: cst.BaseComp, scope: Scope) -> None:
         inner = Scope("comprehension", scope)
@@ -755,6 +885,22 @@ class ModuleEvaluator:
                 self.suite(child, scope)
             else:
                 self.generic(child, scope)
+
+
+def _unpacked(s: cst.Assign) -> Sequence[cst.BaseElement] | None:
+    """`a, b = x, y`: the value elements, when every target unpacks them one to one."""
+    if not isinstance(s.value, (cst.Tuple, cst.List)):
+        return None
+    elements = s.value.elements
+    if any(isinstance(el, cst.StarredElement) for el in elements):
+        return None
+    for target in s.targets:
+        t = target.target
+        if not isinstance(t, (cst.Tuple, cst.List)) or len(t.elements) != len(elements):
+            return None
+        if any(isinstance(el.value, cst.StarredElement) or isinstance(el, cst.StarredElement) for el in t.elements):
+            return None
+    return elements
 
 
 def _merge(a: dict[str, Value], b: dict[str, Value]) -> dict[str, Value]:
@@ -799,5 +945,68 @@ def _method_owner(scope: Scope) -> UserClass | None:
     return None
 
 
-def _body_statements(body: cst.BaseSuite) -> list[cst.CSTNode]:
-    return list(body.body)
+def _class_level_defs(body: cst.BaseSuite) -> list[cst.FunctionDef]:
+    """Methods a class body defines, also under `if`/`try`/`with` at class level (not nested defs)."""
+    out: list[cst.FunctionDef] = []
+    stack: list[cst.CSTNode] = list(body.body)
+    while stack:
+        node = stack.pop(0)
+        if isinstance(node, cst.FunctionDef):
+            out.append(node)
+        elif isinstance(node, (cst.If, cst.Try, cst.TryStar, cst.With, cst.For, cst.While, cst.Else, cst.Finally,
+                               cst.ExceptHandler, cst.ExceptStarHandler)):
+            for child in node.children:
+                if isinstance(child, cst.BaseSuite):
+                    stack.extend(child.body)
+                elif isinstance(child, (cst.If, cst.Else, cst.Finally, cst.ExceptHandler, cst.ExceptStarHandler)):
+                    stack.append(child)
+    return out
+
+
+def _nonempty_fromlist(args: Sequence[cst.Arg]) -> bool:
+    """Whether `__import__(name, globals, locals, fromlist, level)` is given a non-empty fromlist."""
+    given: cst.BaseExpression | None = None
+    for i, arg in enumerate(args):
+        if arg.keyword is not None and arg.keyword.value == "fromlist":
+            given = arg.value
+        elif arg.keyword is None and not arg.star and i == 3:
+            given = arg.value
+    if given is None:
+        return False
+    if isinstance(given, (cst.List, cst.Tuple)):
+        return bool(given.elements)
+    if isinstance(given, cst.Name) and given.value == "None":
+        return False
+    return True  # an expression we cannot see into: most code passing one passes names
+
+
+def _anchor(name: str, args: Sequence[cst.Arg], how: str) -> str | None:
+    """`importlib.import_module(".sub", "pkg")`: a relative name resolved against its package."""
+    if how != "importlib.import_module":
+        return None
+    package: cst.BaseExpression | None = None
+    for i, arg in enumerate(args):
+        if arg.keyword is not None and arg.keyword.value == "package":
+            package = arg.value
+        elif arg.keyword is None and i == 1:
+            package = arg.value
+    if not isinstance(package, cst.SimpleString) or not isinstance(package.evaluated_value, str):
+        return None
+    level = len(name) - len(name.lstrip("."))
+    parts = package.evaluated_value.split(".")
+    if level - 1 > len(parts) - 1:
+        return None
+    base = parts[: len(parts) - (level - 1)]
+    rest = name[level:]
+    return ".".join(base + ([rest] if rest else []))
+
+
+def _literal_names(value: cst.BaseExpression) -> tuple[str, ...] | None:
+    if not isinstance(value, (cst.List, cst.Tuple)):
+        return None
+    names = []
+    for el in value.elements:
+        if not isinstance(el.value, cst.SimpleString) or not isinstance(el.value.evaluated_value, str):
+            return None
+        names.append(el.value.evaluated_value)
+    return tuple(names)

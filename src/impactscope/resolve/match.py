@@ -36,7 +36,7 @@ def _apply_rule(ref: Ref, cc: CompiledChange, base: Confidence, query: Query) ->
     if not exact or ref.call is None or ref.context == "import":
         return None  # a parameter change breaks calls only, and only calls of that member itself
     shape = ref.call
-    position = cc.change.position
+    position = cc.position
     if position is not None and not ref.bound and cc.parent_is_class and ref.name is not None:
         position += 1  # called through the class: `Table.sort_by(t, ...)` passes self explicitly
     passed = cc.change.parameter in shape.keywords or (position is not None and shape.positional > position)
@@ -48,25 +48,31 @@ def _apply_rule(ref: Ref, cc: CompiledChange, base: Confidence, query: Query) ->
     return base if kind is Kind.DEFAULT_CHANGED else None
 
 
-def pattern(ref: Ref, cc: CompiledChange) -> str:
+def pattern(ref: Ref, cc: CompiledChange, query: Query) -> str:
     """A normalised shape of the use, so that many sites group into a few readable lines."""
     args = ref.call.render() if ref.call is not None else ""
+    shown = query.display(ref.name) if ref.name is not None else None
+    receiver = ref.receiver
+    if receiver.startswith("<") and receiver.endswith(">"):
+        receiver = f"<{query.display(receiver[1:-1])}>"
+    elif receiver.startswith("super(<"):
+        receiver = f"super(<{query.display(receiver[7:-2])}>)"
     if ref.context == "import":
         return ref.import_text
     if ref.context == "override":
-        return f"override in class(<{ref.receiver}>): def {cc.change.name}"
+        return f"override in class(<{query.display(ref.receiver)}>): def {cc.change.name}"
     if ref.context == "subclass":
-        return f"class _({ref.name})"
+        return f"class _({shown})"
     if ref.context == "decorator":
-        return f"@{ref.name}{args}"
+        return f"@{shown}{args}"
     if ref.context == "annotation":
-        return f"annotation: {ref.name}"
-    if ref.name is None:
+        return f"annotation: {shown}"
+    if shown is None:
         return f"?.{ref.attr}{args}"
-    leaf = ref.name.rpartition(".")[2]
-    if ref.receiver.startswith(("<", "super")):
-        return f"{ref.receiver}.{leaf}{args}"
-    return f"{ref.name}{args}"
+    leaf = shown.rpartition(".")[2]
+    if receiver.startswith(("<", "super")):
+        return f"{receiver}.{leaf}{args}"
+    return f"{shown}{args}"
 
 
 __all__ = ["judge", "pattern", "CallShape"]

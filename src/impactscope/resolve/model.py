@@ -55,3 +55,61 @@ class TypesModel:
 
     def owners(self, attr: str) -> frozenset[str]:
         return self._owners.get(attr, frozenset())
+
+
+class SurfaceModel:
+    """The model read from the library's own source, with the change list's `[types]` on top.
+
+    `surface` is an `impactscope.surface.model.Surface`; typed loosely here so the resolver does
+    not depend on how the surface is built.
+    """
+
+    def __init__(self, surface: "object", changes: ChangeList) -> None:
+        self._surface = surface
+        self._types = TypesModel(changes)
+        public: dict[str, str] = {}
+        for alias, target in getattr(surface, "aliases", {}).items():
+            best = public.get(target)
+            if best is None or (alias.count("."), len(alias), alias) < (best.count("."), len(best), best):
+                public[target] = alias
+        self._public = public
+
+    def canonical(self, dotted: str) -> str:
+        return self._surface.canonical(dotted)  # type: ignore[attr-defined]
+
+    def returns(self, dotted: str) -> str | None:
+        declared = self._types.returns(dotted)
+        if declared is not None:
+            return self.canonical(declared)
+        canonical = self.canonical(dotted)
+        declared = self._types.returns(canonical)
+        if declared is not None:
+            return self.canonical(declared)
+        return self._surface.returns(canonical)  # type: ignore[attr-defined]
+
+    def is_class(self, dotted: str) -> bool:
+        return bool(self._surface.is_class(self.canonical(dotted))) or self._types.is_class(dotted)  # type: ignore[attr-defined]
+
+    def star_names(self, module: str) -> tuple[str, ...] | None:
+        return self._surface.star_names(self.canonical(module))  # type: ignore[attr-defined]
+
+    def owners(self, attr: str) -> frozenset[str]:
+        return frozenset(self._surface.owners(attr))  # type: ignore[attr-defined]
+
+    def position(self, member: str, parameter: str) -> int | None:
+        """The 0-based position of `parameter` (self excluded), from the member's signature."""
+        params = self._surface.parameters(self.canonical(member))  # type: ignore[attr-defined]
+        for p in params or ():
+            if p.name == parameter:
+                return p.position
+        return None
+
+    def public_name(self, dotted: str) -> str:
+        """The shortest public path to a member, for reports (canonical paths may be private)."""
+        canonical = self.canonical(dotted)
+        if canonical in self._public:
+            return self._public[canonical]
+        owner, _, leaf = canonical.rpartition(".")
+        if owner and owner in self._public:
+            return f"{self._public[owner]}.{leaf}"
+        return dotted

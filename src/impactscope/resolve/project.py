@@ -32,6 +32,7 @@ class FileAnalysis:
     unparsed_cells: list[tuple[int, str]] = field(default_factory=list)
     result: ModuleResult | None = None
     findings: list[Finding] = field(default_factory=list)
+    matched_as_user: bool | None = None  # the uses-library answer `findings` were matched under
 
 
 def module_names(path: str) -> tuple[str, bool]:
@@ -59,22 +60,30 @@ class ProjectResolver:
             self._index.setdefault(name, path)
             if name.startswith("src."):
                 self._index.setdefault(name[4:], path)  # the src/ layout puts src/ on the path
+        # PEP 420: a folder of modules is importable as a namespace package without __init__.py.
+        self._namespaces: set[str] = set()
+        for name in list(self._index):
+            parts = name.split(".")
+            for i in range(1, len(parts)):
+                prefix = ".".join(parts[:i])
+                if prefix not in self._index:
+                    self._namespaces.add(prefix)
         self.files: dict[str, FileAnalysis] = {}
-        self._running: set[str] = set()
+        self._running: dict[str, ModuleEvaluator | None] = {}
 
     # ---------------------------------------------------------------- ProjectView
     def find_module(self, dotted: str, importer: str) -> str | None:
-        if dotted in self._index:
+        if self.is_module(dotted):
             return dotted
         if importer:
             # A script's own directory is first on sys.path, so `import helpers` next to it works.
             local = f"{importer}.{dotted}"
-            if local in self._index:
+            if self.is_module(local):
                 return local
         return None
 
     def is_module(self, dotted: str) -> bool:
-        return dotted in self._index
+        return dotted in self._index or dotted in self._namespaces
 
     def export(self, module: str, name: str) -> Value:
         if f"{module}.{name}" in self._index:
@@ -85,9 +94,13 @@ class ProjectResolver:
         return result.exports.get(name, UNKNOWN)
 
     def star_exports(self, module: str) -> dict[str, Value]:
+        """What `from module import *` binds: `__all__` when it is a literal, else public names
+        (the Python Language Reference, the import statement)."""
         result = self._module_result(module)
         if result is None:
             return {}
+        if result.all_names is not None:
+            return {k: self.export(module, k) for k in result.all_names}
         return {k: v for k, v in result.exports.items() if not k.startswith("_")}
 
     def module_uses_library(self, module: str) -> bool:
@@ -99,32 +112,64 @@ class ProjectResolver:
         path = self._index.get(module)
         if path is None:
             return None
-        return self.analyse(path).result
+        if path in self._running:
+            running = self._running[path]
+            return running.partial() if running is not None else None
+        return self._analyse(path).result
 
     def analyse(self, path: str) -> FileAnalysis:
+        """Analyse one file (and, on demand, the project modules it imports) and match it."""
+        fa = self._analyse(path)
+        if not self._running:
+            self.finish()
+        return fa
+
+    def _analyse(self, path: str) -> FileAnalysis:
         done = self.files.get(path)
         if done is not None:
             return done
         if path in self._running:
-            return FileAnalysis(path)  # an import cycle: the partial module tells nothing yet
-        self._running.add(path)
+            return FileAnalysis(path)  # an import cycle: the caller reads the partial module instead
+        self._running[path] = None
         try:
             fa = self._parse(path)
             if fa.cells:
                 name, is_package = self._module_of[path]
                 importer = name if is_package else name.rpartition(".")[0]
                 evaluator = ModuleEvaluator(self.q, self, name, is_package, path, importer)
+                self._running[path] = evaluator
                 try:
                     fa.result = evaluator.run((index, module) for index, _, module in fa.cells)
                 except RecursionError:
                     fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
                     fa.result = None
-                if fa.result is not None:
-                    fa.findings = self._findings(fa)
             self.files[path] = fa
             return fa
         finally:
-            self._running.discard(path)
+            self._running.pop(path, None)
+
+    def finish(self) -> None:
+        """Once every needed module is analysed: settle who uses the library, then match.
+
+        "Uses the library" spreads along a project's own imports; in an import cycle a module
+        may have been read before the module it imports had bound anything, so this is a
+        fixpoint over the finished results rather than what each module saw while it ran.
+        """
+        results = {path: fa.result for path, fa in self.files.items() if fa.result is not None}
+        by_module = {self._module_of[path][0]: r for path, r in results.items()}
+        changed = True
+        while changed:
+            changed = False
+            for r in results.values():
+                if not r.uses_library and any(
+                    by_module[m].uses_library for m in r.imported if m in by_module
+                ):
+                    r.uses_library = True
+                    changed = True
+        for fa in self.files.values():
+            if fa.result is not None and fa.matched_as_user is not fa.result.uses_library:
+                fa.findings = self._findings(fa)
+                fa.matched_as_user = fa.result.uses_library
 
     def _parse(self, path: str) -> FileAnalysis:
         source = self.sources[path]
@@ -191,7 +236,7 @@ class ProjectResolver:
                         column=where.start.column,  # type: ignore[attr-defined]
                         change=cc.change.id,
                         confidence=confidence,
-                        pattern=pattern(ref, cc),
+                        pattern=pattern(ref, cc, self.q),
                     )
                 )
         return _strongest(out)

@@ -28,6 +28,7 @@ class CompiledChange:
     change: Change
     canonical: str
     parent_is_class: bool
+    position: int | None  # from the change, else from the library's signature when known
 
 
 class Query:
@@ -40,6 +41,7 @@ class Query:
                 change=c,
                 canonical=self.model.canonical(c.member),
                 parent_is_class=self.model.is_class(self.model.canonical(c.member).rpartition(".")[0]),
+                position=self._position(c),
             )
             for c in changes.changes
         )
@@ -51,6 +53,17 @@ class Query:
             self._by_name.setdefault(cc.change.name, []).append(cc)
         self.names = frozenset(self._by_name)
         self._common = builtin_attribute_names()
+
+    def _position(self, change: Change) -> int | None:
+        if change.position is not None or change.parameter is None:
+            return change.position
+        lookup = getattr(self.model, "position", None)
+        return lookup(change.member, change.parameter) if lookup is not None else None
+
+    def display(self, dotted: str) -> str:
+        """How reports name a library object: its public path when the model knows one."""
+        public = getattr(self.model, "public_name", None)
+        return public(dotted) if public is not None else dotted
 
     def is_library_module(self, dotted: str) -> bool:
         return dotted.split(".", 1)[0] in self.tops
@@ -73,6 +86,6 @@ class Query:
         name = cc.change.name
         if name in self._common:
             return False
-        owner = cc.canonical.rpartition(".")[0]
-        others = {o for o in self.model.owners(name) if o != owner}
+        # Another owner counts only if its attribute is a different member (not inherited from ours).
+        others = {o for o in self.model.owners(name) if self.model.canonical(f"{o}.{name}") != cc.canonical}
         return not others

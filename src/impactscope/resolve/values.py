@@ -48,8 +48,11 @@ class UserFunc:
     scope: "object"  # the defining Scope (kept opaque to avoid an import cycle)
     owner: "UserClass | None" = None
     kind: str = "function"  # function | method | classmethod | staticmethod | property
-    state: str = "pending"  # pending | running | done
-    returns: "Value" = None  # type: ignore[assignment]
+    cell: int | None = None  # the notebook cell that defines it: its body's references belong there
+    home: object = None  # the module evaluator that defines it: only that one records its body
+    state: str = "pending"  # pending | running | done (done: its references are recorded)
+    top_runs: int = 0  # recorded runs for calls from module level, each with that moment's bindings
+    returns: "Value" = None  # type: ignore[assignment]  # None until a first reading infers it
 
 
 @dataclass(eq=False)

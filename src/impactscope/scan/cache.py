@@ -28,7 +28,7 @@ from typing import Iterable, Iterator, Sequence
 
 from impactscope import __version__
 from impactscope.changes import ChangeList
-from impactscope.corpus.roots import MAX_FILE_SIZE, Entry, Project, archive_stem
+from impactscope.corpus.roots import MAX_FILE_SIZE, Entry, EntryError, Project, archive_stem
 from impactscope.scan.project import _is_manifest
 
 KEY_SCHEMA = "1"
@@ -121,7 +121,9 @@ def _wants_bytes(entry: Entry) -> bool:
 def held(entry: Entry) -> Entry:
     """`entry` with its bytes (or the error reading them) read now and held in memory."""
     if not _wants_bytes(entry):
-        return entry
+        # Never read by a scan; drop the reader, which may hold an open archive.
+        refuse = functools.partial(_raise, EntryError(f"{entry.path}: not kept in memory"))
+        return Entry(entry.path, entry.size, entry.stamp, entry.skip, entry.error, refuse)
     try:
         read = functools.partial(_give, entry.read())
     except Exception as exc:  # noqa: BLE001 - replayed as it happened

@@ -9,7 +9,8 @@ and the corpus readable at the same path as on the client; batches travel as pic
 from __future__ import annotations
 
 import contextlib
-from typing import TYPE_CHECKING, Any, Iterable, Iterator
+import itertools
+from typing import TYPE_CHECKING, Any, Generator, Iterable, Iterator
 
 from impactscope.changes import ChangeList
 from impactscope.resolve.query import Query
@@ -37,7 +38,7 @@ def _distributed() -> Any:
 
 
 @contextlib.contextmanager
-def connect(address: str) -> Iterator["Client"]:
+def connect(address: str, *, timeout: float = 15.0) -> Iterator["Client"]:
     """A client of the scheduler at `address`, or of a two-worker LocalCluster for `local`."""
     distributed = _distributed()
     if address == LOCAL:
@@ -47,7 +48,7 @@ def connect(address: str) -> Iterator["Client"]:
             yield client
         return
     try:
-        client = distributed.Client(address, timeout="15s")
+        client = distributed.Client(address, timeout=f"{timeout}s")
     except (OSError, TimeoutError) as exc:
         raise ClusterError(
             f"cannot reach a Dask scheduler at {address!r} ({exc}); start one with `dask scheduler` "
@@ -55,6 +56,19 @@ def connect(address: str) -> Iterator["Client"]:
         ) from None
     with client:
         yield client
+
+
+def scan_on_cluster(
+    address: str, batches: Iterable[Batch], changes: ChangeList, query: Query, prefilter: bool, fingerprint: str
+) -> Generator[Scanned, None, None]:
+    """`run_cluster` on a client of `address`, connected only once there is work to send
+    (a warm rescan with nothing changed never starts or contacts a cluster)."""
+    work = iter(batches)
+    first = next(work, None)
+    if first is None:
+        return
+    with connect(address) as client:
+        yield from run_cluster(itertools.chain((first,), work), changes, query, prefilter, fingerprint, client)
 
 
 def run_cluster(
@@ -66,7 +80,7 @@ def run_cluster(
     client: "Client",
     *,
     window: int | None = None,
-) -> Iterator[Scanned]:
+) -> Generator[Scanned, None, None]:
     """Yield results as batches finish on the cluster; a bounded number of batches is in flight."""
     distributed = _distributed()
     workers = max(len(client.scheduler_info().get("workers", {})), 1)
@@ -93,4 +107,4 @@ def run_cluster(
             client.cancel(list(pending))
 
 
-__all__ = ["LOCAL", "ClusterError", "connect", "run_cluster"]
+__all__ = ["LOCAL", "ClusterError", "connect", "run_cluster", "scan_on_cluster"]

@@ -8,12 +8,16 @@ writes them, so the store has one writer. The output does not depend on the numb
 
 from __future__ import annotations
 
+import multiprocessing
+import multiprocessing.connection
+import os
 import pickle
 import signal
+import threading
 from collections import deque
 from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import dataclass
-from typing import Iterable, Iterator, Sequence
+from typing import Generator, Iterable, Iterator, Sequence
 
 from impactscope.changes import ChangeList
 from impactscope.corpus.roots import Entry, Project
@@ -58,7 +62,7 @@ def scan_batch(batch: Sequence[Project], query: Query, prefilter: bool, fingerpr
 # ------------------------------------------------------------------ in this process
 
 
-def run_inline(batches: Iterable[Batch], query: Query, prefilter: bool, fingerprint: str) -> Iterator[Scanned]:
+def run_inline(batches: Iterable[Batch], query: Query, prefilter: bool, fingerprint: str) -> Generator[Scanned, None, None]:
     for batch in batches:
         for project in batch:
             yield scan_keyed(project, query, prefilter, fingerprint)
@@ -67,9 +71,23 @@ def run_inline(batches: Iterable[Batch], query: Query, prefilter: bool, fingerpr
 # ------------------------------------------------------------------ process pool
 
 
+def _exit_with_parent() -> None:
+    """A worker whose parent was killed (SIGKILL leaves no time to stop the pool) ends too."""
+    parent = multiprocessing.parent_process()
+    if parent is None:
+        return
+
+    def watch() -> None:
+        multiprocessing.connection.wait([parent.sentinel])
+        os._exit(1)
+
+    threading.Thread(target=watch, name="impactscope-parent-watch", daemon=True).start()
+
+
 def _init_worker(changes: ChangeList, prefilter: bool, fingerprint: str) -> None:
     # Ctrl-C is the parent's to handle: it commits what is done and stops the pool.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _exit_with_parent()
     _WORKER["query"] = Query(changes)
     _WORKER["prefilter"] = prefilter
     _WORKER["fingerprint"] = fingerprint
@@ -83,7 +101,7 @@ def _scan_in_worker(batch: Batch) -> list[Scanned]:
 
 def run_pool(
     batches: Iterable[Batch], changes: ChangeList, query: Query, jobs: int, prefilter: bool, fingerprint: str
-) -> Iterator[Scanned]:
+) -> Generator[Scanned, None, None]:
     """Yield results as batches finish; a few batches per worker are in flight at most."""
     window = jobs * 3
     pending: deque[Future[list[Scanned]]] = deque()
@@ -106,8 +124,9 @@ def run_pool(
             pool.shutdown(wait=True)
         else:
             # Interrupted or failed: drop queued work and stop the workers now, not after their tasks.
+            processes = list((getattr(pool, "_processes", None) or {}).values())
             pool.shutdown(wait=False, cancel_futures=True)
-            for process in list(getattr(pool, "_processes", {}).values()):
+            for process in processes:
                 process.terminate()
 
 

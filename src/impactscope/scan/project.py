@@ -86,6 +86,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
     resolver = ProjectResolver(project.name, query, sources)
     for path in sorted(keep):
         resolver.analyse(path)
+    resolver.finish()
     for path, fa in resolver.files.items():
         prior = outcomes[path]
         outcomes[path] = FileOutcome(path, fa.status, fa.reason, fa.detail, prior.digest, prior.kind)
@@ -96,7 +97,12 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
             result.uses_library = True
     if not result.uses_library:
         # Files the prefilter passed over may still import the library without touching a change.
-        result.uses_library = any(_imports_library(texts[p], query.tops) for p in texts if p not in resolver.files)
+        # So may files that did not parse (Python 2), read by the same import-line test.
+        result.uses_library = any(
+            _imports_library(texts[p], query.tops)
+            for p in texts
+            if p not in resolver.files or resolver.files[p].result is None
+        )
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
     return result

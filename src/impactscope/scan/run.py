@@ -15,7 +15,7 @@ import os
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Iterable, Iterator, Sequence
+from typing import Generator, Iterable, Iterator, Sequence
 
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.roots import Entry, Project, archive_stem, check_roots, discover
@@ -186,7 +186,7 @@ def run_scan(
             found = discover(roots, single=single, library=changes.import_name)
             batches = _plan(found, cached, fingerprint, tallier, seen)
             results = stack.enter_context(
-                contextlib.closing(_execute(batches, changes, query, prefilter, fingerprint, workers, cluster, stack))
+                contextlib.closing(_execute(batches, changes, query, prefilter, fingerprint, workers, cluster))
             )
             last_commit = time.monotonic()
             uncommitted = 0
@@ -221,13 +221,11 @@ def _execute(
     fingerprint: str,
     workers: int,
     cluster: str | None,
-    stack: contextlib.ExitStack,
-) -> Iterator[Scanned]:
+) -> Generator[Scanned, None, None]:
     if cluster is not None:
-        from impactscope.scan.cluster import connect, run_cluster
+        from impactscope.scan.cluster import scan_on_cluster
 
-        client = stack.enter_context(connect(cluster.strip()))
-        return run_cluster(batches, changes, query, prefilter, fingerprint, client)
+        return scan_on_cluster(cluster.strip(), batches, changes, query, prefilter, fingerprint)
     if workers > 1:
         return run_pool(batches, changes, query, workers, prefilter, fingerprint)
     return run_inline(batches, query, prefilter, fingerprint)

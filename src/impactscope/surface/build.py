@@ -13,7 +13,7 @@ import hashlib
 import io
 import os
 import tokenize
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -172,13 +172,15 @@ class ParsedModule:
     text: SourceText
 
 
-def parse_modules(files: Sequence[ModuleFile]) -> tuple[list[ParsedModule], list[Problem]]:
-    """Parse every module; one that cannot be read becomes a Problem, and reading goes on."""
-    parsed: list[ParsedModule] = []
-    problems: list[Problem] = []
+def iter_parsed(files: Iterable[ModuleFile], problems: list[Problem]) -> Iterator[ParsedModule]:
+    """Parse modules one at a time; one that cannot be read is appended to `problems` instead.
+
+    Yielding one tree at a time keeps memory flat: the collector would otherwise spend most of
+    the build walking millions of live AST nodes.
+    """
     for f in files:
         if f.path is None:
-            parsed.append(ParsedModule(f, ast.Module(body=[], type_ignores=[]), SourceText(b"")))
+            yield ParsedModule(f, ast.Module(body=[], type_ignores=[]), SourceText(b""))
             continue
         try:
             data = f.path.read_bytes()
@@ -195,7 +197,13 @@ def parse_modules(files: Sequence[ModuleFile]) -> tuple[list[ParsedModule], list
         except OSError as exc:
             problems.append(Problem(f.name, str(f.path), f"cannot read the file: {exc.strerror or exc}"))
             continue
-        parsed.append(ParsedModule(f, tree, SourceText(data)))
+        yield ParsedModule(f, tree, SourceText(data))
+
+
+def parse_modules(files: Sequence[ModuleFile]) -> tuple[list[ParsedModule], list[Problem]]:
+    """Parse every module and keep the trees (for callers that walk them again, like harvest)."""
+    problems: list[Problem] = []
+    parsed = list(iter_parsed(files, problems))
     return parsed, problems
 
 
@@ -250,6 +258,7 @@ class _Bind:
     line: int
     type_only: bool = False
     reexport: bool = False  # `import x as x`, `from m import x as x`, or a star import
+    origin: str = ""  # for `from M import x`: M, which the import system finds as a module, not an attribute
 
 
 class _Raw:
@@ -293,6 +302,7 @@ class _Reader:
         self.getattr = False
         self.runtime_names = False
         self._overloads: set[str] = set()
+        self._imported: dict[str, str] = {}  # name -> dotted target, as imports are read
         self._kids: dict[str, list[str]] = {}
         raw[f.name] = _Raw(f.name, "module", f.name, 1 if f.path is not None else 0)
         self.block(parsed.tree.body, frozenset(), False, None)
@@ -504,6 +514,8 @@ class _Reader:
             kind = "function" if scope is None else "method"
         else:
             kind = "unknown"
+        if isinstance(value, ast.Call) and self._namedtuple(path, value, line, scope):
+            return
         r = self._new(path, kind, line, scope)
         r.value_ann = annotation
         if isinstance(value, ast.Lambda):
@@ -512,6 +524,33 @@ class _Reader:
             r.value_call = dotted_name(value.func)
         if value is not None:
             r.shape = self.text.digest(value.lineno - 1, value.col_offset, value.end_lineno or value.lineno)
+
+    def _namedtuple(self, path: str, call: ast.Call, line: int, scope: str | None) -> bool:
+        """`namedtuple("P", "x y")` and `NamedTuple("P", [("x", int)])` make a class."""
+        text = dotted_name(call.func) or ""
+        first, _, rest = text.partition(".")
+        full = ".".join(filter(None, (self._imported.get(first, first), rest)))
+        if full not in ("collections.namedtuple", "typing.NamedTuple", "typing_extensions.NamedTuple"):
+            return False
+        spec = call.args[1] if len(call.args) > 1 else next((k.value for k in call.keywords if k.arg in ("field_names", "fields")), None)
+        if isinstance(spec, ast.Constant) and isinstance(spec.value, str):
+            names = spec.value.replace(",", " ").split()
+        elif isinstance(spec, (ast.List, ast.Tuple)):
+            names = [_string(e.elts[0] if isinstance(e, ast.Tuple) and e.elts else e) for e in spec.elts]
+        else:
+            return False
+        if None in names or not all(n.isidentifier() for n in names):
+            return False
+        defaults = next((k.value for k in call.keywords if k.arg == "defaults"), None)
+        n_defaults = len(defaults.elts) if isinstance(defaults, (ast.List, ast.Tuple)) else 0
+        r = self._new(path, "class", line, scope)
+        r.bases = ["tuple"]
+        r.namedtuple = True
+        given = defaults.elts if isinstance(defaults, (ast.List, ast.Tuple)) else []
+        for i, n in enumerate(names):
+            k = i - (len(names) - n_defaults)
+            r.fields.append((n, self.text.segment(given[k]) if k >= 0 else None, False))
+        return True
 
     def _field(self, name: str, value: ast.expr | None, annotation: ast.expr, cls: str) -> None:
         owner = self.raw.get(cls)
@@ -561,12 +600,14 @@ class _Reader:
             name = alias.asname or alias.name
             if name not in shadow:
                 bound.add(name)
-                self._bind_import(name, f"{base}.{alias.name}", st.lineno, type_only, alias.asname == alias.name)
+                self._bind_import(name, f"{base}.{alias.name}", st.lineno, type_only, alias.asname == alias.name, base)
         return bound
 
-    def _bind_import(self, name: str, target: str, line: int, type_only: bool, reexport: bool) -> None:
+    def _bind_import(self, name: str, target: str, line: int, type_only: bool, reexport: bool, origin: str = "") -> None:
         inside = target == self.library or target.startswith(self.library + ".")
-        self.ops.append(("bind", name, _Bind("import" if inside else "external", target, line, type_only, reexport)))
+        self._imported[name] = target
+        bind = _Bind("import" if inside else "external", target, line, type_only, reexport, origin)
+        self.ops.append(("bind", name, bind))
 
     def _absolute(self, module: str | None, level: int) -> str | None:
         if level == 0:
@@ -722,7 +763,7 @@ class _Linker:
                     continue
                 for n in names:
                     if not (type_only and n in ns and not ns[n].type_only):
-                        ns[n] = _Bind("import", f"{target}.{n}", line, type_only, True)
+                        ns[n] = _Bind("import", f"{target}.{n}", line, type_only, True, target)
         del self._partial[module]
         self._ns[module] = ns
         self._complete[module] = complete
@@ -784,6 +825,16 @@ class _Linker:
             if bind.kind == "def":
                 return bind.target if bind.target in self.raw else None
             if bind.kind == "import":
+                # `import a.b as c` and `from a.b import c` find a.b in sys.modules, so a package
+                # attribute that shadows the submodule a.b does not get in the way.
+                if bind.target in self.readers and not bind.origin:
+                    return bind.target
+                if bind.origin in self.readers:
+                    if bind.origin == module and bind.target in self.readers:
+                        return bind.target  # `from . import sub` inside the package itself
+                    found = self.value(bind.origin, bind.target.rpartition(".")[2], typing)
+                    # The import system falls back to the submodule when the attribute is missing.
+                    return found if found is not None or bind.target not in self.readers else bind.target
                 return self.resolve(bind.target, typing)
             if bind.kind == "alias":
                 return self.resolve_expr(module, bind.target, typing)[0]
@@ -833,6 +884,8 @@ class _Linker:
 
         def compute() -> str | None:
             _, text, _ = entry
+            if cls not in self.raw:
+                return None
             first, _, rest = text.partition(".")
             if f"{cls}.{first}" in self.raw or f"{cls}.{first}" in self.class_aliases:
                 return self.walk(self.own(cls, first), rest.split(".") if rest else ())
@@ -1011,16 +1064,27 @@ def _is_none(node: ast.expr) -> bool:
     return (isinstance(node, ast.Constant) and node.value is None) or dotted_name(node) == "None"
 
 
-def surface_from_parsed(library: str, parsed: Sequence[ParsedModule], problems: Sequence[Problem] = (),
-                        failed: Sequence[ModuleFile] = ()) -> Surface:
-    """Link parsed modules into a Surface; `failed` modules exist but could not be read."""
+def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: Sequence[Problem] = ()) -> Surface:
+    """Link parsed modules into a Surface.
+
+    `parsed` may be a lazy iterator; `problems` is read after it is exhausted, and each module
+    named there still exists in the surface, with unknowable exports.
+    """
     raw: dict[str, _Raw] = {}
     class_aliases: dict[str, tuple[str, str, int]] = {}
     readers: dict[str, _Reader] = {}
     for p in parsed:
         readers[p.file.name] = _Reader(p, library, raw, class_aliases)
-    for f in failed:
-        raw.setdefault(f.name, _Raw(f.name, "module", f.name, 0))
+    failed = [p.module for p in problems]
+    for name in failed:
+        raw.setdefault(name, _Raw(name, "module", name, 0))
+    # A class or function later rebound to something else leaves its members without a parent.
+    for name in sorted(raw):
+        parent = name.rpartition(".")[0]
+        if parent and parent not in raw:
+            del raw[name]
+    for path in [p for p, (cls, _, _) in class_aliases.items() if cls not in raw]:
+        del class_aliases[path]
     link = _Linker(library, readers, raw, class_aliases)
 
     members: dict[str, Member] = {}
@@ -1062,8 +1126,8 @@ def surface_from_parsed(library: str, parsed: Sequence[ParsedModule], problems: 
                   and (module not in declared or rest[0] in (exports[module] or ()))
                   and not any(s.startswith("_") and not (s.startswith("__") and s.endswith("__")) for s in rest[1:]))
         (aliases if public else private)[path] = target
-    for f in failed:
-        exports.setdefault(f.name, None)
+    for name in failed:
+        exports.setdefault(name, None)
     dynamic = frozenset(m for m, r in readers.items() if r.getattr or r.runtime_names)
     return Surface(
         library=library,
@@ -1083,6 +1147,5 @@ def build_surface(source: Path | str, library: str | None = None) -> Surface:
     The library's code is parsed, never imported or run.
     """
     name, files = discover_modules(Path(source), library)
-    parsed, problems = parse_modules(files)
-    ok = {p.file.name for p in parsed}
-    return surface_from_parsed(name, parsed, problems, [f for f in files if f.name not in ok])
+    problems: list[Problem] = []
+    return surface_from_parsed(name, iter_parsed(files, problems), problems)

@@ -13,8 +13,7 @@ from dataclasses import dataclass
 from .model import Member, Parameter, Surface
 
 CERTAINTIES = ("high", "medium", "low")
-_KIND_ORDER = {k: i for i, k in enumerate(
-    ("removed", "renamed", "moved", "parameter-removed", "parameter-renamed", "default-changed", "behaviour-changed"))}
+KINDS = ("removed", "renamed", "moved", "parameter-removed", "parameter-renamed", "default-changed", "behaviour-changed")
 _VAR = ("var-positional", "var-keyword")
 
 
@@ -55,8 +54,12 @@ def _comment(text: str) -> str:
 
 def render_draft(changes: Iterable[DraftChange], library: str, release: str | None = None,
                  *, origin: str = "impactscope") -> str:
-    """The change-list TOML (keys as in DESIGN.md), ids C-1, C-2, ... in a stable order."""
-    ordered = sorted(changes, key=lambda c: (c.member, _KIND_ORDER.get(c.kind, 99), c.parameter or "", c.replacement or ""))
+    """The change-list TOML (keys as in DESIGN.md), ids C-1, C-2, ... in a stable order.
+
+    Entries may be DraftChange or anything with a `to_draft()` method (a HarvestedChange).
+    """
+    drafts = [c.to_draft() if hasattr(c, "to_draft") else c for c in changes]
+    ordered = sorted(drafts, key=lambda c: (c.member, KINDS.index(c.kind) if c.kind in KINDS else len(KINDS), c.parameter or "", c.replacement or ""))
     lines = [f"# Draft change list for {library}, written by {origin}.",
              "# Review every entry: certainty comments say how sure each one is.",
              "", "[library]", f"name = {_toml_string(library)}"]

@@ -123,6 +123,7 @@ class Surface:
     _owners: Mapping[str, frozenset[str]] = field(init=False, repr=False, compare=False)
     _public: frozenset[str] = field(init=False, repr=False, compare=False)
     _reach: Mapping[str, tuple[str, ...]] = field(init=False, repr=False, compare=False)
+    _hash: int = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         put = object.__setattr__
@@ -164,11 +165,16 @@ class Surface:
         put(self, "_attrs", attrs)
         put(self, "_owners", {k: frozenset(v) for k, v in owners.items()})
         put(self, "_public", frozenset(self._public_paths()))
+        put(self, "_hash", hash((self.library, frozenset(self.members), frozenset(self.aliases.items()))))
         reach: dict[str, list[str]] = {}
         for path in self._public:
             reach.setdefault(self.canonical(path), []).append(path)
         put(self, "_reach", {target: tuple(sorted(paths, key=lambda p, t=target: self._rank(p, t)))
                              for target, paths in reach.items()})
+
+    def __hash__(self) -> int:
+        # The mappings are not hashable; equal surfaces have equal names, so this is consistent with ==.
+        return self._hash
 
     # -- look-ups the resolver makes ------------------------------------------------------
 
@@ -178,15 +184,17 @@ class Surface:
         A name the surface does not know comes back unchanged past its longest known prefix,
         which is itself canonicalised.
         """
-        if dotted in self.members:
-            return dotted
+        # A re-export wins over a member at the same path: `from .main import main` in a package
+        # makes `pkg.main` the function, as attribute access sees it, not the submodule.
         target = self._links.get(dotted)
         if target is not None:
             return target
+        if dotted in self.members:
+            return dotted
         parts = dotted.split(".")
         for i in range(len(parts) - 1, 0, -1):
             head = ".".join(parts[:i])
-            base = head if head in self.members else self._links.get(head)
+            base = self._links.get(head) or (head if head in self.members else None)
             if base is not None:
                 break
         else:
@@ -287,7 +295,7 @@ class Surface:
         public = {name for name in self.members if self.is_public(name)}
         public.update(self.aliases)
         for path in list(public):
-            target = path if path in self.members else self.aliases.get(path)
+            target = self.aliases.get(path, path if path in self.members else None)
             if target is not None and self.members[target].kind == "class":
                 self._expand(path, target, public, (target,))
         return public

@@ -1,0 +1,30 @@
+"""The demo scenario: the fictional library heronframe, its 3.0 change list, and a generated corpus.
+
+- `changes.toml`: what heronframe 3.0 changes (see `changes_path`);
+- `heronframe/`: the library's 2.4 source, as downstream projects would have installed it;
+- `generate.generate_corpus`: fictional downstream projects plus the ground truth a correct
+  scan of them reports.
+"""
+
+from __future__ import annotations
+
+from importlib import resources
+from importlib.resources.abc import Traversable
+
+from .generate import ExpectedSite, GroundTruth, LegacySite, ProjectTruth, generate_corpus, load_truth, truth_path
+
+__all__ = [
+    "ExpectedSite",
+    "GroundTruth",
+    "LegacySite",
+    "ProjectTruth",
+    "changes_resource",
+    "generate_corpus",
+    "load_truth",
+    "truth_path",
+]
+
+
+def changes_resource() -> Traversable:
+    """The demo change list inside the installed package (use `importlib.resources.as_file`)."""
+    return resources.files(__name__) / "changes.toml"

@@ -1,0 +1,203 @@
+"""Bad input at the command line: exit 2, one clear line, no traceback; damaged corpus files
+are counted, not fatal.
+
+Source: DESIGN.md "Command line (typer)" ("Exit codes: 0 success, 1 a gate failed, 2 bad input
+or usage. A bad input prints one clear message (what, where, how to fix) and no traceback") and
+"Corpus layout" ("Every file of every project is accounted for in the totals: parsed, skipped
+... or unparsed (with reason: syntax error, Python 2, encoding)").
+"""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from impactscope.cli import app
+
+CHANGES = '''
+[library]
+name = "heronframe"
+release = "3.0"
+
+[[change]]
+id = "HF-2"
+member = "heronframe.stack"
+kind = "removed"
+'''
+
+runner = CliRunner()
+
+
+def invoke(*args: str):
+    return runner.invoke(app, [str(a) for a in args])
+
+
+def one_error_line(result, *must_contain: str) -> str:
+    assert result.exit_code == 2, (result.exit_code, result.output)
+    assert result.exception is None or isinstance(result.exception, SystemExit)
+    lines = [ln for ln in result.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1, result.stderr
+    assert "Traceback" not in result.output and "Traceback" not in result.stderr
+    for text in must_contain:
+        assert text in lines[0], (text, lines[0])
+    return lines[0]
+
+
+@pytest.fixture
+def changes(tmp_path: Path) -> Path:
+    path = tmp_path / "changes.toml"
+    path.write_text(CHANGES, encoding="utf-8")
+    return path
+
+
+@pytest.fixture
+def corpus(tmp_path: Path) -> Path:
+    root = tmp_path / "corpus"
+    (root / "good").mkdir(parents=True)
+    (root / "good" / "main.py").write_text("import heronframe as hf\nhf.stack()\n", encoding="utf-8")
+    (root / "good" / "README.md").write_text("not source\n", encoding="utf-8")
+    (root / "damaged").mkdir()
+    # nbformat v4: a notebook is a JSON document; this one is cut off mid-array.
+    (root / "damaged" / "analysis.ipynb").write_text('{"cells": [', encoding="utf-8")
+    # PEP 263 / PEP 3120: without a declaration a .py file is UTF-8; 0xff never is.
+    (root / "damaged" / "legacy.py").write_bytes(b"import heronframe\nname = '\xff\xfe'\n")
+    # PEP 263: a declared encoding governs the file; these bytes are not ASCII / no codec.
+    (root / "damaged" / "declared.py").write_bytes(b"# -*- coding: ascii -*-\nimport heronframe\nx = '\xc3\xa9'\n")
+    (root / "damaged" / "codec.py").write_bytes(b"# coding: no-such-codec\nimport heronframe\n")
+    # Python 2 print statement and a plain syntax error, both mentioning a changed member so
+    # that they are read (Language Reference §7: `print "x"` is not a Python 3 statement).
+    (root / "damaged" / "old.py").write_text('import heronframe\nprint "hi"\nheronframe.stack()\n', encoding="utf-8")
+    (root / "damaged" / "broken.py").write_text("import heronframe\nheronframe.stack()\ndef f(:\n", encoding="utf-8")
+    # The ZIP format starts with a local file header signature (PK\x03\x04); this is not one.
+    (root / "archived.zip").write_bytes(b"this is not a zip archive at all\n")
+    # gzip streams start with 1f 8b (RFC 1952); this is not one.
+    (root / "tarred.tar.gz").write_bytes(b"not gzip either\n")
+    return root
+
+
+# ---------------------------------------------------------------------------- bad input -> 2
+def test_malformed_change_list(tmp_path: Path, corpus: Path) -> None:
+    bad = tmp_path / "bad.toml"
+    bad.write_text(CHANGES.replace('kind = "removed"', 'kind = "deleted"'), encoding="utf-8")
+    line = one_error_line(invoke("scan", bad, corpus, "--out", tmp_path / "r.sqlite"), "bad.toml", "'deleted'")
+    assert "#1" in line and "use one of" in line
+
+
+def test_change_list_with_toml_syntax_error(tmp_path: Path, corpus: Path) -> None:
+    bad = tmp_path / "broken.toml"
+    bad.write_text("[library\nname = 1\n", encoding="utf-8")
+    one_error_line(invoke("scan", bad, corpus, "--out", tmp_path / "r.sqlite"), "broken.toml", "line 1")
+
+
+def test_missing_change_list(tmp_path: Path, corpus: Path) -> None:
+    one_error_line(invoke("scan", tmp_path / "none.toml", corpus, "--out", tmp_path / "r.sqlite"), "none.toml")
+
+
+def test_missing_root(tmp_path: Path, changes: Path) -> None:
+    missing = tmp_path / "no-such-corpus"
+    one_error_line(invoke("scan", changes, missing, "--out", tmp_path / "r.sqlite"), "no-such-corpus", "does not exist")
+
+
+def test_root_that_is_not_an_archive(tmp_path: Path, changes: Path) -> None:
+    odd = tmp_path / "notes.txt"
+    odd.write_text("x", encoding="utf-8")
+    one_error_line(invoke("scan", changes, odd, "--out", tmp_path / "r.sqlite"), "notes.txt")
+
+
+def test_report_on_missing_file(tmp_path: Path) -> None:
+    one_error_line(invoke("report", tmp_path / "nothing.sqlite"), "nothing.sqlite")
+
+
+def test_report_on_non_sqlite_file(tmp_path: Path) -> None:
+    fake = tmp_path / "fake.sqlite"
+    fake.write_text("just some text, not a database\n", encoding="utf-8")
+    one_error_line(invoke("report", fake, "--format", "json"), "fake.sqlite")
+
+
+def test_report_on_a_foreign_sqlite_database(tmp_path: Path) -> None:
+    other = tmp_path / "other.sqlite"
+    with sqlite3.connect(other) as db:
+        db.execute("create table t (x)")
+    db.close()
+    one_error_line(invoke("report", other), "other.sqlite")
+
+
+def test_usage_error_is_exit_2(tmp_path: Path) -> None:
+    # Click's convention (common practice): a usage error exits with status 2.
+    result = invoke("report", tmp_path / "r.sqlite", "--format", "yaml")
+    assert result.exit_code == 2
+    assert "Traceback" not in result.output
+
+
+# ---------------------------------------------------------------------------- damaged files -> counted
+def test_damaged_files_are_counted_as_unparsed(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    out = tmp_path / "r.sqlite"
+    scanned = invoke("scan", changes, corpus, "--out", out, "--jobs", "1", "--quiet")
+    assert scanned.exit_code == 0, scanned.output
+    reported = invoke("report", out, "--format", "json")
+    assert reported.exit_code == 0, reported.output
+    doc = json.loads(reported.stdout)
+    totals = doc["totals"]
+    # DESIGN.md: every file is accounted for.
+    assert totals["files"] == totals["files_parsed"] + totals["files_skipped"] + totals["files_unparsed"]
+    # good, damaged, archived, tarred (DESIGN.md "Corpus layout": each child is a project).
+    assert totals["projects"] == 4
+    assert totals["files_unparsed"] == 8
+    assert totals["files_parsed"] == 1
+    assert totals["files_skipped"] == 1  # README.md: not source
+    reasons = {(r["status"], r["reason"]): r["files"] for r in doc["file_reasons"]}
+    assert reasons.get(("unparsed", "encoding")) == 3
+    assert reasons.get(("unparsed", "invalid notebook")) == 1
+    assert reasons.get(("unparsed", "python 2")) == 1
+    assert reasons.get(("unparsed", "syntax error")) == 1
+    assert sum(n for (status, reason), n in reasons.items() if status == "unparsed" and "archive" in reason) == 2
+    assert sum(n for (status, _), n in reasons.items() if status == "unparsed") == totals["files_unparsed"]
+    # The good project is still scanned.
+    assert ("good", "main.py", 2, "HF-2", "resolved") in {
+        (f["project"], f["file"], f["line"], f["change"], f["confidence"]) for f in doc["findings"]
+    }
+
+
+def test_projects_with_findings_count_as_using_the_library(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    out = tmp_path / "r.sqlite"
+    assert invoke("scan", changes, corpus, "--out", out, "--jobs", "1", "--quiet").exit_code == 0
+    doc = json.loads(invoke("report", out, "--format", "json").stdout)
+    # DESIGN.md: findings "arise only in files that import the library", so every project with
+    # a finding (here also the one whose only reader is the Python 2 fallback) uses it.
+    with_findings = {f["project"] for f in doc["findings"]}
+    assert "good" in with_findings
+    assert doc["totals"]["projects_using_library"] >= len(with_findings)
+
+
+def test_corrupt_archive_as_the_root(tmp_path: Path, changes: Path) -> None:
+    root = tmp_path / "corpus.zip"
+    root.write_bytes(b"PK but not really")
+    out = tmp_path / "r.sqlite"
+    # roots.discover: "A corrupt archive does not stop discovery"; DESIGN.md: every file is
+    # accounted for.
+    scanned = invoke("scan", changes, root, "--out", out, "--jobs", "1", "--quiet")
+    assert scanned.exit_code == 0, scanned.output
+    doc = json.loads(invoke("report", out, "--format", "json").stdout)
+    assert doc["totals"]["files_unparsed"] == doc["totals"]["files"] == 1
+
+
+def test_console_script_prints_no_traceback(tmp_path: Path, corpus: Path) -> None:
+    bad = tmp_path / "bad.toml"
+    bad.write_text(CHANGES + "\n[[change]]\nid = \"HF-2\"\nmember = \"heronframe.x\"\nkind = \"removed\"\n", encoding="utf-8")
+    script = Path(sys.executable).with_name("impactscope")
+    if not script.exists():
+        script = Path("/tmp/venv/bin/impactscope")
+    done = subprocess.run(
+        [str(script), "scan", str(bad), str(corpus), "--out", str(tmp_path / "r.sqlite")],
+        capture_output=True, text=True, timeout=60,
+    )
+    assert done.returncode == 2
+    assert "Traceback" not in done.stderr
+    lines = [ln for ln in done.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1 and "bad.toml" in lines[0] and "duplicate" in lines[0]
