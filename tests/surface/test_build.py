@@ -86,6 +86,33 @@ def test_pep702_deprecated_from_typing_extensions(old):
     assert old.member("heronframe.Table.copy").deprecated is None
 
 
+def test_pep702_through_the_librarys_own_compat_module(tmp_path):
+    # PEP 702 names warnings.deprecated (3.13+) and typing_extensions.deprecated; libraries often
+    # pick one in a private compat module and import it from there.
+    root = write_tree(tmp_path / "lib", {
+        "_compat.py": """
+            import sys
+            if sys.version_info >= (3, 13):
+                from warnings import deprecated
+            else:
+                from typing_extensions import deprecated
+            """,
+        "__init__.py": """
+            from ._compat import deprecated
+            from . import _compat
+
+            @deprecated("use new()")
+            def old(): ...
+
+            @_compat.deprecated("use New")
+            class Old: ...
+            """,
+    })
+    s = build_surface(root)
+    assert s.member("lib.old").deprecated == "use new()"
+    assert s.member("lib.Old").deprecated == "use New"
+
+
 def test_module_getattr_marks_the_module_dynamic():
     # PEP 562: a module-level __getattr__ can answer any name, so the module is recorded as dynamic.
     new = build_surface(NEW)

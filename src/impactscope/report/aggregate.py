@@ -56,10 +56,13 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
         }
         patterns = []
         if not rows.empty:
-            grouped = rows.groupby("pattern").agg(projects=("project", "nunique"), sites=("project", "size"))
+            rows = rows.assign(where=rows["project"] + "\0" + rows["file"])
+            grouped = rows.groupby("pattern").agg(
+                projects=("project", "nunique"), sites=("project", "size"), files=("where", "nunique")
+            )
             grouped = grouped.reset_index().sort_values(["projects", "sites", "pattern"], ascending=[False, False, True])
             patterns = [
-                {"pattern": r.pattern, "projects": int(r.projects), "sites": int(r.sites)}
+                {"pattern": r.pattern, "projects": int(r.projects), "sites": int(r.sites), "files": int(r.files)}
                 for r in grouped.itertuples(index=False)
             ]
         out_changes.append(

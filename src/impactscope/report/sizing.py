@@ -91,7 +91,7 @@ def project_facts(
         read = read_manifests(manifests.get(name, {}), changes.library)
         declared = read.declared
         exposure: str | None = None
-        if name in resolved_projects or legacy:
+        if name in resolved_projects:
             if changes.release is not None:
                 exposure = classify(declared, changes.release, environment).value
             else:

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 
 from impactscope.corpus.roots import Project
 from impactscope.corpus.sources import Source, SourceError, read_notebook, read_python
+from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import ProjectResolver
@@ -36,12 +37,9 @@ class ProjectResult:
     manifests: dict[str, bytes] = field(default_factory=dict)
 
 
-def _is_manifest(path: str) -> bool:
-    leaf = path.rsplit("/", 1)[-1].lower()
-    return (
-        (leaf.startswith("requirements") and leaf.endswith((".txt", ".in")))
-        or leaf in ("pyproject.toml", "setup.cfg", "setup.py", "pipfile", "constraints.txt")
-    )
+def _is_manifest(path: str, size: int) -> bool:
+    """Manifest files, and small text files a requirements file may include with -r / -c."""
+    return is_manifest(path) or (path.endswith((".txt", ".in")) and size < 256_000)
 
 
 def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> ProjectResult:
@@ -51,7 +49,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
     order: list[str] = []
     for entry in project.entries():
         order.append(entry.path)
-        if _is_manifest(entry.path) and entry.error is None and entry.size < 2_000_000:
+        if entry.error is None and entry.size < 2_000_000 and _is_manifest(entry.path, entry.size):
             try:
                 result.manifests[entry.path] = entry.read()
             except Exception:  # noqa: BLE001 - an unreadable manifest only loses its constraint

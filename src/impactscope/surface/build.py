@@ -85,7 +85,7 @@ def discover_modules(source: Path, library: str | None = None) -> tuple[str, tup
     found = sorted(p.name for p in source.iterdir() if p.is_dir() and _has_init(p) and p.name.isidentifier())
     if len(found) == 1:
         return discover_modules(source / found[0])
-    listed = ", ".join(found) if found else "none"
+    listed = ", ".join(found[:8]) + (", ..." if len(found) > 8 else "") if found else "none"
     raise SurfaceError(
         f"{source}: is not a package (no __init__.py) and holds {len(found)} packages ({listed}); "
         "name the one to read with library=NAME"
@@ -536,10 +536,13 @@ class _Reader:
         if isinstance(spec, ast.Constant) and isinstance(spec.value, str):
             names = spec.value.replace(",", " ").split()
         elif isinstance(spec, (ast.List, ast.Tuple)):
-            names = [_string(e.elts[0] if isinstance(e, ast.Tuple) and e.elts else e) for e in spec.elts]
+            found = [_string(e.elts[0] if isinstance(e, ast.Tuple) and e.elts else e) for e in spec.elts]
+            names = [n for n in found if n is not None]
+            if len(names) != len(found):
+                return False
         else:
             return False
-        if None in names or not all(n.isidentifier() for n in names):
+        if not all(n.isidentifier() for n in names):
             return False
         defaults = next((k.value for k in call.keywords if k.arg == "defaults"), None)
         n_defaults = len(defaults.elts) if isinstance(defaults, (ast.List, ast.Tuple)) else 0
@@ -870,8 +873,8 @@ class _Linker:
                     return found
             return None
         if r.kind in ("constant", "unknown"):
-            cls = self.instance_class(owner)
-            return self.attr(cls, seg) if cls is not None else None
+            instance_of = self.instance_class(owner)
+            return self.attr(instance_of, seg) if instance_of is not None else None
         return None
 
     def own(self, cls: str, seg: str) -> str | None:
@@ -911,10 +914,15 @@ class _Linker:
                 return None, ".".join([bind.target, *tail])
             target = self.value(module, first, typing)
             if target is None:
+                # Not a library member: follow the chain to the outside name it stands for,
+                # e.g. `from ._compat import deprecated` where _compat imports typing_extensions'.
                 if bind.kind == "alias":
                     outside = self.resolve_expr(module, bind.target, typing)[1]
-                    return None, None if outside is None else ".".join([outside, *tail])
-                return None, None
+                elif bind.origin in self.readers:
+                    outside = self.resolve_expr(bind.origin, bind.target.rpartition(".")[2], typing)[1]
+                else:
+                    outside = None
+                return None, None if outside is None else ".".join([outside, *tail])
             return self.walk(target, tail, typing), None
 
         return self._guarded(("expr", module, text, typing), compute, (None, None))
@@ -1021,7 +1029,8 @@ class _Linker:
     def _fields_parameters(self, classes: list[str], kw_only: bool) -> tuple[Parameter, ...]:
         fields: dict[str, tuple[str | None, bool]] = {}
         for c in classes:
-            late = self.raw[c].dataclass is not None and self.raw[c].dataclass["kw_only"]
+            flags = self.raw[c].dataclass
+            late = flags is not None and flags["kw_only"]
             for name, default, kw in self.raw[c].fields:
                 if name == "*":
                     late = True

@@ -364,12 +364,18 @@ class _Harvester:
             return template
         unit = self.units[helper][1]
         given = self._arguments(unit, call)
-        parts = []
+        parts: list[str | ast.expr] = []
         for part in template.parts:
-            filled = part if isinstance(part, str) else _fill(part, given)
-            if filled is None and isinstance(part, ast.Name) and part.id in given:
-                filled = given[part.id]  # still a hole, but now the caller's expression
-            parts.append(filled if filled is not None else part)
+            if isinstance(part, str):
+                parts.append(part)
+                continue
+            filled = _fill(part, given)
+            if filled is not None:
+                parts.append(filled)
+            elif isinstance(part, ast.Name) and part.id in given:
+                parts.append(given[part.id])  # still a hole, but now the caller's expression
+            else:
+                parts.append(part)
         return _Template(tuple(parts))
 
     @staticmethod
@@ -434,15 +440,15 @@ class _Harvester:
         if not found:
             return
         found.sort(key=lambda f: (f[0] is not None and bool(f[0].conditions), f[2] != "warnings.warn"))
-        site, template, mechanism = found[0]
+        first, template, mechanism = found[0]
         note = (template.render() if template is not None else "") or f"{target} is deprecated"
         direct = mechanism == "warnings.warn"
-        if site is None or not site.conditions:
+        if first is None or not first.conditions:
             self._add(target, module.name, unit.node.lineno, mechanism, note, "high" if direct else "medium",
                       "calls warnings.warn with a deprecation category" if direct else f"uses the deprecation {mechanism}")
             return
-        parameter = self._parameter(unit, site.conditions)
-        why = f"warns only under a condition ({ast.unparse(site.conditions[-1])})"
+        parameter = self._parameter(unit, first.conditions)
+        why = f"warns only under a condition ({ast.unparse(first.conditions[-1])})"
         if parameter is None:
             self._add(target, module.name, unit.node.lineno, mechanism, note, "low", why)
             return

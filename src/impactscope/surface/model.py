@@ -169,8 +169,7 @@ class Surface:
         reach: dict[str, list[str]] = {}
         for path in self._public:
             reach.setdefault(self.canonical(path), []).append(path)
-        put(self, "_reach", {target: tuple(sorted(paths, key=lambda p, t=target: self._rank(p, t)))
-                             for target, paths in reach.items()})
+        put(self, "_reach", {target: self._ranked(paths, target) for target, paths in reach.items()})
 
     def __hash__(self) -> int:
         # The mappings are not hashable; equal surfaces have equal names, so this is consistent with ==.
@@ -263,7 +262,7 @@ class Surface:
             return self._attrs.get(owner, {}).get(attr)
         if member.kind == "module":
             return self._children.get(owner, {}).get(attr)
-        if member.kind in ("constant", "unknown") and member.returns in self._attrs:
+        if member.kind in ("constant", "unknown") and member.returns is not None and member.returns in self._attrs:
             # A module-level instance (`c = Calendar()`): its attributes are its class's.
             return self._attrs[member.returns].get(attr)
         return None
@@ -316,6 +315,9 @@ class Surface:
         Order: paths that reach it without inheritance, then fewest segments, then shortest.
         """
         return self._reach.get(canonical, ())
+
+    def _ranked(self, paths: list[str], target: str) -> tuple[str, ...]:
+        return tuple(sorted(paths, key=lambda path: self._rank(path, target)))
 
     def _rank(self, path: str, target: str) -> tuple[int, int, int, str]:
         # A path through a subclass (`Sub.inherited`) ranks after paths through the defining class.
