@@ -29,11 +29,16 @@ def unittest_source() -> Path:
     return Path(next(iter(spec.submodule_search_locations)))
 
 
+@pytest.fixture(scope="module")
+def unittest_harvest():
+    return harvest_deprecations(unittest_source())
+
+
 @pytest.mark.skipif(not (unittest_source() / "case.py").read_text().count("_deprecate(assertTrue)"),
                     reason=f"Python {sys.version_info[0]}.{sys.version_info[1]} unittest no longer has the "
                            "deprecated TestCase aliases (removed in 3.12)")
-def test_unittest_deprecated_aliases_are_found():
-    found = {c.member: c for c in harvest_deprecations(unittest_source())}
+def test_unittest_deprecated_aliases_are_found(unittest_harvest):
+    found = {c.member: c for c in unittest_harvest}
     for alias in UNITTEST_ALIASES:
         assert f"unittest.TestCase.{alias}" in found, alias
     failunless = found["unittest.TestCase.failUnless"]
@@ -44,8 +49,8 @@ def test_unittest_deprecated_aliases_are_found():
     assert "unittest.TestCase._deprecate" not in found  # the helper itself is private
 
 
-def test_unittest_draft_loads():
-    text = render_draft(harvest_deprecations(unittest_source()), "unittest")
+def test_unittest_draft_loads(unittest_harvest):
+    text = render_draft(unittest_harvest, "unittest")
     data = tomllib.loads(text)
     assert all(set(c) <= {"id", "member", "kind", "replacement", "parameter", "position", "note"} for c in data["change"])
     assert "the kind is a guess" in text

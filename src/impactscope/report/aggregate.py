@@ -58,11 +58,15 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
         if not rows.empty:
             rows = rows.assign(where=rows["project"] + "\0" + rows["file"])
             grouped = rows.groupby("pattern").agg(
-                projects=("project", "nunique"), sites=("project", "size"), files=("where", "nunique")
+                projects=("project", "nunique"), sites=("project", "size"), files=("where", "nunique"),
+                strongest=("confidence", "max"),
             )
             grouped = grouped.reset_index().sort_values(["projects", "sites", "pattern"], ascending=[False, False, True])
             patterns = [
-                {"pattern": r.pattern, "projects": int(r.projects), "sites": int(r.sites), "files": int(r.files)}
+                {
+                    "pattern": r.pattern, "projects": int(r.projects), "sites": int(r.sites), "files": int(r.files),
+                    "confidence": Confidence(int(r.strongest)).label,
+                }
                 for r in grouped.itertuples(index=False)
             ]
         out_changes.append(

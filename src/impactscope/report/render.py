@@ -85,9 +85,9 @@ def to_markdown(report: dict[str, Any]) -> str:
         lines += ["", f"## {c['id']}: `{c['member']}` ({c['kind']})", ""]
         if c.get("note"):
             lines += [c["note"], ""]
-        lines += ["| call pattern | projects | sites |", "|---|---|---|"]
+        lines += ["| call pattern | how sure | projects | sites |", "|---|---|---|---|"]
         for p in c["patterns"]:
-            lines.append(f"| `{p['pattern']}` | {p['projects']} | {p['sites']} |")
+            lines.append(f"| `{p['pattern']}` | {p.get('confidence', '')} | {p['projects']} | {p['sites']} |")
     if report["file_reasons"]:
         lines += ["", "## Files not analysed", "", "| status | reason | files |", "|---|---|---|"]
         for r in report["file_reasons"]:
@@ -127,10 +127,11 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
             continue
         table = Table(title=f"{c['id']} {c['member']}: call patterns", title_justify="left")
         table.add_column("pattern")
+        table.add_column("how sure")
         table.add_column("projects", justify="right")
         table.add_column("sites", justify="right")
         for p in c["patterns"][:8]:
-            table.add_row(p["pattern"], str(p["projects"]), str(p["sites"]))
+            table.add_row(p["pattern"], p.get("confidence", ""), str(p["projects"]), str(p["sites"]))
         if len(c["patterns"]) > 8:
             table.add_row(f"... {len(c['patterns']) - 8} more", "", "")
         console.print(table)

@@ -112,9 +112,11 @@ def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[F
     for top in sorted(query.tops):
         for hit in legacy_hits(text, top, query.names):
             for cc in query.by_name(hit.name):
+                # The receiver's spelling is the user's own; patterns keep only the shape.
+                shape = f"?.{hit.name}" if "." in hit.dotted else hit.name
                 out.add(
                     Finding(project, path, None, hit.line, hit.column, cc.change.id, Confidence.POSSIBLE,
-                            f"legacy: {hit.dotted}")
+                            f"legacy: {shape}")
                 )
     return sorted(out)
 

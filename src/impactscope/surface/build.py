@@ -923,7 +923,10 @@ class _Linker:
                 else:
                     outside = None
                 return None, None if outside is None else ".".join([outside, *tail])
-            return self.walk(target, tail, typing), None
+            found = self.walk(target, tail, typing)
+            if found is None and tail and target in self.readers:
+                return self.resolve_expr(target, ".".join(tail), typing)  # `_compat.deprecated`
+            return found, None
 
         return self._guarded(("expr", module, text, typing), compute, (None, None))
 

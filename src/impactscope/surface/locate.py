@@ -73,17 +73,16 @@ def locate_installed(name: str, path: Sequence[str | Path] | None = None) -> Pat
 
 
 def _locate(module: str, dists: Iterable[importlib.metadata.Distribution], search: list[str] | None) -> Path | None:
-    dists = list(dists)
+    listed = [(dist, _files(dist)) for dist in dists]  # each RECORD is read once
     # 1. A stub-only package, whichever distribution ships it (PEP 561: `foo-stubs`).
-    for dist in dists:
-        if any(f.startswith(f"{module}-stubs/") for f in _files(dist)):
+    for dist, files in listed:
+        if any(f.startswith(f"{module}-stubs/") for f in files):
             found = Path(str(dist.locate_file(f"{module}-stubs")))
             if found.is_dir():
                 return found
     # 2 and 3. The package itself: inline stubs or sources.
     for suffix in (".pyi", ".py"):
-        for dist in dists:
-            files = _files(dist)
+        for dist, files in listed:
             if f"{module}/__init__{suffix}" in files:
                 found = Path(str(dist.locate_file(module)))
                 if found.is_dir():
