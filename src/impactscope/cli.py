@@ -128,7 +128,91 @@ def report(
         render = {Format.table: to_table, Format.json: to_json, Format.markdown: to_markdown}[format]
         return render(document)
 
-    text = _guarded(build)
+    _emit(_guarded(build), output)
+
+
+@app.command()
+def surface(
+    source: Optional[Path] = typer.Argument(None, help="The library's source: a package folder, a module, or their parent."),
+    installed: Optional[str] = typer.Option(None, "--installed", help="Read an installed distribution instead (never imported)."),
+    library: Optional[str] = typer.Option(None, "--library", help="Import name, when SOURCE holds several packages."),
+    format: str = typer.Option("table", "--format", help="table or json."),
+    output: Optional[Path] = typer.Option(None, "--output", help="Write here instead of standard output."),
+) -> None:
+    """Print the library's public surface, read statically from its source."""
+    from impactscope.surface import SurfaceError, build_surface, locate_installed
+
+    def build() -> str:
+        if (source is None) == (installed is None):
+            raise SurfaceError("give the library's SOURCE path or --installed NAME (one of the two)")
+        if format not in ("table", "json"):
+            raise SurfaceError(f"--format must be table or json, got {format!r}")
+        where = locate_installed(installed) if installed is not None else source
+        if not Path(where).exists():  # type: ignore[arg-type]
+            raise SurfaceError(f"{where}: no such file or folder; pass the library's package folder")
+        built = build_surface(where, library)  # type: ignore[arg-type]
+        return built.dumps() + "\n" if format == "json" else built.render_table()
+
+    _emit(_guarded(build), output)
+
+
+@app.command()
+def compare(
+    old: Path = typer.Argument(..., help="Source of the released version."),
+    new: Path = typer.Argument(..., help="Source of the version about to ship."),
+    release: Optional[str] = typer.Option(None, "--release", help="The new version number (PEP 440)."),
+    library: Optional[str] = typer.Option(None, "--library", help="Import name, when a folder holds several packages."),
+    output: Optional[Path] = typer.Option(None, "--output", help="Write the draft change list here."),
+) -> None:
+    """Draft a change list from two versions of the library's source."""
+    from impactscope.surface import SurfaceError, build_surface, draft_changes
+
+    def draft() -> str:
+        for path in (old, new):
+            if not path.exists():
+                raise SurfaceError(f"{path}: no such file or folder; pass the library's package folder")
+        text = draft_changes(build_surface(old, library), build_surface(new, library), release)
+        return _with_source(text, old, output)
+
+    _emit(_guarded(draft), output)
+
+
+@app.command()
+def harvest(
+    source: Path = typer.Argument(..., help="The library's source."),
+    release: Optional[str] = typer.Option(None, "--release", help="The version that will drop them (PEP 440)."),
+    library: Optional[str] = typer.Option(None, "--library", help="Import name, when SOURCE holds several packages."),
+    output: Optional[Path] = typer.Option(None, "--output", help="Write the draft change list here."),
+) -> None:
+    """Draft a change list from the deprecation warnings the library already emits."""
+    from impactscope.surface import SurfaceError, build_surface, harvest_deprecations
+    from impactscope.surface.harvest import render_draft
+
+    def draft() -> str:
+        if not source.exists():
+            raise SurfaceError(f"{source}: no such file or folder; pass the library's package folder")
+        name = build_surface(source, library).library
+        text = render_draft(harvest_deprecations(source, library), name, release)
+        return _with_source(text, source, output)
+
+    _emit(_guarded(draft), output)
+
+
+def _with_source(draft: str, source: Path, output: Optional[Path]) -> str:
+    """Point the draft's [library] at the source it came from, so it scans without edits."""
+    if "\nsource = " in draft or "[library]" not in draft:
+        return draft
+    base = (output.parent if output is not None else Path.cwd()).resolve()
+    try:
+        where = os.path.relpath(source.resolve(), base)
+    except ValueError:  # another drive on Windows
+        where = str(source.resolve())
+    line = 'source = "' + where.replace(os.sep, "/").replace('"', '\\"') + '"'
+    head, sep, rest = draft.partition("[library]\n")
+    return head + sep + line + "\n" + rest
+
+
+def _emit(text: str, output: Optional[Path]) -> None:
     if output is not None:
         _guarded(lambda: output.write_text(text, encoding="utf-8"))
     else:

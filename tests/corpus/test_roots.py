@@ -590,3 +590,25 @@ def test_classify_with_siblings() -> None:
     assert classify("env/x.py", 1, library=LIB, siblings=siblings) == "virtual environment"
     assert classify("pkg/heronframe/a.py", 1, library=LIB, siblings=siblings) == "vendored library"
     assert classify("env/x.py", 1, library=LIB, siblings=["env/x.py"]) is None
+
+
+def test_root_level_items_that_are_not_projects_are_reported(tmp_path: Path) -> None:
+    # Nothing is dropped silently: what a root holds besides projects is listed with a reason.
+    root = tmp_path / "root"
+    (root / "proj").mkdir(parents=True)
+    (root / "proj" / "a.py").write_text("x = 1\n")
+    (root / "NOTES.md").write_text("notes\n")
+    (root / ".hidden").mkdir()
+    archive = tmp_path / "bundle.zip"
+    with zipfile.ZipFile(archive, "w") as zf:
+        zf.writestr("p/a.py", "x = 1\n")
+        zf.writestr("../escape.py", "x = 1\n")
+        zf.writestr("readme.txt", "hi\n")
+    ignored: list[tuple[str, str]] = []
+    names = [p.name for p in discover([root, archive], library="heronframe", ignored=ignored)]
+    assert names == ["proj", "p"]
+    reasons = {os.path.basename(where.split("!")[-1]): reason for where, reason in ignored}
+    assert reasons["NOTES.md"].startswith("not a project")
+    assert reasons[".hidden"] == "hidden"
+    assert reasons["escape.py"] == "unsafe path"
+    assert reasons["readme.txt"].startswith("not a project")

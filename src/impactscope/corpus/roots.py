@@ -695,7 +695,11 @@ class _Names:
 
 
 def discover(
-    roots: Sequence[str | os.PathLike[str]], *, single: bool = False, library: str
+    roots: Sequence[str | os.PathLike[str]],
+    *,
+    single: bool = False,
+    library: str,
+    ignored: list[tuple[str, str]] | None = None,
 ) -> Iterator[Project]:
     """Yield the projects of each root, root by root.
 
@@ -713,6 +717,7 @@ def discover(
     """
     check_roots(roots)
     names = _Names()
+    sink: list[tuple[str, str]] = ignored if ignored is not None else []
     for root in roots:
         location = os.fspath(root)
         root_name = _root_name(location)
@@ -720,11 +725,11 @@ def discover(
         if single:
             projects = (_single_project(location, root_name, library),)
         elif os.path.isdir(location):
-            projects = _directory_root(location, library)
+            projects = _directory_root(location, library, sink)
         elif location.lower().endswith(".zip"):
-            projects = _zip_root(location, root_name, library)
+            projects = _zip_root(location, root_name, library, sink)
         else:
-            projects = _tar_root(location, root_name, library)
+            projects = _tar_root(location, root_name, library, sink)
         for project in projects:
             yield dataclasses.replace(project, name=names.claim(project.name, root_name))
 
@@ -747,7 +752,7 @@ def _fixed(*entries: Entry) -> Callable[[], Iterator[Entry]]:
 # directory roots ---------------------------------------------------------------
 
 
-def _directory_root(root: str, library: str) -> Iterator[Project]:
+def _directory_root(root: str, library: str, ignored: list[tuple[str, str]]) -> Iterator[Project]:
     boundary = os.path.realpath(root)
     try:
         with os.scandir(root) as listing:
@@ -756,12 +761,25 @@ def _directory_root(root: str, library: str) -> Iterator[Project]:
         raise CorpusError(f"cannot list corpus root {root!r}: {exc.strerror or exc}") from None
     projects = []
     for child in children:
-        if not child.name.startswith("."):
-            project = _directory_child(child, os.path.join(root, child.name), boundary, library)
-            if project is not None:
-                projects.append(project)
+        where = os.path.join(root, child.name)
+        if child.name.startswith("."):
+            ignored.append((where, "hidden"))
+            continue
+        project = _directory_child(child, where, boundary, library)
+        if project is not None:
+            projects.append(project)
+        else:
+            ignored.append((where, _not_a_project(child)))
     projects.sort(key=lambda project: project.name)  # stable: equal names keep file-name order
     yield from projects
+
+
+def _not_a_project(child: os.DirEntry[str]) -> str:
+    if child.is_symlink() and child.is_dir():
+        return "link to a folder inside the root"
+    if not child.is_file():
+        return "not a regular file"
+    return "not a project (a loose file that is neither source nor archive)"
 
 
 def _directory_child(
@@ -811,7 +829,7 @@ class _SharedZip:
                 yield archive
 
 
-def _zip_root(location: str, root_name: str, library: str) -> Iterator[Project]:
+def _zip_root(location: str, root_name: str, library: str, ignored: list[tuple[str, str]]) -> Iterator[Project]:
     try:
         archive = zipfile.ZipFile(location)
     except _ARCHIVE_ERRORS as exc:
@@ -822,13 +840,20 @@ def _zip_root(location: str, root_name: str, library: str) -> Iterator[Project]:
         groups: dict[str, list[zipfile.ZipInfo]] = {}
         for info in archive.infolist():
             head = _member_head(info.filename)
-            if head is not None and not head.startswith("."):
+            if head is None:
+                ignored.append((f"{location}!{info.filename}", "unsafe path"))
+            elif head.startswith("."):
+                if not info.is_dir():
+                    ignored.append((f"{location}!{info.filename}", "hidden"))
+            else:
                 groups.setdefault(head, []).append(info)
         projects = []
         for head, infos in groups.items():
             project = _zip_root_project(shared, head, infos, f"{location}!{head}", library)
             if project is not None:
                 projects.append(project)
+            else:
+                ignored.append((f"{location}!{head}", "not a project (a loose file that is neither source nor archive)"))
         projects.sort(key=lambda project: project.name)
         shared.archive = archive
         try:
@@ -893,7 +918,7 @@ def _in_turn(turn: _Turn, name: str, entries: Callable[[], Iterator[Entry]]) -> 
     yield from entries()
 
 
-def _tar_root(location: str, root_name: str, library: str) -> Iterator[Project]:
+def _tar_root(location: str, root_name: str, library: str, ignored: list[tuple[str, str]]) -> Iterator[Project]:
     base = os.path.basename(location)
     try:
         handle = open(location, "rb")
@@ -916,9 +941,12 @@ def _tar_root(location: str, root_name: str, library: str) -> Iterator[Project]:
                 head = _member_head(item.name)
                 if head is None or head.startswith("."):
                     stream.take()
+                    if head is None or not item.isdir():
+                        ignored.append((f"{location}!{item.name}", "unsafe path" if head is None else "hidden"))
                     continue
                 project = _tar_root_project(stream, item, head, f"{location}!{head}", base, library)
                 if project is None:
+                    ignored.append((f"{location}!{head}", "not a project (a loose file that is neither source nor archive)"))
                     continue
                 turn = _Turn()
                 guarded = functools.partial(_in_turn, turn, project.name, project._list)
