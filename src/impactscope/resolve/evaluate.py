@@ -32,6 +32,9 @@ from impactscope.resolve.values import (
 _BUILTINS = frozenset(dir(builtins))
 _PROPERTY_DECORATORS = frozenset({"builtins.property", "functools.cached_property"})
 _FIRST_PARAM_METHODS = frozenset({"method", "property"})
+# How many calls deep return values are inferred: deeper chains give "unknown" rather than
+# recursing without bound (a call chain through hundreds of functions is not rare in real code).
+_INFERENCE_DEPTH = 6
 
 
 @dataclass(frozen=True)
@@ -555,7 +558,7 @@ class ModuleEvaluator:
         moment of the call; its references are recorded once, when its scope ends."""
         if func.returns is not None:
             return func.returns
-        if func.state == "running":
+        if func.state == "running" or self._quiet >= _INFERENCE_DEPTH:
             return UNKNOWN
         return self._run(func, record=False)
 

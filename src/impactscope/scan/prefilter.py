@@ -1,15 +1,20 @@
 """Sound shortcuts: skip what cannot hold a finding at any confidence, before libcst runs.
 
-A reference to a changed member has to spell the member's own name somewhere in the file,
-unless it arrives through another project module under a new name (a re-export). So a file
-is kept when it names a changed member as a whole word, or names a project module that
-(transitively) mentions the library; a project that never names the library is skipped whole.
+A finding needs a chain from an import of the library, made in the file itself or in a
+project module it imports; so a file that names neither the library nor such a module (nor
+imports relatively, which names no module) cannot hold one. Among the files that can, a
+reference to a changed member has to spell the member's own name, unless it arrives from
+another project module under a new name (a re-export). So a file is kept when it touches the
+library and names a changed member or another touching module as a whole word; a project that
+never names the library is skipped whole.
 """
 
 from __future__ import annotations
 
 import re
 from typing import Iterable, Mapping
+
+_RELATIVE_IMPORT = re.compile(r"(?m)^[ \t]*from[ \t]+\.")
 
 from impactscope.resolve.project import module_names
 
@@ -37,6 +42,8 @@ class Prefilter:
             return set()
         # Close over re-exports: a module that names a touching module touches the library too.
         leaf_of = {path: module_names(path)[0].rpartition(".")[2] for path in texts}
+        # `from . import name` names no module, so a relative import may reach any of them.
+        touching |= {path for path, text in texts.items() if _RELATIVE_IMPORT.search(text)}
         frontier = set(touching)
         while frontier:
             leaves = _words(leaf_of[p] for p in frontier if leaf_of[p])
@@ -49,10 +56,11 @@ class Prefilter:
                     frontier.add(path)
         via_modules = _words(leaf_of[p] for p in touching if leaf_of[p])
         keep = set()
-        for path, text in texts.items():
+        for path in touching:
+            text = texts[path]
             if self._members is not None and self._members.search(text):
                 keep.add(path)
-            elif via_modules is not None and path in touching and _names_other(via_modules, text, leaf_of[path]):
+            elif via_modules is not None and _names_other(via_modules, text, leaf_of[path]):
                 keep.add(path)
         return keep
 
