@@ -29,7 +29,6 @@ from typing import Iterable, Iterator, Sequence
 from impactscope import __version__
 from impactscope.changes import ChangeList
 from impactscope.corpus.roots import MAX_FILE_SIZE, Entry, EntryError, Project, archive_stem
-from impactscope.scan.project import _is_manifest
 
 KEY_SCHEMA = "1"
 
@@ -114,8 +113,9 @@ def _raise(exc: BaseException) -> bytes:
 
 
 def _wants_bytes(entry: Entry) -> bool:
-    # What scan_project reads: sources it may parse and manifests it keeps.
-    return entry.error is None and (entry.skip is None or (_is_manifest(entry.path) and entry.size < MAX_FILE_SIZE))
+    # Whatever a scan might read: sources, and any small file (manifests and the files they
+    # include are picked by scan_project's own rules, which are not repeated here).
+    return entry.error is None and (entry.skip is None or entry.size < MAX_FILE_SIZE)
 
 
 def held(entry: Entry) -> Entry:
