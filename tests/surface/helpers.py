@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import textwrap
+from importlib import resources
 from pathlib import Path
 
-FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
-OLD = FIXTURES / "heronframe_old" / "heronframe"
-NEW = FIXTURES / "heronframe_new" / "heronframe"
+# The demo library's two releases, shipped inside the impactscope.demo package: 2.4 (what the
+# demo corpus was written against) and 3.0 (derived from it; see src/impactscope/demo/).
+_DEMO = Path(str(resources.files("impactscope.demo")))
+OLD = _DEMO / "heronframe"
+NEW = _DEMO / "heronframe_3_0" / "heronframe"
 
 
 def write_tree(root: Path, files: dict[str, str]) -> Path:

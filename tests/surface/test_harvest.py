@@ -189,3 +189,30 @@ def test_module_getattr_and_import_time_warnings(tmp_path):
     assert found["lib.OldThing"].note == "lib.OldThing is deprecated"
     assert "lib.older" in found
     assert found["lib.legacy"].note == "lib.legacy is deprecated"
+
+
+def test_conditional_helpers_and_run_time_messages_are_flagged(tmp_path):
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": """
+            import warnings
+
+            def _compare_op(op):
+                def method(self, other):
+                    if isinstance(other, list):
+                        warnings.warn(f"comparing with {type(other).__name__} is deprecated", FutureWarning)
+                    return op(self, other)
+                return method
+
+            def _deprecated_call(message):
+                warnings.warn(message, DeprecationWarning, stacklevel=3)
+
+            class Box:
+                __eq__ = _compare_op(lambda a, b: a is b)
+
+                def pack(self, how):
+                    _deprecated_call(how)
+            """,
+    })
+    found = {c.member: c for c in harvest_deprecations(root)}
+    assert found["lib.Box.__eq__"].certainty == "low" and "only under a condition" in found["lib.Box.__eq__"].why
+    assert found["lib.Box.pack"].note == "lib.Box.pack is deprecated (the message is built at run time: {how})"

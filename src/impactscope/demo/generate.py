@@ -429,13 +429,18 @@ class _Project:
 class _Deck:
     """The body templates, shuffled and dealt in turn so each is used about equally often."""
 
-    def __init__(self, rng: random.Random) -> None:
+    def __init__(self, rng: random.Random, names: Iterable[str] = sn.LIBRARY_SNIPPETS) -> None:
         self._rng = rng
+        self._names = sorted(names)
         self._cards: list[str] = []
+
+    @property
+    def rng(self) -> random.Random:
+        return self._rng
 
     def draw(self) -> str:
         if not self._cards:
-            self._cards = sorted(sn.LIBRARY_SNIPPETS)
+            self._cards = list(self._names)
             self._rng.shuffle(self._cards)
         return self._cards.pop()
 
@@ -470,6 +475,7 @@ class _Generator:
     filler_files: int
     deck: _Deck
     library: dict[str, bytes]
+    surface_deck: _Deck  # its own random source: drawing from it leaves every other draw as it was
 
     def child(self) -> random.Random:
         return random.Random(self.rng.getrandbits(64))
@@ -485,6 +491,7 @@ class _Generator:
         sn.header(b, c, c.choice(sn.HEADER_KINDS))
         for _ in range(rng.randint(*snippets)):
             sn.write_snippet(b, c, self.deck.draw())
+        sn.write_snippet(b, Ctx(self.surface_deck.rng, c.names, c.tally, c.mod), self.surface_deck.draw())
         if rng.random() < 0.25:
             b.gap(2)
             b.line('if __name__ == "__main__":')
@@ -494,7 +501,7 @@ class _Generator:
     def notebook(self, rng: random.Random, project: _Project, path: str, title: str, *, version: int) -> None:
         c = self.ctx(rng, project)
         nb = sn.library_notebook(c, self.deck.draw, version=version, title=title)
-        warning = "DeprecationWarning: heronframe.stack is deprecated; use Table.append_rows\n"
+        warning = "DeprecationWarning: stack is deprecated, use Table.stack_rows\n"
         project.add_notebook(path, nb, nb.render(version, rng, warning if rng.random() < 0.4 else ""))
 
     def plain_notebook(self, rng: random.Random, project: _Project, path: str, title: str, *, version: int) -> None:
@@ -811,7 +818,8 @@ def generate_corpus(out_dir: Path, *, projects: int = 240, seed: int = 0, filler
     root.mkdir(parents=True, exist_ok=True)
 
     rng = random.Random(seed)
-    gen = _Generator(rng, filler_files, _Deck(random.Random(rng.getrandbits(64))), library_sources())
+    surface_deck = _Deck(random.Random(f"surface-{seed}"), sn.SURFACE_SNIPPETS)
+    gen = _Generator(rng, filler_files, _Deck(random.Random(rng.getrandbits(64))), library_sources(), surface_deck)
     counts = _plan_counts(projects)
     forks = _fork_sizes(projects)
     fixed = sum(counts.values()) + sum(forks)

@@ -52,7 +52,7 @@ MODULE_ALIASES: tuple[str, ...] = ("hf", "hf", "hf", "heron", "hfr", "hframe", "
 RESERVED_NAMES: frozenset[str] = frozenset(
     {
         *MODULE_ALIASES,
-        "heronframe", "Table", "Store", "Optional", "typing", "importlib", "copy", "np", "pd",
+        "heronframe", "Table", "Store", "GroupedTable", "Optional", "typing", "importlib", "copy", "np", "pd",
         "numpy", "pandas", "h", "helpers", "load_table", "load_clean", "describe", "stack",
         "scatter_grid", "read_table", "plotting", "self", "cls", "other", "parts", "path",
         "tables", "opts", "keys", "cols", "extra", "args", "kw", "left", "right", "tbl", "item",
@@ -429,7 +429,7 @@ def s_sort_params(b: SourceBuilder, c: Ctx) -> None:
         ],
         [(f'    {t}.sort_by("{col}")', None, "param-nomatch")],
         [(f'    {t}.sort_by("{col}", False)', None, "param-nomatch")],
-        [(f'    {t}.sort_by(by="{col}", ascending=True)', None, "param-nomatch")],
+        [(f'    {t}.sort_by(column="{col}", ascending=True)', None, "param-nomatch")],
     ]
     for entry in _pick(c, pool, 2, 4, must=4):
         _emit(b, c, entry)
@@ -824,6 +824,88 @@ def s_method_ref(b: SourceBuilder, c: Ctx) -> None:
     c.note("param-ref-no-call")
 
 
+# ---------------------------------------------------------------------------------------------
+# Cases only the library's own source settles (the surface model): its private defining paths,
+# inherited members, `__all__` for star imports, and return annotations not in [types].
+
+
+def s_private_path(b: SourceBuilder, c: Ctx) -> None:
+    """`Table` imported from its defining module, and that module under an alias."""
+    mod, o, j, s = c.fresh(c.choice(["ht", "hft", "table_mod"])), c.table(), c.fresh("joined"), c.fresh("stats")
+    col = c.col()
+    b.line("from heronframe.core.table import Table")
+    b.line(f"import heronframe.core.table as {mod}")
+    c.note("import-nonsite")
+    b.line("")
+    b.line(f'{o} = {c.mod}.read_table("{c.path()}", sep="{c.sep()}")')
+    c.note("default-sep-keyword")
+    b.line(f'{j} = Table({{"{col}": [1, 2]}}).stack_rows({o})', res("HF-1", "surface-private-ctor"))
+    b.line(f"{s} = {mod}.Table.describe({o})", res("HF-7", "surface-private-module"))
+
+
+def s_grouped(b: SourceBuilder, c: Ctx) -> None:
+    """Members a library subclass inherits: `group_by` returns a GroupedTable (annotation only)."""
+    m, t, g, key = c.mod, c.table(), c.fresh("groups"), c.col()
+    b.line(f'{t} = {m}.read_table("{c.path()}", sep="{c.sep()}")')
+    c.note("default-sep-keyword")
+    b.line(f'{g} = {t}.group_by("{key}")')
+    b.line(f"{c.fresh('merged')} = {g}.stack_rows({t})", res("HF-1", "surface-inherited-typeflow"))
+    b.line(
+        f'{c.fresh("profile")} = {m}.GroupedTable({{"{key}": [1, 1, 2]}}, key="{key}").describe()',
+        res("HF-7", "surface-inherited-ctor"),
+    )
+
+
+def s_star_import(b: SourceBuilder, c: Ctx) -> None:
+    """`from heronframe import *`: binds exactly the names in heronframe's `__all__`."""
+    t = c.table()
+    b.line("from heronframe import *  # noqa: F403")
+    c.note("import-nonsite")
+    b.line("")
+    b.line(f'{t} = read_table("{c.path()}")', res("HF-6", "surface-star-import"))
+    b.line(f"{c.fresh('combined')} = stack([{t}, {t}])", res("HF-2", "surface-star-import"))
+
+
+def s_annotated_chain(b: SourceBuilder, c: Ctx) -> None:
+    """Chains through methods the change list's [types] does not list (`head`, `group_by`)."""
+    m, t, key = c.mod, c.table(), c.col()
+    b.line(
+        f'{c.fresh("preview")} = {m}.read_table("{c.path()}", sep="{c.sep()}").head({c.rng.randint(3, 10)}).describe()',
+        res("HF-7", "surface-return-chain"),
+    )
+    c.note("default-sep-keyword")
+    b.line(f'{t} = {m}.read_table("{c.path()}", sep="{c.sep()}")')
+    c.note("default-sep-keyword")
+    b.line(f'{c.fresh("by_key")} = {t}.group_by("{key}").describe()', res("HF-7", "surface-return-chain"))
+    b.line(
+        f'{c.fresh("sample")} = {m}.open_store("stores/{c.choice(PLACE_WORDS)}").load("{c.choice(STORE_KEYS)}").head(3).copy()',
+        res("HF-8", "surface-return-chain"),
+    )
+
+
+def s_subclass_grouped(b: SourceBuilder, c: Ctx) -> None:
+    """A user subclass of the library's subclass: overrides and calls of inherited members."""
+    if c.chance(0.4):
+        b.line("from heronframe import GroupedTable")
+        b.line("")
+        b.line("")
+        base = "GroupedTable"
+    else:
+        base = f"{c.mod}.GroupedTable"
+    name = c.fresh(c.choice(["SiteGroups", "MonthlyGroups", "StationGroups"]))
+    b.line(f"class {name}({base}):")
+    c.note("class-base")
+    b.line(f'    """Groups of {c.choice(TABLE_WORDS)} rows with a house summary."""')
+    b.line("")
+    b.line("    def describe(self):", res("HF-7", "surface-override"))
+    b.line("        summary = super().describe()", res("HF-7", "surface-super-call"))
+    b.line('        summary["groups"] = len(self.aggregate(len))')
+    b.line("        return summary")
+    b.line("")
+    b.line("    def extended(self, other):")
+    b.line("        return self.stack_rows(other)", res("HF-1", "surface-self-call"))
+
+
 #: The module-level body templates, drawn from a shuffled deck so each appears often.
 LIBRARY_SNIPPETS: Mapping[str, Snippet] = MappingProxyType(
     {
@@ -857,11 +939,24 @@ LIBRARY_SNIPPETS: Mapping[str, Snippet] = MappingProxyType(
     }
 )
 
+#: Templates whose sites only the library's own source settles. They are dealt from a deck of
+#: their own with a random source of their own, one at the end of each library module, so the
+#: rest of the corpus is what it was before they were added.
+SURFACE_SNIPPETS: Mapping[str, Snippet] = MappingProxyType(
+    {
+        "private-path": s_private_path,
+        "grouped": s_grouped,
+        "star-import": s_star_import,
+        "annotated-chain": s_annotated_chain,
+        "subclass-grouped": s_subclass_grouped,
+    }
+)
+
 
 def write_snippet(b: SourceBuilder, c: Ctx, name: str) -> None:
     """One body template, separated from what comes before by two blank lines."""
     b.gap(2)
-    LIBRARY_SNIPPETS[name](b, c)
+    (LIBRARY_SNIPPETS[name] if name in LIBRARY_SNIPPETS else SURFACE_SNIPPETS[name])(b, c)
 
 
 # ---------------------------------------------------------------------------------------------

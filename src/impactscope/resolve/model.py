@@ -6,6 +6,7 @@ own source (impactscope.surface) gives a complete one. Both answer the same ques
 
 from __future__ import annotations
 
+import os
 from typing import Protocol
 
 from impactscope.changes import ChangeList
@@ -113,3 +114,26 @@ class SurfaceModel:
         if owner and owner in self._public:
             return f"{self._public[owner]}.{leaf}"
         return dotted
+
+
+def library_model(changes: ChangeList, *, source: "os.PathLike[str] | str | None" = None,
+                  installed: str | None = None) -> LibraryModel:
+    """The model a scan resolves against: the library's own source read statically when one is
+    given (`installed` names an installed distribution, `source` a path; either overrides
+    `[library] source`), else the change list's `[types]` alone."""
+    from pathlib import Path
+
+    from impactscope.surface import build_surface, locate_installed
+
+    where: Path | None
+    if installed is not None:
+        where = locate_installed(installed)
+    elif source is not None:
+        where = Path(source)
+    else:
+        where = changes.source
+    if where is None:
+        return TypesModel(changes)
+    if not Path(where).exists():
+        raise FileNotFoundError(2, "library source not found; fix [library] source or --library-source", str(where))
+    return SurfaceModel(build_surface(where, changes.import_name), changes)

@@ -6,7 +6,7 @@ import builtins
 from dataclasses import dataclass
 
 from impactscope.changes import Change, ChangeList
-from impactscope.resolve.model import LibraryModel, TypesModel
+from impactscope.resolve.model import LibraryModel, library_model
 
 
 def builtin_attribute_names() -> frozenset[str]:
@@ -34,7 +34,7 @@ class CompiledChange:
 class Query:
     def __init__(self, changes: ChangeList, model: LibraryModel | None = None) -> None:
         self.changes = changes
-        self.model: LibraryModel = model if model is not None else TypesModel(changes)
+        self.model: LibraryModel = model if model is not None else library_model(changes)
         self.tops = changes.top_modules
         self.compiled = tuple(
             CompiledChange(

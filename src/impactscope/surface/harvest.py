@@ -263,9 +263,12 @@ class _Harvester:
             path: list(self._warnings(m, u)) for path, (m, u) in self.units.items()
         }
         self.helpers: dict[str, _Template | None] = {}
+        self.conditional: set[str] = set()  # helpers that themselves warn only under a condition
         for path, found in self.warnings.items():
             if found and self._helper_like(self.units[path][1], found):
                 self.helpers[path] = found[0].template
+                if all(w.site.conditions for w in found):
+                    self.conditional.add(path)
         # One level further: decorators and functions that call a helper are helpers too.
         second: dict[str, _Template | None] = {}
         for path, (m, u) in self.units.items():
@@ -275,6 +278,8 @@ class _Harvester:
                 callee = self._callee(m, u.cls, u.self_name, site.call.func)
                 if callee in self.helpers:
                     second[path] = self._through(self.helpers[callee], site.call, callee)
+                    if callee in self.conditional or site.conditions:
+                        self.conditional.add(path)
                     break
         self.helpers.update(second)
         self.out: dict[tuple[str, str, str | None], HarvestedChange] = {}
@@ -405,10 +410,13 @@ class _Harvester:
         return sorted(self.out.values(), key=lambda c: (c.member, c.kind, c.parameter or ""))
 
     def _add(self, canonical: str, module: str, line: int, mechanism: str, note: str, certainty: str, why: str,
-             *, parameter: str | None = None, position: int | None = None, replacement: str | None = None) -> None:
+             *, parameter: str | None = None, position: int | None = None, replacement: str | None = None,
+             via: str | None = None) -> None:
         paths = self.surface.public_paths(canonical)
         if not paths:
             return  # private: not part of what downstream code may use
+        if via in self.conditional:
+            certainty, why = "low", f"{why}, which itself warns only under a condition"
         kind = "parameter-removed" if parameter is not None else "removed"
         change = HarvestedChange(paths[0], kind, note, certainty, f"{why}; {_GUESS}", self.surface.module_of(module) or module,
                                  line, mechanism, replacement=replacement, parameter=parameter, position=position)
@@ -425,36 +433,36 @@ class _Harvester:
             self._module_getattr(module, unit)
             return
         # Direct warnings first, then helper calls, then helper decorators.
-        found: list[tuple[_Site | None, _Template | None, str]] = [(w.site, w.template, "warnings.warn")
-                                                                   for w in self.warnings.get(unit.path, ())]
+        found: list[tuple[_Site | None, _Template | None, str, str | None]] = [
+            (w.site, w.template, "warnings.warn", None) for w in self.warnings.get(unit.path, ())]
         for site in unit.sites:
             callee = self._callee(module, unit.cls, unit.self_name, site.call.func)
-            if callee in self.helpers and callee != unit.path:
-                found.append((site, self._through(self.helpers[callee], site.call, callee), f"helper {callee}"))
+            if callee is not None and callee in self.helpers and callee != unit.path:
+                found.append((site, self._through(self.helpers[callee], site.call, callee), f"helper {callee}", callee))
         for deco in unit.node.decorator_list:
             func = deco.func if isinstance(deco, ast.Call) else deco
             callee = self._callee(module, unit.cls, None, func)
-            if callee in self.helpers:
+            if callee is not None and callee in self.helpers:
                 template = self._through(self.helpers[callee], deco, callee) if isinstance(deco, ast.Call) else self.helpers[callee]
-                found.append((None, template, f"helper {callee} (decorator)"))
+                found.append((None, template, f"helper {callee} (decorator)", callee))
         if not found:
             return
         found.sort(key=lambda f: (f[0] is not None and bool(f[0].conditions), f[2] != "warnings.warn"))
-        first, template, mechanism = found[0]
-        note = (template.render() if template is not None else "") or f"{target} is deprecated"
+        first, template, mechanism, via = found[0]
+        note = _note(template, f"{target} is deprecated")
         direct = mechanism == "warnings.warn"
         if first is None or not first.conditions:
             self._add(target, module.name, unit.node.lineno, mechanism, note, "high" if direct else "medium",
-                      "calls warnings.warn with a deprecation category" if direct else f"uses the deprecation {mechanism}")
+                      "calls warnings.warn with a deprecation category" if direct else f"uses the deprecation {mechanism}", via=via)
             return
         parameter = self._parameter(unit, first.conditions)
         why = f"warns only under a condition ({ast.unparse(first.conditions[-1])})"
         if parameter is None:
-            self._add(target, module.name, unit.node.lineno, mechanism, note, "low", why)
+            self._add(target, module.name, unit.node.lineno, mechanism, note, "low", why, via=via)
             return
         position = next((p.position for p in self.surface.parameters(target) or () if p.name == parameter), None)
         self._add(target, module.name, unit.node.lineno, mechanism, note, "low",
-                  f"{why}, which tests the parameter `{parameter}`", parameter=parameter, position=position)
+                  f"{why}, which tests the parameter `{parameter}`", parameter=parameter, position=position, via=via)
 
     @staticmethod
     def _parameter(unit: _Unit, conditions: tuple[ast.expr, ...]) -> str | None:
@@ -497,7 +505,9 @@ class _Harvester:
                 continue
             for name in _names_tested(site.conditions, arg):
                 path = f"{module.name}.{name}"
-                note = template.render({arg: ast.Constant(name)}) if template is not None else f"{path} is deprecated"
+                filled = _Template(tuple(_fill(p, {arg: ast.Constant(name)}) or p if not isinstance(p, str) else p
+                                         for p in template.parts)) if template is not None else None
+                note = _note(filled, f"{path} is deprecated")
                 self._add_path(path, module.name, site.call.lineno, "module __getattr__", note, "medium",
                                f"the module's __getattr__ warns when `{name}` is looked up")
 
@@ -529,20 +539,34 @@ class _Harvester:
             if original is not None:
                 paths = self.surface.public_paths(original)
                 replacement = paths[0] if paths else original
-            message = template.render() if template is not None else ""
-            note = (f"deprecated alias of {replacement or original}, made by {helper}(): {message}" if original
-                    else f"made by the deprecation helper {helper}(): {message}").rstrip(": ")
+            lead = (f"deprecated alias of {replacement or original}, made by {helper}()" if original
+                    else f"made by the deprecation helper {helper}()")
+            message = _note(template, "")
+            note = f"{lead}: {message}" if message else lead
             self._add(self.surface.canonical(path), module.name, a.line, f"helper {callee}", note, "medium",
-                      f"assigned from the deprecation helper {helper}()", replacement=replacement)
+                      f"assigned from the deprecation helper {helper}()", replacement=replacement, via=callee)
 
     def _top_call(self, module: _Module, call: ast.Call) -> None:
         """A deprecation warning issued at import time deprecates the module itself."""
         template = self._deprecation(module, None, call) if self._is_warn(module, call.func) else None
         if template is None:
             return
-        note = template.render() or f"{module.name} is deprecated"
+        note = _note(template, f"{module.name} is deprecated")
         self._add(module.name, module.name, call.lineno, "warnings.warn", note, "high",
                   "the module warns when it is imported")
+
+
+def _note(template: _Template | None, fallback: str) -> str:
+    """A message as one line of text; when none of it is literal, say so beside the fallback."""
+    if template is None:
+        return fallback
+    text = " ".join(template.render().split())
+    literal = "".join(p for p in template.parts if isinstance(p, str)).strip()
+    if literal:
+        return text
+    if not text:
+        return fallback
+    return f"{fallback} (the message is built at run time: {text})" if fallback else f"message built at run time: {text}"
 
 
 def _names_tested(conditions: tuple[ast.expr, ...], arg: str) -> list[str]:

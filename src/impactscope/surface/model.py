@@ -226,6 +226,8 @@ class Surface:
 
     def star_names(self, module: str) -> tuple[str, ...] | None:
         """Names `from module import *` binds; None when that is not knowable statically."""
+        if module in self.exports:  # an import statement names the module itself, even if shadowed
+            return self.exports[module]
         return self.exports.get(self.canonical(module))
 
     def owners(self, attr: str) -> frozenset[str]:

@@ -5,11 +5,18 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
+from ._compat import warn_deprecated
 from .core.table import Table
 
 
+def sniff_separator(path: str | Path) -> str:
+    """The delimiter of a text file, guessed from its first 4 KiB."""
+    with open(path, newline="", encoding="utf-8") as handle:
+        return csv.Sniffer().sniff(handle.read(4096)).delimiter
+
+
 def read_table(path: str | Path, sep: str = ",", header: bool = True, encoding: str = "utf-8") -> Table:
-    """Read a delimited file. In 3.0 `sep` defaults to None: the delimiter is sniffed."""
+    """Read a delimited file (3.0 changes the default `sep` to None: sniff the delimiter)."""
     with open(path, newline="", encoding=encoding) as handle:
         rows = list(csv.reader(handle, delimiter=sep))
     if not rows:
@@ -19,7 +26,9 @@ def read_table(path: str | Path, sep: str = ",", header: bool = True, encoding: 
     return Table({name: [row[i] for row in body] for i, name in enumerate(names)})
 
 
-def write_table(table: Table, path: str | Path, sep: str = ",") -> None:
+def write_table(table: Table, path: str | Path, sep: str = ",", index: str | None = None) -> None:
+    if index is not None:
+        warn_deprecated("write_table(index=...)", "Table.copy() before writing")
     with open(path, "w", newline="", encoding="utf-8") as handle:
         writer = csv.writer(handle, delimiter=sep)
         writer.writerow(table.columns)

@@ -1,12 +1,8 @@
-"""Quick text plots (moves to `heronframe.viz` in 3.0)."""
-
-from __future__ import annotations
-
-from .core.table import Table
+"""Quick text plots (moved to `heronframe.viz` in 3.0)."""
 
 
-def scatter_grid(table: Table, x: str, y: str, width: int = 40, height: int = 12) -> str:
-    """A character grid with one `*` per row at (x, y)."""
+def scatter_grid(table, x, y, width=40, height=12):
+    """A character grid with one `*` per row of `table` at (x, y)."""
     points = [(float(row[x]), float(row[y])) for row in table.rows()]
     grid = [[" "] * width for _ in range(height)]
     if points:

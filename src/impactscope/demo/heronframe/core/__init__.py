@@ -1,4 +1,4 @@
-"""The table type and its methods."""
+"""The table types and their methods."""
 
 from .table import Table
 

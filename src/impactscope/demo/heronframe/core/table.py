@@ -3,9 +3,13 @@
 from __future__ import annotations
 
 import statistics
-import warnings
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+from typing_extensions import Self, deprecated
+
+if TYPE_CHECKING:
+    from .grouped import GroupedTable
 
 Row = dict[str, Any]
 
@@ -13,15 +17,17 @@ Row = dict[str, Any]
 class Table:
     """An ordered mapping of column name to a list of values."""
 
-    def __init__(self, data: Mapping[str, Sequence[Any]] | None = None) -> None:
-        columns = {str(name): list(values) for name, values in (data or {}).items()}
-        lengths = {len(values) for values in columns.values()}
+    def __init__(self, data: Mapping[str, Sequence[Any]] | None = None, columns: Sequence[str] | None = None) -> None:
+        given = {str(name): list(values) for name, values in (data or {}).items()}
+        lengths = {len(values) for values in given.values()}
         if len(lengths) > 1:
             raise ValueError(f"columns differ in length: {sorted(lengths)}")
-        self._columns: dict[str, list[Any]] = columns
+        size = lengths.pop() if lengths else 0
+        order = list(columns) if columns is not None else list(given)
+        self._columns: dict[str, list[Any]] = {name: given.get(name, [None] * size) for name in order}
 
     @classmethod
-    def from_rows(cls, rows: Iterable[Mapping[str, Any]]) -> Table:
+    def from_rows(cls, rows: Iterable[Mapping[str, Any]]) -> Self:
         rows = list(rows)
         names = list(dict.fromkeys(name for row in rows for name in row))
         return cls({name: [row.get(name) for row in rows] for name in names})
@@ -29,6 +35,10 @@ class Table:
     @property
     def columns(self) -> list[str]:
         return list(self._columns)
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return (len(self), len(self._columns))
 
     def __len__(self) -> int:
         return len(next(iter(self._columns.values()), []))
@@ -40,35 +50,34 @@ class Table:
         for index in range(len(self)):
             yield {name: values[index] for name, values in self._columns.items()}
 
-    def append_rows(self, other: Table) -> Table:
-        """A new table with the rows of `other` after the rows of this one."""
-        return Table.from_rows([*self.rows(), *other.rows()])
+    def head(self, n: int = 5) -> "Table":
+        """The first `n` rows."""
+        return Table({name: values[:n] for name, values in self._columns.items()})
 
-    def stack_rows(self, other: Table) -> Table:
-        """Deprecated since 2.4: use `append_rows`; removed in 3.0."""
-        warnings.warn(
-            "Table.stack_rows is deprecated; use Table.append_rows", DeprecationWarning, stacklevel=2
-        )
-        return self.append_rows(other)
+    def stack_rows(self, other: Table, fill: Any = None) -> "Table":
+        """The rows of `other` after the rows of this table; missing columns are padded with `fill`."""
+        names = self.columns + [name for name in other.columns if name not in self._columns]
+        return Table.from_rows({name: row.get(name, fill) for name in names} for part in (self, other) for row in part.rows())
 
-    def filter_rows(self, predicate: Callable[[Row], bool]) -> Table:
-        return Table.from_rows(row for row in self.rows() if predicate(row))
+    def filter_rows(self, predicate: Callable[[Row], bool]) -> Self:
+        return type(self).from_rows(row for row in self.rows() if predicate(row))
 
-    def sort_by(self, by: str, ascending: bool = True, inplace: bool = False) -> Table:
-        """Rows ordered by column `by`. `inplace` goes away in 3.0: tables become immutable."""
-        ordered = sorted(self.rows(), key=lambda row: row[by], reverse=not ascending)
-        result = Table.from_rows(ordered)
+    def sort_by(self, column: str, ascending: bool = True, inplace: bool = False) -> Table | None:
+        """Rows ordered by `column`; with `inplace` this table is reordered and None returned."""
+        ordered = Table.from_rows(sorted(self.rows(), key=lambda row: row[column], reverse=not ascending))
         if inplace:
-            self._columns = result._columns
-            return self
-        return result
+            self._columns = ordered._columns
+            return None
+        return ordered
 
-    def copy(self) -> Table:
-        """A new table sharing the cell values (in 3.0 the values are copied too)."""
-        return Table(self._columns)
+    def group_by(self, key: str) -> "GroupedTable":
+        """The same rows, grouped by the values of column `key`."""
+        from .grouped import GroupedTable
 
-    def pivot(self, index: str, columns: str, values: str, fill: Any = None) -> Table:
-        """One row per `index` value, one column per `columns` value (`fill` becomes `fill_value` in 3.0)."""
+        return GroupedTable(self._columns, key=key)
+
+    def pivot(self, index: str, columns: str, values: str, fill: Any = None) -> "Table":
+        """One row per `index` value, one column per `columns` value; absent cells hold `fill`."""
         keys = list(dict.fromkeys(self._columns[index]))
         heads = list(dict.fromkeys(str(value) for value in self._columns[columns]))
         cells: dict[tuple[Any, str], Any] = {}
@@ -79,8 +88,8 @@ class Table:
             data[head] = [cells.get((key, head), fill) for key in keys]
         return Table(data)
 
-    def describe(self) -> dict[str, dict[str, float]]:
-        """Count, mean and spread of each numeric column (3.0 adds median and skips NaN)."""
+    def describe(self, percentiles=None):
+        """Count, mean and spread of each numeric column, plus any `percentiles` asked for."""
         summary: dict[str, dict[str, float]] = {}
         for name, values in self._columns.items():
             numbers = [value for value in values if isinstance(value, (int, float))]
@@ -90,7 +99,17 @@ class Table:
                     "mean": statistics.fmean(numbers),
                     "std": statistics.pstdev(numbers),
                 }
+                for p in percentiles or ():
+                    summary[name][f"p{p}"] = statistics.quantiles(numbers, n=100)[p - 1] if len(numbers) > 1 else numbers[0]
         return summary
+
+    def copy(self) -> "Table":
+        """A new table sharing the cell values with this one (3.0 copies the values too)."""
+        return Table(self._columns)
+
+    @deprecated("Table.to_records is deprecated; iterate over Table.rows instead")
+    def to_records(self) -> list[Row]:
+        return list(self.rows())
 
     def __repr__(self) -> str:
         return f"Table(columns={self.columns!r}, rows={len(self)})"
