@@ -43,7 +43,8 @@ def test_returns_string_self_optional_union_and_pipe_none(old):
     assert old.returns("heronframe.Table") == table  # a class called returns itself
     assert old.returns("heronframe.Table.stack_rows") == table  # -> "Table"
     assert old.returns("heronframe.Table.filter_rows") == table  # -> Self
-    assert old.returns("heronframe.GroupedTable.filter_rows") == table  # Self is resolved where it is written
+    # PEP 673: `Self` is the type of the receiver, so the inherited method returns the subclass.
+    assert old.returns("heronframe.GroupedTable.filter_rows") == "heronframe.core.grouped.GroupedTable"
     assert old.returns("heronframe.Table.sort_by") == table  # -> Table | None
     assert old.returns("heronframe.Store.get") == table  # -> Optional["Table"]
     assert old.returns("heronframe.Store.find") == table  # -> Union[Table, None]

@@ -245,6 +245,23 @@ def _is_namespace_call(node: ast.expr) -> bool:
     )
 
 
+def _names_self(node: ast.expr | None) -> bool:
+    """Whether a return annotation is PEP 673's `Self` (also as a string, or Optional[Self])."""
+    if node is None:
+        return False
+    if isinstance(node, ast.Constant) and isinstance(node.value, str):
+        try:
+            return _names_self(ast.parse(node.value.strip(), mode="eval").body)
+        except SyntaxError:
+            return False
+    if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitOr):
+        return any(_names_self(n) for n in (node.left, node.right) if not _is_none(n))
+    if isinstance(node, ast.Subscript) and _last(dotted_name(node.value)) in ("Optional", "Union"):
+        items = node.slice.elts if isinstance(node.slice, ast.Tuple) else [node.slice]
+        return any(_names_self(n) for n in items if not _is_none(n))
+    return _last(dotted_name(node)) == "Self"
+
+
 def _string(node: ast.expr | None) -> str | None:
     return node.value if isinstance(node, ast.Constant) and isinstance(node.value, str) else None
 
@@ -1105,7 +1122,8 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
         bases = tuple(link.base_text(r.module, b) for b in r.bases) if r.kind == "class" else ()
         params = link.class_parameters(name) if r.kind == "class" else r.params
         members[name] = Member(name, r.kind, params, link.returns(name) if r.kind != "module" else None,
-                               bases, link.deprecated(r), r.line, r.shape)
+                               bases, link.deprecated(r), r.line, r.shape,
+                               returns_self=r.kind in _CALLABLE and _names_self(r.returns_ann))
 
     aliases: dict[str, str] = {}
     private: dict[str, str] = {}

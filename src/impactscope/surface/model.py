@@ -65,6 +65,7 @@ class Member:
     deprecated: str | None
     line: int
     shape: str = ""
+    returns_self: bool = False  # annotated `-> Self` (PEP 673): the receiver's class, not the definer's
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -217,7 +218,14 @@ class Surface:
         member = self.member(dotted)
         if member is None:
             return None
-        return member.name if member.kind == "class" else member.returns
+        if member.kind == "class":
+            return member.name
+        if member.returns_self:
+            # PEP 673: Self is the class of the receiver, e.g. a subclass that inherits the method.
+            owner = self.canonical(dotted.rpartition(".")[0])
+            if self.is_class(owner):
+                return owner
+        return member.returns
 
     def parameters(self, dotted: str) -> tuple[Parameter, ...] | None:
         """Parameters of a callable; for a class, those of its `__init__` without self."""
@@ -406,6 +414,7 @@ def _member_json(m: Member) -> dict[str, Any]:
         "deprecated": m.deprecated,
         "line": m.line,
         "shape": m.shape,
+        "returns_self": m.returns_self,
     }
 
 
@@ -424,6 +433,7 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         deprecated=d["deprecated"],
         line=int(d["line"]),
         shape=d.get("shape", ""),
+        returns_self=bool(d.get("returns_self", False)),
     )
 
 
