@@ -92,7 +92,7 @@ FILLER_FILES = 3  # keeps about 30% of the files using the library
 # ------------------------------------------------------------------ corpus
 
 
-def generate(base: Path, size_mb: float, seed: int) -> list[Path]:
+def generate(base: Path, size_mb: float, seed: int, chunk_projects: int = CHUNK_PROJECTS) -> list[Path]:
     """Corpus roots from the demo generator, one per seed, until they hold `size_mb` of source."""
     from impactscope.demo.generate import generate_corpus
 
@@ -100,7 +100,7 @@ def generate(base: Path, size_mb: float, seed: int) -> list[Path]:
     total = 0
     while total < size_mb * 1e6:
         root = base / f"root{len(roots):02d}"
-        generate_corpus(root, projects=CHUNK_PROJECTS, seed=seed + len(roots), filler_files=FILLER_FILES)
+        generate_corpus(root, projects=chunk_projects, seed=seed + len(roots), filler_files=FILLER_FILES)
         roots.append(root)
         total += census(roots[-1:], [])["bytes"]
         print(f"  generated {root.name}: {total / 1e6:.1f} MB of source so far", file=sys.stderr)
@@ -275,9 +275,14 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--quick", action="store_true", help="a 5 MB smoke run with one repeat")
     parser.add_argument("--repeats", type=int, default=3)
     parser.add_argument("--seed", type=int, default=11)
+    parser.add_argument("--chunk-projects", type=int, default=CHUNK_PROJECTS,
+                        help="projects per generated root (the corpus is several roots, one seed each)")
     parser.add_argument("--work", type=Path, help="working folder (default: a temporary one, removed after)")
     parser.add_argument("--no-worst", action="store_true", help="skip the worst case")
     parser.add_argument("--no-scaling", action="store_true", help="skip the quarter-corpus memory check")
+    parser.add_argument("--only", default="a,b,c,d,e,f,worst,scaling",
+                        help="comma-separated subset of a,b,c,d,e,f,worst,worst-d,scaling to run (default: all; "
+                             "worst-d: the worst case without its slow naive baseline)")
     parser.add_argument("--variant", choices=sorted(VARIANTS), help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
 
@@ -303,7 +308,7 @@ def drive(args: argparse.Namespace, work: Path) -> int:
         roots = list(args.corpus)
     else:
         print(f"generating about {args.size_mb:g} MB of source in {work} ...", file=sys.stderr)
-        roots = generate(work / "corpus", args.size_mb, args.seed)
+        roots = generate(work / "corpus", args.size_mb, args.seed, args.chunk_projects)
     typical = args.changes or work / "typical.toml"
     worst = args.worst_changes or work / "worst.toml"
     if not args.changes:
@@ -325,25 +330,30 @@ def drive(args: argparse.Namespace, work: Path) -> int:
     )
     print(f"median of {args.repeats} run(s), each in its own process:", file=sys.stderr)
     r = args.repeats
+    only = {part.strip() for part in args.only.split(",") if part.strip()}
+    if "f" in only:
+        only.add("d")  # the warm rescan starts from d's results
     t: dict[str, Timing] = {}
-    t["a"] = measure("read", roots, typical, work, r)
-    t["b"] = measure("ast", roots, typical, work, r)
-    t["c"] = measure("naive", roots, typical, work, r)
-    t["d"] = measure("cold1", roots, typical, work, r)
-    t["e"] = measure("cold2", roots, typical, work, r)
-    prepared = work / "warm.sqlite"
-    shutil.copyfile(work / "cold1.sqlite", prepared)
-    for suffix in ("-wal", "-shm"):
-        Path(str(prepared) + suffix).unlink(missing_ok=True)
-    t["f"] = measure("warm", roots, typical, work, r)
+    for key, variant in (("a", "read"), ("b", "ast"), ("c", "naive"), ("d", "cold1"), ("e", "cold2")):
+        if key in only:
+            t[key] = measure(variant, roots, typical, work, r)
+    if "f" in only:
+        prepared = work / "warm.sqlite"
+        shutil.copyfile(work / "cold1.sqlite", prepared)
+        for suffix in ("-wal", "-shm"):
+            Path(str(prepared) + suffix).unlink(missing_ok=True)
+        t["f"] = measure("warm", roots, typical, work, r)
     worst_t: dict[str, Timing] = {}
-    if not args.no_worst:
+    if ("worst" in only or "worst-d" in only) and not args.no_worst:
         print("worst case:", file=sys.stderr)
-        worst_t["c"] = measure("naive", roots, worst, work, r)
+        if "worst" in only:
+            worst_t["c"] = measure("naive", roots, worst, work, r)
         worst_t["d"] = measure("cold1", roots, worst, work, r)
     quarter: Timing | None = None
     quarter_mb = 0.0
-    if not args.no_scaling and len(roots) >= 2:
+    if "scaling" in only and not args.no_scaling and len(roots) >= 2:
+        if "d" not in t:
+            t["d"] = measure("cold1", roots, typical, work, r)
         part = roots[: max(1, len(roots) // 4)]
         quarter_mb = census(part, [])["bytes"] / 1e6
         print(f"scaling: cold1 on {len(part)} of {len(roots)} roots ({quarter_mb:.1f} MB):", file=sys.stderr)
@@ -359,16 +369,18 @@ def drive(args: argparse.Namespace, work: Path) -> int:
         print(f"{key}' {labels[key] + ' (worst)':29} {timing.seconds:9.2f} {mb / timing.seconds:8.2f} "
               f"{facts['files'] / timing.seconds:9.0f} {timing.rss_mb:12.0f}")
 
-    def ratio(slow: Timing, fast: Timing) -> float:
-        return slow.seconds / fast.seconds
+    def ratio(slow: str, fast: str, table: dict[str, Timing] = t) -> str:
+        if slow not in table or fast not in table:
+            return "    n/a"
+        return f"{table[slow].seconds / table[fast].seconds:7.2f}x"
 
     print("\nratios (how many times faster):")
-    print(f"  d vs c  (target >= 50x): {ratio(t['c'], t['d']):7.1f}x")
-    print(f"  d vs b  (target >= 2x):  {ratio(t['b'], t['d']):7.2f}x")
-    print(f"  e vs d  (target >= 1.7x): {ratio(t['d'], t['e']):6.2f}x")
-    print(f"  f vs a  (target: f within 3x of a, i.e. >= 0.33x): {ratio(t['a'], t['f']):6.2f}x")
+    print(f"  d vs c  (target >= 50x):  {ratio('c', 'd')}")
+    print(f"  d vs b  (target >= 2x):   {ratio('b', 'd')}")
+    print(f"  e vs d  (target >= 1.7x): {ratio('d', 'e')}")
+    print(f"  f vs a  (target: f within 3x of a, i.e. >= 0.33x): {ratio('a', 'f')}")
     if worst_t:
-        print(f"  worst d vs worst c (target >= 5x): {ratio(worst_t['c'], worst_t['d']):6.1f}x")
+        print(f"  worst d vs worst c (target >= 5x): {ratio('c', 'd', worst_t)}")
     peak = max(x.rss_mb for x in [*t.values(), *worst_t.values()])
     print(f"  peak RSS over all variants (target < 500 MB): {peak:.0f} MB")
     if quarter is not None:

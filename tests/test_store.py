@@ -8,7 +8,9 @@ from pathlib import Path
 from impactscope.changes import parse_change_list
 from impactscope.findings import Confidence, Finding
 from impactscope.scan.project import FileOutcome, ProjectResult
-from impactscope.store import CachedProject, ResultStore
+import pytest
+
+from impactscope.store import CachedProject, ResultStore, StoreError
 
 TEXT = """\
 [library]
@@ -86,10 +88,22 @@ def test_resume_keeps_only_matching_settings_and_change_list(tmp_path):
     store.close()
 
 
-def test_resume_replaces_a_file_that_is_not_a_store(tmp_path):
-    out = tmp_path / "r.sqlite"
+def test_a_file_that_is_not_a_store_is_never_overwritten(tmp_path):
+    out = tmp_path / "notes.txt"
     out.write_bytes(b"not sqlite at all" * 100)
-    store, kept = ResultStore.resume(out, _changes(), TEXT, settings="s1")
+    with pytest.raises(StoreError, match="is not an impactscope results file"):
+        ResultStore.resume(out, _changes(), TEXT, settings="s1")
+    with pytest.raises(StoreError, match="is not an impactscope results file"):
+        ResultStore.create(out, _changes(), TEXT, settings="s1")
+    other = tmp_path / "other.sqlite"
+    with sqlite3.connect(other) as db:
+        db.execute("CREATE TABLE t (x)")
+    with pytest.raises(StoreError):
+        ResultStore.resume(other, _changes(), TEXT, settings="s1")
+    assert out.read_bytes() == b"not sqlite at all" * 100
+    empty = tmp_path / "empty.sqlite"
+    empty.touch()
+    store, kept = ResultStore.resume(empty, _changes(), TEXT, settings="s1")
     assert not kept
     store.close()
 

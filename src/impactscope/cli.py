@@ -49,7 +49,7 @@ def scan(
         "unchanged projects are reused.",
     ),
     single: bool = typer.Option(False, "--single", help="Treat each root as one project."),
-    jobs: int = typer.Option(0, "--jobs", help="Worker processes (0: one per core)."),
+    jobs: int = typer.Option(0, "--jobs", help="Worker processes (0: one per core; not used with --cluster)."),
     fresh: bool = typer.Option(False, "--fresh", help="Ignore an existing results file and scan everything."),
     cluster: Optional[str] = typer.Option(
         None, "--cluster", metavar="ADDRESS",

@@ -69,8 +69,12 @@ class ResultStore:
     def create(
         cls, path: str | os.PathLike[str], changes: ChangeList, changes_text: str, *, settings: str = ""
     ) -> "ResultStore":
-        """A new, empty results file at `path` (whatever was there is replaced)."""
+        """A new, empty results file at `path`, replacing an earlier results file there.
+
+        Anything else at `path` (a file that is not an impactscope results file) is refused, so
+        a mistyped `--out` cannot destroy it."""
         p = Path(path)
+        cls._refuse_foreign(p)
         if p.exists():
             p.unlink()
         for suffix in ("-wal", "-shm"):
@@ -98,7 +102,8 @@ class ResultStore:
         fingerprint, which covers change list and tool version), else start it afresh.
         The flag says whether the existing file was kept."""
         p = Path(path)
-        if p.is_file():
+        cls._refuse_foreign(p)
+        if p.is_file() and p.stat().st_size > 0:
             try:
                 db = cls._connect(p)
                 meta = dict(db.execute("SELECT key, value FROM meta"))
@@ -114,6 +119,32 @@ class ResultStore:
             if db is not None:
                 db.close()
         return cls.create(p, changes, changes_text, settings=settings), False
+
+    @staticmethod
+    def _refuse_foreign(path: Path) -> None:
+        if not path.exists():
+            return
+        if not path.is_file():
+            raise StoreError(f"{path}: is not a file; pass a file path to --out")
+        if path.stat().st_size == 0:
+            return
+        try:
+            with open(path, "rb") as handle:
+                header = handle.read(16)
+            ours = header == b"SQLite format 3\x00"
+            if ours:
+                db = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
+                try:
+                    ours = db.execute("SELECT 1 FROM meta WHERE key = 'tool_version'").fetchone() is not None
+                finally:
+                    db.close()
+        except (OSError, sqlite3.DatabaseError):
+            ours = False
+        if not ours:
+            raise StoreError(
+                f"{path}: exists and is not an impactscope results file; "
+                "pass another --out or remove the file"
+            )
 
     @staticmethod
     def _connect(path: Path) -> sqlite3.Connection:

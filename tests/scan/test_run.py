@@ -192,3 +192,30 @@ def test_progress_displays(corpus, tmp_path):
     run_scan(changes, roots[:1], tmp_path / "b.sqlite", progress=display)
     assert isinstance(for_stream(term, quiet=True), Silent)
     assert isinstance(for_stream(io.StringIO()), LogLines)
+
+
+def test_cache_does_not_depend_on_the_working_directory(corpus, tmp_path, monkeypatch):
+    changes, roots = corpus
+    monkeypatch.chdir(roots[0].parent)
+    run_scan(changes, [Path("corpus")], tmp_path / "r.sqlite", jobs=1)
+    monkeypatch.chdir(roots[0])
+    warm = run_scan(changes, [roots[0]], tmp_path / "r.sqlite", jobs=1)
+    assert warm.reused == warm.projects == 9
+    assert all(Path(p.origin).is_absolute() for p in snapshot(tmp_path / "r.sqlite")["projects"])
+
+
+def test_editing_the_library_source_voids_the_cache(corpus, tmp_path):
+    """With `[library] source`, the scan resolves against the library's own code: a change there
+    may change findings, so it counts like a change to the change list."""
+    _, roots = corpus
+    library = tmp_path / "lib" / "heronframe"
+    library.mkdir(parents=True)
+    (library / "__init__.py").write_text("from .ops import stack\n")
+    (library / "ops.py").write_text("def stack(tables):\n    return tables[0]\n")
+    changes = write_changes(tmp_path, CHANGES.replace('release = "3.0"', 'release = "3.0"\nsource = "lib/heronframe"'))
+    out = tmp_path / "r.sqlite"
+    run_scan(changes, roots[:1], out, jobs=1)
+    assert run_scan(changes, roots[:1], out, jobs=1).reused == 9
+    info = (library / "ops.py").stat()
+    os.utime(library / "ops.py", ns=(info.st_atime_ns, info.st_mtime_ns + 1_000_000_000))
+    assert run_scan(changes, roots[:1], out, jobs=1).reused == 0

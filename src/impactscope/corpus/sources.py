@@ -123,6 +123,33 @@ def read_python(data: bytes, path: str) -> Source:
 # ---------------------------------------------------------------------- notebooks
 
 
+def notebook_text(data: bytes, path: str) -> str:
+    """The raw code-cell text of a notebook (v3 or v4), untransformed: cheap enough to decide
+    whether the notebook is worth reading fully. IPython syntax only turns text into strings,
+    so every identifier of the transformed code is in this text too."""
+    import json
+
+    try:
+        document = json.loads(data.decode("utf-8-sig"))
+    except UnicodeDecodeError as exc:
+        raise SourceError(
+            "encoding", f"{path}: byte 0x{data[exc.start]:02x} at offset {exc.start} is not UTF-8"
+        ) from None
+    except ValueError as exc:
+        raise SourceError("invalid notebook", f"{path}: {_first_line(str(exc))}") from None
+    if not isinstance(document, dict):
+        raise SourceError("invalid notebook", f"{path}: the top level is not a JSON object")
+    cells = document.get("cells")
+    if cells is None:  # nbformat v3 keeps cells in worksheets, code under "input"
+        cells = [c for w in document.get("worksheets") or [] if isinstance(w, dict) for c in w.get("cells") or []]
+    parts: list[str] = []
+    for cell in cells if isinstance(cells, list) else []:
+        if isinstance(cell, dict) and cell.get("cell_type") == "code":
+            source = cell.get("source", cell.get("input", ""))
+            parts.append("".join(source) if isinstance(source, list) else str(source))
+    return "\n".join(parts)
+
+
 def read_notebook(data: bytes, path: str) -> Source:
     """Read a Jupyter notebook's code cells as Python.
 

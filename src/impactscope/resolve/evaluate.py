@@ -63,6 +63,7 @@ class Ref:
     cell: int | None
     node: cst.CSTNode
     context: str  # import | use | subclass | decorator | annotation | override
+    top: cst.CSTNode | None = None  # the top-level statement of its cell that holds it
     name: str | None = None
     attr: str | None = None
     receiver: str = ""  # how the member was reached, for patterns: dotted, <Class>, super, ?
@@ -138,6 +139,7 @@ class ModuleEvaluator:
         self.cell: int | None = None
         self._last: tuple[cst.CSTNode, Ref] | None = None
         self._quiet = 0  # > 0 while a body is read only to learn what it returns
+        self.top: cst.CSTNode | None = None
 
     # ------------------------------------------------------------------ driving
     def partial(self) -> ModuleResult:
@@ -149,7 +151,9 @@ class ModuleEvaluator:
     def run(self, cells: Iterable[tuple[int | None, cst.Module]]) -> ModuleResult:
         for index, module in cells:
             self.cell = index
-            self.block(module.body, self.scope)
+            for stmt in module.body:
+                self.top = stmt
+                self.stmt(stmt, self.scope)
         self._flush(self.scope)
         self.result.exports = self.scope.names
         return self.result
@@ -198,7 +202,7 @@ class ModuleEvaluator:
 
     # ------------------------------------------------------------------ references
     def _ref(self, node: cst.CSTNode, context: str, **kw: object) -> Ref:
-        ref = Ref(cell=self.cell, node=node, context=context, **kw)  # type: ignore[arg-type]
+        ref = Ref(cell=self.cell, node=node, context=context, top=self.top, **kw)  # type: ignore[arg-type]
         if not self._quiet:
             self.result.refs.append(ref)
         return ref
@@ -546,7 +550,7 @@ class ModuleEvaluator:
             returns_decl = None
         func = UserFunc(
             node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind, cell=self.cell,
-            home=self,
+            home=self, top=self.top,
         )
         func.declared = declared  # type: ignore[attr-defined]
         func.returns_decl = returns_decl  # type: ignore[attr-defined]
@@ -567,6 +571,7 @@ class ModuleEvaluator:
         previous_state = func.state
         func.state = "running"
         caller_cell, self.cell = self.cell, func.cell
+        caller_top, self.top = self.top, func.top  # type: ignore[assignment]
         if not record or func.home is not self:
             record = False
             self._quiet += 1
@@ -574,6 +579,7 @@ class ModuleEvaluator:
             result = self._run_body(func)
         finally:
             self.cell = caller_cell
+            self.top = caller_top
             if not record:
                 self._quiet -= 1
         func.returns = result

@@ -215,31 +215,61 @@ class ProjectResolver:
                 judged.append((ref, hits))
         if not judged:
             return []
-        # Positions are computed only for cells that hold a finding: the provider costs several
-        # parses' worth, and most files have none.
         cells = {index: (first_line, module) for index, first_line, module in fa.cells}
-        positions: dict[int | None, Mapping[cst.CSTNode, object]] = {}
+        locate = _Positions(cells)
         out: set[Finding] = set()
         for ref, hits in judged:
-            if ref.cell not in positions:
-                wrapper = MetadataWrapper(cells[ref.cell][1], unsafe_skip_copy=True)
-                positions[ref.cell] = wrapper.resolve(PositionProvider)
-            where = positions[ref.cell][ref.node]
-            first_line = cells[ref.cell][0]
+            line, column = locate(ref)
             for cc, confidence in hits:
                 out.add(
                     Finding(
                         project=self.project,
                         file=fa.path,
                         cell=ref.cell,
-                        line=where.start.line + first_line - 1,  # type: ignore[attr-defined]
-                        column=where.start.column,  # type: ignore[attr-defined]
+                        line=line,
+                        column=column,
                         change=cc.change.id,
                         confidence=confidence,
                         pattern=pattern(ref, cc, self.q),
                     )
                 )
         return _strongest(out)
+
+
+class _Positions:
+    """Line and column of referenced nodes, computed only for the top-level statements that hold
+    one: the position provider over a whole module costs several parses, most of it spent on
+    statements without findings. A statement's first line comes from plain code generation of
+    the statements before it (libcst round-trips source exactly)."""
+
+    def __init__(self, cells: Mapping[int | None, tuple[int, cst.Module]]) -> None:
+        self._cells = cells
+        self._offsets: dict[int | None, dict[int, int]] = {}
+        self._maps: dict[int, Mapping[cst.CSTNode, object]] = {}
+
+    def _offset(self, cell: int | None, top: cst.CSTNode) -> int:
+        if cell not in self._offsets:
+            module = self._cells[cell][1]
+            lines = sum(module.code_for_node(h).count("\n") for h in module.header)
+            offsets: dict[int, int] = {}
+            for stmt in module.body:
+                offsets[id(stmt)] = lines
+                lines += module.code_for_node(stmt).count("\n")
+            self._offsets[cell] = offsets
+        return self._offsets[cell][id(top)]
+
+    def __call__(self, ref: Ref) -> tuple[int, int]:
+        first_line, module = self._cells[ref.cell]
+        top = ref.top
+        if top is None:
+            key, base, sub = id(module), 0, module
+        else:
+            key, base = id(top), self._offset(ref.cell, top)
+            sub = module.with_changes(header=(), body=(top,), footer=())
+        if key not in self._maps:
+            self._maps[key] = MetadataWrapper(sub, unsafe_skip_copy=True).resolve(PositionProvider)
+        where = self._maps[key][ref.node]
+        return where.start.line + base + first_line - 1, where.start.column  # type: ignore[attr-defined]
 
 
 def _strongest(findings: set[Finding]) -> list[Finding]:

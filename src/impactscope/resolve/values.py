@@ -50,6 +50,7 @@ class UserFunc:
     kind: str = "function"  # function | method | classmethod | staticmethod | property
     cell: int | None = None  # the notebook cell that defines it: its body's references belong there
     home: object = None  # the module evaluator that defines it: only that one records its body
+    top: object = None  # the top-level statement holding its definition (for positions)
     state: str = "pending"  # pending | running | done (done: its references are recorded)
     top_runs: int = 0  # recorded runs for calls from module level, each with that moment's bindings
     returns: "Value" = None  # type: ignore[assignment]  # None until a first reading infers it

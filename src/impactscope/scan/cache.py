@@ -40,15 +40,42 @@ class ScanSettings:
     changes_digest: str
     tool_version: str
     prefilter: bool
+    library_digest: str = ""  # the library source the change list points at, if any
 
     @classmethod
     def of(cls, changes: ChangeList, *, prefilter: bool) -> "ScanSettings":
-        return cls(changes.digest, __version__, prefilter)
+        return cls(changes.digest, __version__, prefilter, library_digest(changes.source))
 
     @property
     def fingerprint(self) -> str:
-        text = f"{KEY_SCHEMA}\0{self.changes_digest}\0{self.tool_version}\0{int(self.prefilter)}"
+        text = (
+            f"{KEY_SCHEMA}\0{self.changes_digest}\0{self.tool_version}\0{int(self.prefilter)}"
+            f"\0{self.library_digest}"
+        )
         return hashlib.sha256(text.encode()).hexdigest()
+
+
+def library_digest(source: str | os.PathLike[str] | None) -> str:
+    """Stamps of every file under the library source a scan resolves against (`[library] source`):
+    editing the library changes what its surface says, so it voids the cache like the change list."""
+    if source is None:
+        return ""
+    top = os.fspath(source)
+    parts: list[str] = []
+    if os.path.isfile(top):
+        walked: Iterable[tuple[str, list[str], list[str]]] = [(os.path.dirname(top), [], [os.path.basename(top)])]
+    else:
+        walked = os.walk(top)
+    for directory, dirs, files in walked:
+        dirs[:] = sorted(d for d in dirs if d != "__pycache__" and not d.startswith("."))
+        for name in sorted(files):
+            location = os.path.join(directory, name)
+            try:
+                info = os.stat(location)
+            except OSError:
+                continue
+            parts.append(f"{os.path.relpath(location, top)}:{info.st_mtime_ns}:{info.st_size}")
+    return _digest(parts) if parts else "missing"
 
 
 def origin_stamp(origin: str) -> str | None:

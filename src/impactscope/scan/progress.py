@@ -49,6 +49,15 @@ def _clock(seconds: float | None) -> str:
     return f"{s // 3600}:{s // 60 % 60:02d}:{s % 60:02d}" if s >= 3600 else f"{s // 60}:{s % 60:02d}"
 
 
+def compact(tally: Tally) -> str:
+    """The same facts in a terminal-width line."""
+    projects = f"{tally.projects}/{tally.total}" if tally.total is not None else str(tally.projects)
+    text = f"{projects} projects, {tally.files} files, {tally.files_per_second:.0f} files/s"
+    if tally.total is not None:
+        text = f"{_clock(tally.eta_seconds)} left, " + text
+    return text
+
+
 def describe(tally: Tally) -> str:
     """One line of plain text about `tally`, in our own wording."""
     projects = f"{tally.projects}/{tally.total}" if tally.total is not None else str(tally.projects)
@@ -81,13 +90,18 @@ class LogLines:
         self._stream = stream
         self._every = every
         self._next = 0.0
+        self._total: int | None = None
+        self._started = False
 
     def start(self, total: int | None) -> None:
-        size = f"{total} projects" if total is not None else "projects (count unknown for streamed archives)"
-        print(f"impactscope: scanning {size}", file=self._stream, flush=True)
+        self._total = total
         self._next = time.monotonic() + self._every
 
     def update(self, tally: Tally) -> None:
+        if not self._started:  # said once work is under way, so an early error stays one line
+            self._started = True
+            size = f"{self._total} projects" if self._total is not None else "projects (count unknown: tar root)"
+            print(f"impactscope: scanning {size}", file=self._stream, flush=True)
         now = time.monotonic()
         if now >= self._next:
             self._next = now + self._every
@@ -105,8 +119,7 @@ class LiveLine:
         from rich.progress import BarColumn, Progress, TextColumn
 
         self._progress = Progress(
-            TextColumn("[bold]scanning[/]"),
-            BarColumn(),
+            BarColumn(bar_width=12),
             TextColumn("{task.fields[line]}"),
             console=Console(file=stream),
             transient=True,
@@ -119,7 +132,7 @@ class LiveLine:
         self._progress.start()
 
     def update(self, tally: Tally) -> None:
-        self._progress.update(self._task, completed=tally.projects, line=describe(tally))
+        self._progress.update(self._task, completed=tally.projects, line=compact(tally))
 
     def finish(self, tally: Tally) -> None:
         self._progress.stop()
@@ -136,4 +149,4 @@ def for_stream(stream: TextIO | None = None, *, quiet: bool = False, every: floa
     return LogLines(target, every)
 
 
-__all__ = ["LiveLine", "LogLines", "ScanProgress", "Silent", "Tally", "describe", "for_stream"]
+__all__ = ["LiveLine", "LogLines", "ScanProgress", "Silent", "Tally", "compact", "describe", "for_stream"]

@@ -6,7 +6,7 @@ import hashlib
 from dataclasses import dataclass, field
 
 from impactscope.corpus.roots import Project
-from impactscope.corpus.sources import Source, SourceError, read_notebook, read_python
+from impactscope.corpus.sources import Source, SourceError, notebook_text, read_notebook, read_python
 from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding
 from impactscope.resolve.legacy import legacy_hits
@@ -46,6 +46,8 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
     result = ProjectResult(name=project.name, origin=project.origin)
     outcomes: dict[str, FileOutcome] = {}
     sources: dict[str, Source] = {}
+    raw_texts: dict[str, str] = {}
+    notebooks: dict[str, bytes] = {}
     order: list[str] = []
     for entry in project.entries():
         order.append(entry.path)
@@ -68,19 +70,30 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
         digest = hashlib.sha256(data).hexdigest()
         kind = "notebook" if entry.path.endswith(".ipynb") else "module"
         try:
-            source = read_notebook(data, entry.path) if kind == "notebook" else read_python(data, entry.path)
+            if kind == "notebook":
+                # Full reading (nbformat, IPython's transformer) waits until the prefilter keeps it.
+                raw_texts[entry.path] = notebook_text(data, entry.path)
+                notebooks[entry.path] = data
+            else:
+                sources[entry.path] = read_python(data, entry.path)
         except SourceError as exc:
             outcomes[entry.path] = FileOutcome(entry.path, "unparsed", exc.reason, exc.detail, digest, kind)
             continue
-        sources[entry.path] = source
         outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, "", digest, kind)
 
     texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
+    texts.update(raw_texts)
     if prefilter:
-        pf = Prefilter(query.tops, query.names)
-        keep = pf.candidates(texts)
+        keep = _prefilter(query).candidates(texts)
     else:
-        keep = set(sources)
+        keep = set(texts)
+    for path in sorted(keep & set(notebooks)):
+        try:
+            sources[path] = read_notebook(notebooks[path], path)
+        except SourceError as exc:
+            prior = outcomes[path]
+            outcomes[path] = FileOutcome(path, "unparsed", exc.reason, exc.detail, prior.digest, prior.kind)
+            keep.discard(path)
     resolver = ProjectResolver(project.name, query, sources)
     for path in sorted(keep):
         resolver.analyse(path)
@@ -97,13 +110,21 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
         # Files the prefilter passed over may still import the library without touching a change.
         # So may files that did not parse (Python 2), read by the same import-line test.
         result.uses_library = any(
-            _imports_library(texts[p], query.tops)
+            _prefilter(query).imports_library(texts[p])
             for p in texts
             if p not in resolver.files or resolver.files[p].result is None
         )
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
     return result
+
+
+def _prefilter(query: Query) -> Prefilter:
+    """One Prefilter per compiled query: the query is built once per worker."""
+    cached = query.__dict__.get("_prefilter")
+    if cached is None:
+        cached = query.__dict__["_prefilter"] = Prefilter(query.tops, query.names)
+    return cached
 
 
 def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[Finding]:
@@ -119,12 +140,3 @@ def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[F
                             f"legacy: {shape}")
                 )
     return sorted(out)
-
-
-def _imports_library(text: str, tops: frozenset[str]) -> bool:
-    import re
-
-    names = "|".join(map(re.escape, sorted(tops)))
-    return re.search(
-        rf"(?m)^[ \t]*(?:from[ \t]+(?:{names})\b|import[ \t]+(?:[\w.]+[ \t]*,[ \t]*)*(?:{names})\b)", text
-    ) is not None

@@ -163,6 +163,9 @@ def run_scan(
     """
     changes = load_change_list(changes_path)
     check_roots(roots)
+    # Absolute, so that origins and cache keys do not depend on the working directory and
+    # workers elsewhere (a cluster) find the corpus at the same path.
+    roots = [os.path.abspath(os.fspath(root)) for root in roots]
     if cluster is not None and not cluster.strip():
         raise ScanOptionError("--cluster needs a scheduler address such as tcp://host:8786, or `local`")
     workers = jobs if jobs > 0 else (os.cpu_count() or 1)

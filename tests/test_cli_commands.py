@@ -1,0 +1,100 @@
+"""The library-facing commands: surface, compare, harvest, sample, report options."""
+
+from __future__ import annotations
+
+import json
+import tomllib
+from importlib import resources
+from pathlib import Path
+
+from typer.testing import CliRunner
+
+from impactscope.changes import load_change_list
+from impactscope.cli import app
+
+runner = CliRunner()
+DEMO = Path(str(resources.files("impactscope.demo")))
+OLD = DEMO / "heronframe"
+NEW = DEMO / "heronframe_3_0" / "heronframe"
+
+
+def test_surface_prints_a_table_and_json() -> None:
+    table = runner.invoke(app, ["surface", str(OLD)])
+    assert table.exit_code == 0, table.output
+    assert "heronframe.core.table.Table.stack_rows" in table.stdout
+    as_json = runner.invoke(app, ["surface", str(OLD), "--format", "json"])
+    assert as_json.exit_code == 0
+    data = json.loads(as_json.stdout)
+    assert data["aliases"]["heronframe.Table"] == "heronframe.core.table.Table"
+
+
+def test_surface_of_an_installed_distribution_is_read_without_importing_it() -> None:
+    result = runner.invoke(app, ["surface", "--installed", "packaging", "--format", "json"])
+    assert result.exit_code == 0, result.output
+    assert "packaging.version.Version" in json.loads(result.stdout)["members"]
+
+
+def test_compare_writes_a_draft_that_loads_and_points_at_the_old_source(tmp_path: Path) -> None:
+    out = tmp_path / "draft.toml"
+    result = runner.invoke(app, ["compare", str(OLD), str(NEW), "--release", "3.0", "--output", str(out)])
+    assert result.exit_code == 0, result.output
+    changes = load_change_list(out)  # loads without edits
+    assert changes.source == OLD.resolve()
+    kinds = {(c.member, c.kind.value) for c in changes.changes}
+    assert ("heronframe.Table.sort_by", "parameter-removed") in kinds
+    assert ("heronframe.Table.pivot", "parameter-renamed") in kinds
+    assert ("heronframe.plotting.scatter_grid", "moved") in kinds
+
+
+def test_harvest_lists_what_the_library_already_deprecates(tmp_path: Path) -> None:
+    out = tmp_path / "harvest.toml"
+    result = runner.invoke(app, ["harvest", str(OLD), "--output", str(out)])
+    assert result.exit_code == 0, result.output
+    members = {c["member"] for c in tomllib.loads(out.read_text())["change"]}
+    assert "heronframe.stack" in members
+
+
+def test_library_commands_reject_missing_sources_with_exit_2(tmp_path: Path) -> None:
+    for args in (["surface", str(tmp_path / "nope")], ["compare", str(tmp_path / "a"), str(NEW)],
+                 ["harvest", str(tmp_path / "nope")], ["surface"]):
+        result = runner.invoke(app, args)
+        assert result.exit_code == 2, (args, result.output)
+        assert "Traceback" not in result.output
+
+
+def test_sample_is_reproducible_and_sizes_from_a_margin(tmp_path: Path) -> None:
+    population = tmp_path / "all.txt"
+    population.write_text("".join(f"project-{i}\n" for i in range(1000)))
+    first = runner.invoke(app, ["sample", str(population), "--size", "20", "--seed", "3"])
+    second = runner.invoke(app, ["sample", str(population), "--size", "20", "--seed", "3"])
+    assert first.exit_code == 0 and first.stdout == second.stdout
+    assert len(first.stdout.split()) == 20
+    # Cochran's formula with the finite population correction: 385 -> 278 for N = 1000 (95%, 5%).
+    sized = runner.invoke(app, ["sample", str(population), "--margin", "0.05"])
+    assert sized.exit_code == 0
+    assert len(sized.stdout.split()) == 278
+    both = runner.invoke(app, ["sample", str(population), "--size", "5", "--margin", "0.05"])
+    assert both.exit_code == 2
+
+
+def test_report_sizing_options(scanned_demo_corpus, tmp_path: Path) -> None:
+    results = str(scanned_demo_corpus.results)
+    plain = json.loads(runner.invoke(app, ["report", results, "--format", "json"]).stdout)
+    corrected = json.loads(
+        runner.invoke(app, ["report", results, "--format", "json", "--population", "300"]).stdout
+    )
+    for a, b in zip(plain["changes"], corrected["changes"]):
+        assert b["share"]["population"] == 300
+        wide = a["share"]["resolved"]["high"] - a["share"]["resolved"]["low"]
+        narrow = b["share"]["resolved"]["high"] - b["share"]["resolved"]["low"]
+        assert narrow <= wide  # the finite population correction can only narrow the interval
+    weights = tmp_path / "w.csv"
+    weights.write_text("project,weight\n" + "".join(f"{p['project']},{i + 1}\n" for i, p in enumerate(plain["projects"])))
+    weighted = json.loads(
+        runner.invoke(app, ["report", results, "--format", "json", "--weights", str(weights)]).stdout
+    )
+    assert all("weighted_share" in c for c in weighted["changes"])
+    bad = runner.invoke(app, ["report", results, "--population", "5"])
+    assert bad.exit_code == 2 and "smaller than" in bad.output
+    markdown = runner.invoke(app, ["report", results, "--format", "markdown"])
+    assert markdown.exit_code == 0 and markdown.stdout.startswith("# Impact of heronframe 3.0")
