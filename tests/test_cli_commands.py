@@ -98,3 +98,27 @@ def test_report_sizing_options(scanned_demo_corpus, tmp_path: Path) -> None:
     assert bad.exit_code == 2 and "smaller than" in bad.output
     markdown = runner.invoke(app, ["report", results, "--format", "markdown"])
     assert markdown.exit_code == 0 and markdown.stdout.startswith("# Impact of heronframe 3.0")
+
+
+def test_scan_reads_an_installed_library_without_importing_it(tmp_path: Path) -> None:
+    # `packaging` is a dependency, so it is installed; its surface says Version.public exists
+    # and that packaging.version.parse returns a Version (its own annotation).
+    changes = tmp_path / "changes.toml"
+    changes.write_text(
+        '[library]\nname = "packaging"\n\n[[change]]\nid = "P-1"\nmember = "packaging.version.Version.public"\n'
+        'kind = "removed"\n'
+    )
+    project = tmp_path / "corpus" / "uses-packaging"
+    project.mkdir(parents=True)
+    (project / "main.py").write_text("from packaging import version\nv = version.parse('1.0')\nprint(v.public)\n")
+    out = tmp_path / "r.sqlite"
+    plain = runner.invoke(app, ["scan", str(changes), str(tmp_path / "corpus"), "--out", str(out), "--quiet"])
+    assert plain.exit_code == 0, plain.output
+    without = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
+    assert without["changes"][0]["projects"]["resolved"] == 0  # no [types]: the return type is unknown
+    scanned = runner.invoke(app, ["scan", str(changes), str(tmp_path / "corpus"), "--out", str(out), "--quiet",
+                                  "--library-installed", "packaging"])
+    assert scanned.exit_code == 0, scanned.output
+    found = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
+    assert found["changes"][0]["projects"]["resolved"] == 1
+    assert found["findings"][0]["line"] == 3

@@ -56,6 +56,12 @@ def scan(
         help="Run on a Dask scheduler (tcp://host:8786), or `local` for two local Dask workers.",
     ),
     quiet: bool = typer.Option(False, "--quiet", help="Print nothing but errors."),
+    library_source: Optional[Path] = typer.Option(
+        None, "--library-source", help="Read the library's own source here (overrides [library] source)."
+    ),
+    library_installed: Optional[str] = typer.Option(
+        None, "--library-installed", metavar="NAME", help="Read an installed distribution's files (never imported)."
+    ),
 ) -> None:
     """Scan downstream code for uses of the changed members and write a results file."""
     from impactscope.scan.progress import for_stream
@@ -69,6 +75,7 @@ def scan(
             lambda: run_scan(
                 changes, roots, out, single=single, jobs=jobs, fresh=fresh, cluster=cluster,
                 progress=for_stream(sys.stderr, quiet=quiet),
+                library_source=library_source, library_installed=library_installed,
             )
         )
     except KeyboardInterrupt:

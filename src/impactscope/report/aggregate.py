@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 from collections import Counter
 from typing import Any
 
@@ -94,6 +95,10 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
             {"status": s, "reason": r, "files": n} for (s, r), n in sorted(reasons.items())
         ],
         "projects_affected": int(affected),
+        # What the roots held besides projects (hidden entries, stray files, unsafe archive paths).
+        "not_projects": [
+            {"path": path, "reason": reason} for path, reason in json.loads(meta.get("not_projects") or "[]")
+        ],
         "changes": out_changes,
         "corpus": corpus_sizing(by_project, facts),
         "projects": [facts[p.name] for p in projects],

@@ -92,7 +92,18 @@ def to_markdown(report: dict[str, Any]) -> str:
         lines += ["", "## Files not analysed", "", "| status | reason | files |", "|---|---|---|"]
         for r in report["file_reasons"]:
             lines.append(f"| {r['status']} | {r['reason']} | {r['files']} |")
+    if report.get("not_projects"):
+        lines += ["", "## In the roots but not projects", "", "| reason | items |", "|---|---|"]
+        for reason, count in _not_projects(report):
+            lines.append(f"| {reason} | {count} |")
     return "\n".join(lines) + "\n"
+
+
+def _not_projects(report: dict[str, Any]) -> list[tuple[str, int]]:
+    counts: dict[str, int] = {}
+    for item in report.get("not_projects", []):
+        counts[item["reason"]] = counts.get(item["reason"], 0) + 1
+    return sorted(counts.items())
 
 
 def to_table(report: dict[str, Any], width: int = 150) -> str:
@@ -142,4 +153,11 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
         for r in report["file_reasons"]:
             reasons.add_row(r["status"], r["reason"], str(r["files"]))
         console.print(reasons)
+    if report.get("not_projects"):
+        stray = Table(title="In the roots but not projects", title_justify="left")
+        stray.add_column("reason")
+        stray.add_column("items", justify="right")
+        for reason, count in _not_projects(report):
+            stray.add_row(reason, str(count))
+        console.print(stray)
     return buffer.getvalue()

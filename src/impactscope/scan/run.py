@@ -11,6 +11,8 @@ again redoes only uncommitted work and ends with exactly the results of an unint
 from __future__ import annotations
 
 import contextlib
+import dataclasses
+import json
 import os
 import time
 from dataclasses import dataclass
@@ -153,6 +155,8 @@ def run_scan(
     progress: ScanProgress | None = None,
     fresh: bool = False,
     cluster: str | None = None,
+    library_source: str | os.PathLike[str] | None = None,
+    library_installed: str | None = None,
 ) -> ScanSummary:
     """Scan `roots` for the changes in `changes_path` into the results file `out`.
 
@@ -161,7 +165,7 @@ def run_scan(
     removed. `jobs` <= 0 means one worker per core; `cluster` is a Dask scheduler address or
     "local". Raises KeyboardInterrupt after committing the finished projects.
     """
-    changes = load_change_list(changes_path)
+    changes = _with_library(load_change_list(changes_path), library_source, library_installed)
     check_roots(roots)
     # Absolute, so that origins and cache keys do not depend on the working directory and
     # workers elsewhere (a cluster) find the corpus at the same path.
@@ -186,7 +190,8 @@ def run_scan(
         with contextlib.ExitStack() as stack:
             cached = store.cached() if kept else {}
             query = Query(changes)
-            found = discover(roots, single=single, library=changes.import_name)
+            ignored: list[tuple[str, str]] = []  # root-level items that are not projects
+            found = discover(roots, single=single, library=changes.import_name, ignored=ignored)
             batches = _plan(found, cached, fingerprint, tallier, seen)
             results = stack.enter_context(
                 contextlib.closing(_execute(batches, changes, query, prefilter, fingerprint, workers, cluster))
@@ -204,7 +209,7 @@ def run_scan(
                     last_commit, uncommitted = now, 0
         store.commit()
         removed = store.prune(seen)
-        store.set_meta(complete="1")
+        store.set_meta(not_projects=json.dumps(sorted(ignored)), complete="1")
     finally:
         # Whatever finished is whole and worth keeping: a rerun resumes from here.
         store.commit()
@@ -214,6 +219,29 @@ def run_scan(
         tallier.projects, tallier.files, tallier.findings, time.perf_counter() - tallier.started,
         Path(out), tallier.reused, removed,
     )
+
+
+def _with_library(
+    changes: ChangeList, source: str | os.PathLike[str] | None, installed: str | None
+) -> ChangeList:
+    """Apply --library-source / --library-installed: the change list then names that source,
+    so workers, clusters and the cache fingerprint all see one library."""
+    if source is not None and installed is not None:
+        raise ScanOptionError("give --library-source or --library-installed, not both")
+    if installed is not None:
+        from impactscope.surface import locate_installed
+
+        return dataclasses.replace(changes, source=locate_installed(installed).resolve())
+    if source is not None:
+        where = Path(source)
+        if not where.exists():
+            raise ScanOptionError(f"--library-source {where}: no such file or folder; pass the library's package folder")
+        return dataclasses.replace(changes, source=where.resolve())
+    if changes.source is not None and not changes.source.exists():
+        raise ScanOptionError(
+            f"[library] source {changes.source}: no such file or folder; fix the path (it is relative to the change list)"
+        )
+    return changes
 
 
 def _execute(
