@@ -119,6 +119,14 @@ def _plan(
         prior = cached.get(project.name)
         stamp = origin_stamp(project.origin)
         entries: list[Entry] | None = None
+        if prior is None and stamp is None and not streamed(project) and picklable(project):
+            # Nothing cached to compare with: the worker lists the project and keys what it listed,
+            # so the listing (a walk and a stat per file) is not done twice, nor serially here.
+            batch.append(project)
+            if len(batch) >= BATCH_PROJECTS:
+                yield tuple(batch)
+                batch, weight = [], 0
+            continue
         if stamp is not None:
             key = project_key(fingerprint, project, stamp, None)
             work = project
