@@ -13,7 +13,7 @@ import pytest
 
 from .helpers import build_corpus, snapshot, write_changes
 
-PROJECTS = 100
+PROJECTS = 240  # large enough that the first commit (after 0.5 s) comes well before the end
 BULK = 60
 
 

@@ -17,7 +17,7 @@ from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from .model import Member, Parameter, Problem, Surface, SurfaceError, c3_merge
+from .model import Member, Parameter, Problem, Surface, SurfaceError, linearize
 
 _PROPERTY = frozenset({"property", "cached_property", "abstractproperty"})
 _ACCESSOR = frozenset({"setter", "getter", "deleter"})
@@ -955,14 +955,7 @@ class _Linker:
                 target = self.resolve_expr(r.module, text)[0] if text else None
                 if target is not None and target != cls and self.raw[target].kind == "class" and target not in bases:
                     bases.append(target)
-            orders = [self.mro(b) for b in bases]
-            merged = c3_merge(cls, [*orders, tuple(bases)])
-            if merged is None:
-                seen: dict[str, None] = {cls: None}
-                for order in orders:
-                    seen.update(dict.fromkeys(order))
-                merged = tuple(seen)
-            return merged
+            return linearize(cls, [self.mro(b) for b in bases], bases)
 
         return self._guarded(("mro", cls), compute, (cls,))
 

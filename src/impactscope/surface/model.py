@@ -437,6 +437,18 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
     )
 
 
+def linearize(cls: str, orders: list[tuple[str, ...]], bases: list[str]) -> tuple[str, ...]:
+    """The C3 order of `cls` from its bases' orders; a depth-first order where Python would
+    refuse the class (an inconsistent hierarchy), so that look-ups still work."""
+    merged = c3_merge(cls, [*orders, tuple(bases)])
+    if merged is not None:
+        return merged
+    seen: dict[str, None] = {cls: None}
+    for order in orders:
+        seen.update(dict.fromkeys(order))
+    return tuple(seen)
+
+
 def c3_merge(name: str, base_orders: list[tuple[str, ...]]) -> tuple[str, ...] | None:
     """C3 linearisation (as Python computes `__mro__`); None when the bases are inconsistent."""
     seqs = [list(s) for s in base_orders if s]
@@ -463,13 +475,7 @@ def class_mros(members: Mapping[str, Member]) -> dict[str, tuple[str, ...]]:
             return done[cls]
         bases = [b for b in members[cls].bases if b in members and members[b].kind == "class" and b not in active]
         orders = [visit(b, active | {cls}) for b in bases]
-        merged = c3_merge(cls, [*orders, tuple(bases)])
-        if merged is None:
-            # Python would refuse this class; keep a depth-first order so look-ups still work.
-            seen: dict[str, None] = {cls: None}
-            for order in orders:
-                seen.update(dict.fromkeys(order))
-            merged = tuple(seen)
+        merged = linearize(cls, orders, bases)
         done[cls] = merged
         return merged
 
