@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import os
 from importlib import resources
 from pathlib import Path
@@ -60,8 +59,7 @@ def run_demo(base: Path, *, projects: int, seed: int, echo: Callable[[str], None
     finally:
         store.close()
     echo(to_table(document))
-    truth_json = truth.to_json() if hasattr(truth, "to_json") else json.loads(Path(str(root) + ".truth.json").read_text())
-    scores = score(findings, truth_json["expected"], [c["id"] for c in document["changes"]])
+    scores = score(findings, truth.to_json()["expected"], [c["id"] for c in document["changes"]])
     echo("Check against the generator's ground truth (resolved findings, per change):")
     for change, s in scores.items():
         echo(

@@ -13,8 +13,6 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Mapping, Sequence
 
-from packaging.specifiers import SpecifierSet
-
 from impactscope.changes import ChangeList
 from impactscope.estimate import Interval, weighted_share, wilson_interval
 from impactscope.exposure import classify, environment_for_python, read_manifests
@@ -165,4 +163,4 @@ def corpus_sizing(files: Mapping[str, list[FileOutcome]], facts: Mapping[str, Ma
     }
 
 
-__all__ = ["SizingOptions", "SizingError", "read_weights", "project_facts", "change_sizing", "corpus_sizing", "SpecifierSet"]
+__all__ = ["SizingOptions", "SizingError", "read_weights", "project_facts", "change_sizing", "corpus_sizing"]

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from impactscope.changes import Kind
 from impactscope.findings import Confidence
-from impactscope.resolve.evaluate import CallShape, Ref
+from impactscope.resolve.evaluate import Ref
 from impactscope.resolve.query import CompiledChange, Query
 
 
@@ -75,4 +75,4 @@ def pattern(ref: Ref, cc: CompiledChange, query: Query) -> str:
     return f"{shown}{args}"
 
 
-__all__ = ["judge", "pattern", "CallShape"]
+__all__ = ["judge", "pattern"]
