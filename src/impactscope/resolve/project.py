@@ -10,12 +10,12 @@ from dataclasses import dataclass, field
 from typing import Mapping
 
 import libcst as cst
-from libcst.metadata import MetadataWrapper, PositionProvider
 
 from impactscope.corpus.sources import Source, looks_like_python2
 from impactscope.findings import Finding
 from impactscope.resolve.evaluate import ModuleEvaluator, ModuleResult, Ref
 from impactscope.resolve.match import judge, pattern
+from impactscope.resolve.positions import Positions
 from impactscope.resolve.query import Query
 from impactscope.resolve.values import UNKNOWN, ProjMod, Value
 
@@ -215,11 +215,11 @@ class ProjectResolver:
                 judged.append((ref, hits))
         if not judged:
             return []
-        cells = {index: (first_line, module) for index, first_line, module in fa.cells}
-        locate = _Positions(cells)
+        codes = {cell.index: cell.code for cell in self.sources[fa.path].cells}
+        cells = {index: (first_line, module, codes[index]) for index, first_line, module in fa.cells}
+        where = Positions(cells).locate((ref.cell, ref.top, ref.node) for ref, _ in judged)
         out: set[Finding] = set()
-        for ref, hits in judged:
-            line, column = locate(ref)
+        for (ref, hits), (line, column) in zip(judged, where):
             for cc, confidence in hits:
                 out.add(
                     Finding(
@@ -234,42 +234,6 @@ class ProjectResolver:
                     )
                 )
         return _strongest(out)
-
-
-class _Positions:
-    """Line and column of referenced nodes, computed only for the top-level statements that hold
-    one: the position provider over a whole module costs several parses, most of it spent on
-    statements without findings. A statement's first line comes from plain code generation of
-    the statements before it (libcst round-trips source exactly)."""
-
-    def __init__(self, cells: Mapping[int | None, tuple[int, cst.Module]]) -> None:
-        self._cells = cells
-        self._offsets: dict[int | None, dict[int, int]] = {}
-        self._maps: dict[int, Mapping[cst.CSTNode, object]] = {}
-
-    def _offset(self, cell: int | None, top: cst.CSTNode) -> int:
-        if cell not in self._offsets:
-            module = self._cells[cell][1]
-            lines = sum(module.code_for_node(h).count("\n") for h in module.header)
-            offsets: dict[int, int] = {}
-            for stmt in module.body:
-                offsets[id(stmt)] = lines
-                lines += module.code_for_node(stmt).count("\n")
-            self._offsets[cell] = offsets
-        return self._offsets[cell][id(top)]
-
-    def __call__(self, ref: Ref) -> tuple[int, int]:
-        first_line, module = self._cells[ref.cell]
-        top = ref.top
-        if top is None:
-            key, base, sub = id(module), 0, module
-        else:
-            key, base = id(top), self._offset(ref.cell, top)
-            sub = module.with_changes(header=(), body=(top,), footer=())
-        if key not in self._maps:
-            self._maps[key] = MetadataWrapper(sub, unsafe_skip_copy=True).resolve(PositionProvider)
-        where = self._maps[key][ref.node]
-        return where.start.line + base + first_line - 1, where.start.column  # type: ignore[attr-defined]
 
 
 def _strongest(findings: set[Finding]) -> list[Finding]:
