@@ -124,8 +124,14 @@ def _matches(path: str, patterns: Iterable[str]) -> bool:
     return False
 
 
+# Every pattern's name ends in one of these (lowercase): a cheap first test, run on every file.
+_ENDINGS = tuple(sorted({p.lower().rsplit("*", 1)[-1].rsplit("/", 1)[-1] for p in MANIFEST_PATTERNS}))
+
+
 def is_manifest(path: str) -> bool:
     """Whether the scan should pass the file at POSIX `path` (relative to the project) here."""
+    if not path.lower().endswith(_ENDINGS):
+        return False
     parts = path.split("/")
     if any(part in _FOREIGN_DIRS for part in parts[:-1]):
         return False

@@ -23,7 +23,7 @@ from impactscope.corpus.sources import read_notebook, read_python
 def _check(source_cells: list[tuple[int | None, int, cst.Module, str]], query: Query, resolver: ProjectResolver) -> int:
     evaluator = ModuleEvaluator(query, resolver, "m", False, "m.py", "")
     result = evaluator.run((i, m) for i, _, m, _ in source_cells)
-    cells = {i: (first, m, code) for i, first, m, code in source_cells}
+    cells = {i: (first, m, code, None) for i, first, m, code in source_cells}
     fast = Positions(cells).locate((ref.cell, ref.top, ref.node) for ref in result.refs)
     full = {i: MetadataWrapper(m, unsafe_skip_copy=True).resolve(PositionProvider) for i, _, m, _ in source_cells}
     for ref, got in zip(result.refs, fast):
@@ -81,7 +81,7 @@ def _refs(code: str):
 def test_positions_on_tricky_layouts(code: str) -> None:
     module, refs = _refs(code)
     assert refs
-    fast = Positions({None: (1, module, code)}).locate((r.cell, r.top, r.node) for r in refs)
+    fast = Positions({None: (1, module, code, None)}).locate((r.cell, r.top, r.node) for r in refs)
     # Reference: libcst's PositionProvider on the whole module (libcst.metadata).
     full = MetadataWrapper(module, unsafe_skip_copy=True).resolve(PositionProvider)
     assert fast == [(full[r.node].start.line, full[r.node].start.column) for r in refs]
@@ -92,6 +92,6 @@ def test_cells_ast_cannot_read_fall_back_to_code_generation(code: str) -> None:
     # Handing `ast` text it rejects (as it rejects syntax newer than the running Python) takes
     # the fallback path; the positions must not change.
     module, refs = _refs(code)
-    fast = Positions({None: (1, module, "this is not python (\n")}).locate((r.cell, r.top, r.node) for r in refs)
+    fast = Positions({None: (1, module, "this is not python (\n", None)}).locate((r.cell, r.top, r.node) for r in refs)
     full = MetadataWrapper(module, unsafe_skip_copy=True).resolve(PositionProvider)
     assert fast == [(full[r.node].start.line, full[r.node].start.column) for r in refs]

@@ -67,6 +67,8 @@ class CodeCell:
     index: int | None
     code: str
     first_line: int = 1
+    # First lines of the top-level statements, when a reader has them already (narrowing does).
+    statement_lines: tuple[int, ...] | None = None
 
 
 @dataclass(frozen=True)

@@ -800,6 +800,12 @@ class ModuleEvaluator:
             return Super(owner) if owner is not None else UNKNOWN
         if isinstance(func, UserFunc):
             return self._call_user(func, scope)
+        if isinstance(func, UserClass):
+            # Instantiating runs __init__: from module level, with that moment's bindings, so the
+            # attributes it sets are known to methods called on the instance afterwards.
+            init = func.lookup("__init__")
+            if isinstance(init, UserFunc):
+                self._call_user(init, scope)
         return self.call_result(func)
 
     def _dynamic_import(self, node: cst.Call, how: str) -> Value:

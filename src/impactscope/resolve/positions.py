@@ -55,9 +55,10 @@ class _StoppingState(PositionProvidingCodegenState):
 
 
 class Positions:
-    """Positions of nodes in parsed cells: `cells` maps a cell index to (first line, module, code)."""
+    """Positions of nodes in parsed cells. `cells` maps a cell index to (first line, module, code,
+    first lines of its top-level statements or None when not known yet)."""
 
-    def __init__(self, cells: Mapping[int | None, tuple[int, cst.Module, str]]) -> None:
+    def __init__(self, cells: Mapping[int | None, tuple[int, cst.Module, str, tuple[int, ...] | None]]) -> None:
         self._cells = cells
         self._starts: dict[int | None, dict[int, int]] = {}
         self._found: dict[cst.CSTNode, tuple[int, int]] = {}
@@ -76,7 +77,7 @@ class Positions:
         return [self._found[node] for _, _, node in items]
 
     def _generate(self, cell: int | None, top: cst.CSTNode | None, nodes: set[cst.CSTNode]) -> None:
-        first_line, module, _ = self._cells[cell]
+        first_line, module, _, _ = self._cells[cell]
         if top is None:
             sub, base = module, 0
         else:
@@ -104,8 +105,8 @@ class Positions:
         return self._starts[cell][id(top)]
 
     def _statement_starts(self, cell: int | None) -> dict[int, int]:
-        _, module, code = self._cells[cell]
-        lines = _ast_starts(code)
+        _, module, code, known = self._cells[cell]
+        lines = list(known) if known is not None else _ast_starts(code)
         if lines is not None and len(lines) == len(module.body):
             return {id(stmt): line for stmt, line in zip(module.body, lines)}
         # Fallback: count the lines that code generation gives everything before each statement.

@@ -215,8 +215,11 @@ class ProjectResolver:
                 judged.append((ref, hits))
         if not judged:
             return []
-        codes = {cell.index: cell.code for cell in self.sources[fa.path].cells}
-        cells = {index: (first_line, module, codes[index]) for index, first_line, module in fa.cells}
+        texts = {cell.index: cell for cell in self.sources[fa.path].cells}
+        cells = {
+            index: (first_line, module, texts[index].code, texts[index].statement_lines)
+            for index, first_line, module in fa.cells
+        }
         where = Positions(cells).locate((ref.cell, ref.top, ref.node) for ref, _ in judged)
         out: set[Finding] = set()
         for (ref, hits), (line, column) in zip(judged, where):

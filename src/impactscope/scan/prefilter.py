@@ -21,12 +21,11 @@ by the resolver, for their bindings.
 from __future__ import annotations
 
 import re
+from dataclasses import dataclass, field
 from typing import Iterable, Mapping
 
 from impactscope.resolve.project import module_names
 
-# Identifiers as Python reads them (PEP 3131 letters included); one pass per file.
-_IDENTIFIER = re.compile(r"[^\W\d]\w*")
 _RELATIVE_IMPORT = re.compile(r"(?m)^[ \t]*from[ \t]+\.")
 
 
@@ -37,6 +36,21 @@ def _any_word(names: Iterable[str]) -> re.Pattern[str] | None:
     return re.compile(r"(?<![\w])(?:" + "|".join(map(re.escape, names)) + r")(?![\w])")
 
 
+@dataclass(frozen=True)
+class Plan:
+    """What the prefilter decided for one project.
+
+    `keep`: the files worth resolving. `whole`: those of them other project files may import,
+    read whole (their bindings are what importers see); the rest may be narrowed to the
+    statements that matter. `relays`: the leaf names of kept modules, the only project modules
+    through which a changed member can reach another file without its name being spelled there.
+    """
+
+    keep: set[str] = field(default_factory=set)
+    whole: set[str] = field(default_factory=set)
+    relays: frozenset[str] = frozenset()
+
+
 class Prefilter:
     """Compiled once per scan from the change list; `candidates` runs once per project."""
 
@@ -44,52 +58,88 @@ class Prefilter:
         self._tops = frozenset(library_tops)
         self._members = frozenset(member_names)
         self._library = _any_word(self._tops)
+        self._member = _any_word(self._members)
         names = "|".join(map(re.escape, sorted(self._tops)))
         self._import_line = re.compile(
             rf"(?m)^[ \t]*(?:from[ \t]+(?:{names})\b|import[ \t]+(?:[\w.]+[ \t]*,[ \t]*)*(?:{names})\b)"
+            # Imports made by a call name the module in a string: import_module("pkg"), __import__("pkg.sub").
+            rf"|\b(?:import_module|__import__)\(\s*[rbuRBU]?['\"](?:{names})\b"
         )
 
     def imports_library(self, text: str) -> bool:
-        """A line-level test for files that were not resolved: an import statement of the library."""
+        """A line-level test for files that were not resolved: an import statement of the library,
+        or an import by a call (`importlib.import_module`, `__import__`) that names it."""
         return bool(self._tops) and self._import_line.search(text) is not None
 
     def mentions_library(self, text: str) -> bool:
-        return self._library is not None and self._library.search(text) is not None
+        return any(top in text for top in self._tops) and self._library is not None and (
+            self._library.search(text) is not None
+        )
+
+    def spells_member(self, text: str) -> bool:
+        # A substring test first: it runs in C over the whole text, the word test only where it hits.
+        return any(name in text for name in self._members) and self._member is not None and (
+            self._member.search(text) is not None
+        )
 
     def candidates(self, texts: Mapping[str, str]) -> set[str]:
         """The files of one project worth resolving; empty when the project never names the library."""
-        if not any(self.mentions_library(text) for text in texts.values()):
-            return set()
-        words = {path: set(_IDENTIFIER.findall(text)) for path, text in texts.items()}
+        return self.plan(texts).keep
+
+    def plan(self, texts: Mapping[str, str]) -> Plan:
+        """The files worth resolving, which of them to read whole, and which modules may relay a member."""
+        library = {path for path, text in texts.items() if self.mentions_library(text)}
+        if not library:
+            return Plan()
+        spelling = {path for path, text in texts.items() if self.spells_member(text)}
+        if not spelling:
+            return Plan()  # no file spells a changed member: there can be no seed
         relative = {path for path, text in texts.items() if _RELATIVE_IMPORT.search(text)}
         leaf = {path: module_names(path)[0].rpartition(".")[2] for path in texts}
 
         # Modules that touch the library: name it, or name a touching module, or import relatively.
-        touching = {path for path, w in words.items() if w & self._tops}
-        touching |= relative
-        touching = _close(touching, words, leaf)
+        touching = _close(library | relative, texts, leaf)
         # Seeds spell a changed member; then whatever names (or relatively imports) a kept module.
-        kept = {path for path in touching if words[path] & self._members}
+        kept = touching & spelling
         if kept:
             kept |= relative & touching
-            kept = _close(kept, words, leaf, within=touching)
-        return kept
+            kept = _close(kept, texts, leaf, within=touching)
+        modules = {path for path in kept if not path.endswith(".ipynb")}
+        whole = modules
+        if not relative and modules:
+            leaves = {leaf[path] for path in modules if leaf[path]}
+            mentioned: dict[str, set[str]] = {}
+            for path, text in texts.items():
+                for name in _mentioned(text, leaves):
+                    mentioned.setdefault(name, set()).add(path)
+            whole = {
+                path for path in modules
+                if path.endswith("__init__.py") or mentioned.get(leaf[path], set()) - {path}
+            }
+        return Plan(kept, whole, frozenset(leaf[path] for path in modules if leaf[path]))
+
+
+def _mentioned(text: str, names: set[str]) -> set[str]:
+    """Which of `names` the text spells as whole words."""
+    pattern = _any_word(name for name in names if name in text)
+    return set(pattern.findall(text)) if pattern is not None else set()
 
 
 def _close(
-    start: set[str], words: Mapping[str, set[str]], leaf: Mapping[str, str], within: set[str] | None = None
+    start: set[str], texts: Mapping[str, str], leaf: Mapping[str, str], within: set[str] | None = None
 ) -> set[str]:
     """Add files that name (as a whole word) the leaf module name of a file already in the set."""
     result = set(start)
     frontier = set(start)
-    pool = set(words) if within is None else set(within)
+    pool = set(texts) if within is None else set(within)
     while frontier:
         names = {leaf[p] for p in frontier if leaf[p] and not p.endswith(".ipynb")}
         frontier = set()
         if not names:
             break
         for path in pool - result:
-            if words[path] & names and any(n != leaf[path] for n in words[path] & names):
+            found = _mentioned(texts[path], names)
+            if found and any(n != leaf[path] for n in found):
                 result.add(path)
                 frontier.add(path)
     return result

@@ -12,7 +12,8 @@ from impactscope.findings import Confidence, Finding
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
-from impactscope.scan.prefilter import Prefilter
+from impactscope.scan.prefilter import Plan, Prefilter
+from impactscope.scan.slicing import narrow
 
 NO_CANDIDATE = "no candidate"
 
@@ -42,7 +43,10 @@ def _is_manifest(path: str, size: int) -> bool:
     return is_manifest(path) or (path.endswith((".txt", ".in")) and size < 256_000)
 
 
-def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> ProjectResult:
+def scan_project(project: Project, query: Query, *, prefilter: bool = True, narrowing: bool = True) -> ProjectResult:
+    """Account for every file of `project` and collect its findings. `prefilter=False` resolves
+    every file whole and `narrowing=False` keeps kept files whole: both only for tests that show
+    the shortcuts change no finding."""
     result = ProjectResult(name=project.name, origin=project.origin)
     outcomes: dict[str, FileOutcome] = {}
     sources: dict[str, Source] = {}
@@ -83,10 +87,8 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
 
     texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
     texts.update(raw_texts)
-    if prefilter:
-        keep = _prefilter(query).candidates(texts)
-    else:
-        keep = set(texts)
+    plan = _prefilter(query).plan(texts) if prefilter else Plan(set(texts), set(texts))
+    keep = set(plan.keep)
     for path in sorted(keep & set(notebooks)):
         try:
             sources[path] = read_notebook(notebooks[path], path)
@@ -94,6 +96,9 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True) -> P
             prior = outcomes[path]
             outcomes[path] = FileOutcome(path, "unparsed", exc.reason, exc.detail, prior.digest, prior.kind)
             keep.discard(path)
+    if narrowing:
+        for path in keep - plan.whole:
+            sources[path] = narrow(sources[path], query.names, plan.relays)
     resolver = ProjectResolver(project.name, query, sources)
     for path in sorted(keep):
         resolver.analyse(path)

@@ -1,0 +1,113 @@
+"""The prefilter and statement narrowing are sound: they skip nothing that holds a finding."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from impactscope.changes import load_change_list, parse_change_list
+from impactscope.corpus.roots import discover
+from impactscope.demo import generate_corpus
+from impactscope.demo.run import demo_changes_path
+from impactscope.resolve.query import Query
+from impactscope.scan.prefilter import Prefilter
+from impactscope.scan import project as project_module
+from impactscope.scan import slicing
+from impactscope.scan.project import scan_project
+
+# Changed members named like methods of builtin objects, which most files spell.
+COMMON_NAMES = b"""\
+[library]
+name = "heronframe"
+release = "3.0"
+
+[types]
+"heronframe.read_table" = "heronframe.Table"
+"heronframe.Table" = "heronframe.Table"
+
+[[change]]
+id = "W-1"
+member = "heronframe.Table.append"
+kind = "removed"
+
+[[change]]
+id = "W-2"
+member = "heronframe.Table.copy"
+kind = "behaviour-changed"
+"""
+
+
+@pytest.fixture(scope="module")
+def corpus(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    root = tmp_path_factory.mktemp("prefilter") / "corpus"
+    generate_corpus(root, projects=120, seed=3, filler_files=2)
+    return root
+
+
+def _queries() -> dict[str, Query]:
+    return {
+        "demo change list": Query(load_change_list(demo_changes_path())),
+        "common names": Query(parse_change_list(COMMON_NAMES, Path("common.toml"))),
+    }
+
+
+@pytest.mark.parametrize("which, least", [("demo change list", 1000), ("common names", 200)])
+def test_findings_are_identical_with_and_without_the_shortcuts(
+    corpus: Path, which: str, least: int, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    query = _queries()[which]
+    narrowed: list[str] = []
+
+    def counting(source, *args):
+        out = slicing.narrow(source, *args)
+        if out.cells != source.cells and any(a.code != b.code for a, b in zip(out.cells, source.cells)):
+            narrowed.append(source.path)
+        return out
+
+    monkeypatch.setattr(project_module, "narrow", counting)
+    total = skipped = 0
+    for project in discover([corpus], library="heronframe"):
+        fast = scan_project(project, query)
+        whole = scan_project(project, query, narrowing=False)
+        everything = scan_project(project, query, prefilter=False)
+        assert fast.findings == whole.findings == everything.findings, project.name
+        assert fast.uses_library == whole.uses_library == everything.uses_library, project.name
+        total += len(fast.findings)
+        skipped += sum(f.status == "skipped" for f in fast.files)
+    assert total > least
+    # The shortcuts did work: files skipped, and files narrowed to fewer statements.
+    assert skipped > 300 and len(narrowed) > 30, (skipped, len(narrowed))
+
+
+def test_whole_words_only() -> None:
+    prefilter = Prefilter(["heronframe"], ["imp"])
+    texts = {"a.py": "import heronframe\nimport os\n", "b.py": "import heronframe as hf\nhf.imp(1)\n"}
+    assert prefilter.candidates(texts) == {"b.py"}
+    assert prefilter.candidates({"a.py": "import heronframes\nimp()\n"}) == set()
+
+
+def test_a_project_that_never_names_the_library_is_skipped_whole() -> None:
+    prefilter = Prefilter(["heronframe"], ["stack"])
+    assert prefilter.candidates({"a.py": "import numpy\nnumpy.stack([])\n"}) == set()
+
+
+def test_re_exports_reach_files_that_do_not_spell_the_member() -> None:
+    prefilter = Prefilter(["heronframe"], ["stack"])
+    texts = {
+        "helpers.py": "from heronframe import stack as glue\n",
+        "main.py": "from helpers import glue\nglue([])\n",
+        "other.py": "print('hello')\n",
+    }
+    plan = prefilter.plan(texts)
+    assert plan.keep == {"helpers.py", "main.py"}
+    # helpers.py is imported by main.py: read whole; main.py is imported by no one: narrowed.
+    assert plan.whole == {"helpers.py"}
+    assert plan.relays == frozenset({"helpers", "main"})
+
+
+def test_relative_imports_keep_every_module_whole() -> None:
+    prefilter = Prefilter(["heronframe"], ["stack"])
+    texts = {"pkg/__init__.py": "from . import a\n", "pkg/a.py": "import heronframe\nheronframe.stack([])\n"}
+    plan = prefilter.plan(texts)
+    assert plan.keep == plan.whole == {"pkg/__init__.py", "pkg/a.py"}
