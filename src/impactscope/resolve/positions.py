@@ -20,8 +20,7 @@ from contextlib import contextmanager
 from typing import Iterable, Iterator, Mapping
 
 import libcst as cst
-from libcst.metadata import CodePosition, CodeRange
-from libcst.metadata.position_provider import PositionProvider, PositionProvidingCodegenState
+from libcst.metadata.position_provider import NEWLINE_RE, PositionProvider, PositionProvidingCodegenState
 
 
 class _Enough(Exception):
@@ -29,12 +28,35 @@ class _Enough(Exception):
 
 
 class _StoppingState(PositionProvidingCodegenState):
-    """The provider's own code-generation state, stopped early."""
+    """libcst's position-tracking code generation, stopped once the nodes asked for are done.
 
-    __slots__ = ("targets", "left")
+    The bookkeeping is the provider's (`libcst.metadata.position_provider`), kept as plain
+    tuples and without the generated text, which nothing here reads."""
+
+    __slots__ = ("targets", "left", "spans")
+
+    def add_indent_tokens(self) -> None:
+        for token in self.indent_tokens:
+            self._update_position(token)
+
+    def add_token(self, value: str) -> None:
+        self._update_position(value)
+
+    def _update_position(self, value: str) -> None:
+        if "\n" not in value and "\r" not in value:
+            self.column += len(value)
+            return
+        segments = NEWLINE_RE.split(value)
+        self.line += len(segments) - 1
+        self.column = len(segments[-1])
+
+    def before_codegen(self, node: cst.CSTNode) -> None:
+        self._stack.append((self.line, self.column))  # type: ignore[arg-type]
 
     def after_codegen(self, node: cst.CSTNode) -> None:
-        super().after_codegen(node)
+        start = self._stack.pop()
+        if node not in self.spans:  # a syntactic position recorded inside wins, as in the provider
+            self.spans[node] = (start, (self.line, self.column))
         if node in self.targets:
             self.left -= 1
             if self.left == 0:
@@ -46,12 +68,12 @@ class _StoppingState(PositionProvidingCodegenState):
     ) -> Iterator[None]:
         # The provider's version, without its `finally`: once stopped, the enclosing nodes are
         # left unrecorded (their end nodes were never generated).
-        start = CodePosition(self.line, self.column)
+        start = (self.line, self.column)
         yield
-        computed = self.provider._computed  # type: ignore[attr-defined]
-        start = computed[start_node].start if start_node is not None else start
-        end = computed[end_node].end if end_node is not None else CodePosition(self.line, self.column)
-        computed[node] = CodeRange(start, end)
+        if start_node is not None:
+            start = self.spans[start_node][0]
+        end = self.spans[end_node][1] if end_node is not None else (self.line, self.column)
+        self.spans[node] = (start, end)
 
 
 class Positions:
@@ -83,20 +105,19 @@ class Positions:
         else:
             sub = module.with_changes(header=(), body=(top,), footer=())
             base = self._start(cell, top) - len(getattr(top, "leading_lines", ())) - 1
-        provider = PositionProvider()
         state = _StoppingState(
-            default_indent=sub.default_indent, default_newline=sub.default_newline, provider=provider
+            default_indent=sub.default_indent, default_newline=sub.default_newline, provider=PositionProvider()
         )
         state.targets = nodes
         state.left = len(nodes)
+        state.spans = {}
         try:
             sub._codegen(state)
         except _Enough:
             pass
-        computed = provider._computed
         for node in nodes:
-            where = computed[node]
-            self._found[node] = (where.start.line + base + first_line - 1, where.start.column)
+            (line, column), _ = state.spans[node]
+            self._found[node] = (line + base + first_line - 1, column)
 
     def _start(self, cell: int | None, top: cst.CSTNode) -> int:
         """The line (1-based, within the cell) where a top-level statement's own code starts."""

@@ -87,7 +87,9 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
 
     texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
     texts.update(raw_texts)
-    plan = _prefilter(query).plan(texts) if prefilter else Plan(set(texts), set(texts))
+    # Built per project: its patterns come from the re module's cache after the first project.
+    shortcuts = Prefilter(query.tops, query.names)
+    plan = shortcuts.plan(texts) if prefilter else Plan(set(texts), set(texts))
     keep = set(plan.keep)
     for path in sorted(keep & set(notebooks)):
         try:
@@ -115,21 +117,13 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         # Files the prefilter passed over may still import the library without touching a change.
         # So may files that did not parse (Python 2), read by the same import-line test.
         result.uses_library = any(
-            _prefilter(query).imports_library(texts[p])
+            shortcuts.imports_library(texts[p])
             for p in texts
             if p not in resolver.files or resolver.files[p].result is None
         )
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
     return result
-
-
-def _prefilter(query: Query) -> Prefilter:
-    """One Prefilter per compiled query: the query is built once per worker."""
-    cached = query.__dict__.get("_prefilter")
-    if cached is None:
-        cached = query.__dict__["_prefilter"] = Prefilter(query.tops, query.names)
-    return cached
 
 
 def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[Finding]:

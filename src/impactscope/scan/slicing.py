@@ -48,6 +48,8 @@ _LINES = re.compile(r"(\r\n|\r|\n)")
 # in a string: such a statement counts as an import of the project's own modules.
 _DYNAMIC = frozenset({"import_module", "__import__"})
 _SCOPES = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)
+# Nodes that carry no name: contexts and operators (one hangs off nearly every expression).
+_LEAVES = (ast.expr_context, ast.operator, ast.unaryop, ast.cmpop, ast.boolop)
 
 
 class _Facts(NamedTuple):
@@ -268,7 +270,9 @@ def _walk(stmt: ast.stmt) -> Iterator[tuple[ast.AST, bool, frozenset[str]]]:
         elif isinstance(node, ast.Expr) and isinstance(node.value, ast.Constant) and isinstance(node.value.value, str):
             continue  # a docstring or a bare string: never evaluated, never read
         else:
-            stack.extend((child, in_function, params) for child in ast.iter_child_nodes(node))
+            for child in ast.iter_child_nodes(node):
+                if not isinstance(child, _LEAVES):
+                    stack.append((child, in_function, params))
 
 
 def _arguments(args: ast.arguments) -> list[ast.arg]:
