@@ -118,25 +118,31 @@ def _slice(statements: list[_Statement], members: frozenset[str], relays: frozen
             keep.add(i)
             if s.facts(relays).relay_import:
                 forward.add(i)
+    carried: set[str] = set().union(*(statements[i].facts(relays).binds for i in forward))
+    read: set[str] = set().union(*(statements[i].facts(relays).reads for i in keep))
+    defined: set[str] = set().union(*(statements[i].facts(relays).defines for i in keep))
+    # Sets grow as statements join, so a chain in source order settles in one pass; each further
+    # pass is needed only when something joined that an earlier statement depends on.
     changed = True
     while changed:
-        changed = False
-        carried = set().union(*(statements[i].facts(relays).binds for i in forward))
         if "*" in carried:
             return set(range(len(statements)))
-        read = set().union(*(statements[i].facts(relays).reads for i in keep))
-        defined = set().union(*(statements[i].facts(relays).defines for i in keep))
+        changed = False
         for i, s in enumerate(statements):
-            if i not in forward and s.reads_any(carried, relays):
-                keep.add(i)
+            if i in forward:
+                continue
+            if s.reads_any(carried, relays):
                 forward.add(i)
-                changed = True
-            elif i not in keep and s.words & read and s.facts(relays).binds & read:
+                carried |= s.facts(relays).binds
+            elif i in keep or not (
+                (s.words & read and s.facts(relays).binds & read) or s.reads_any(defined, relays)
+            ):
+                continue
+            if i not in keep:
                 keep.add(i)
-                changed = True
-            elif i not in keep and s.reads_any(defined, relays):
-                keep.add(i)
-                changed = True
+                read |= s.facts(relays).reads
+                defined |= s.facts(relays).defines
+            changed = True
     return keep
 
 
