@@ -101,9 +101,17 @@ def test_re_exports_reach_files_that_do_not_spell_the_member() -> None:
     }
     plan = prefilter.plan(texts)
     assert plan.keep == {"helpers.py", "main.py"}
-    # helpers.py is imported by main.py: read whole; main.py is imported by no one: narrowed.
-    assert plan.whole == {"helpers.py"}
+    # helpers.py is imported by main.py: narrowed, keeping what main.py may ask of it.
+    assert plan.whole == set() and plan.importable == {"helpers.py"}
     assert plan.relays == frozenset({"helpers", "main"})
+
+
+def test_star_imports_of_project_modules_keep_every_module_whole() -> None:
+    prefilter = Prefilter(["heronframe"], ["stack"])
+    texts = {"helpers.py": "from heronframe import stack as glue\n", "main.py": "from helpers import *\nglue([])\n"}
+    assert prefilter.plan(texts).whole == {"helpers.py", "main.py"}
+    texts["main.py"] = "from heronframe import *\nfrom helpers import glue\nglue([])\n"  # the library's own: fine
+    assert prefilter.plan(texts).whole == set()
 
 
 def test_relative_imports_keep_every_module_whole() -> None:

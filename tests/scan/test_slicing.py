@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -209,3 +210,85 @@ def test_property_narrowed_notebooks_find_what_whole_ones_find(cells: list[list[
     cut = ProjectResolver("p", QUERY, {"n.ipynb": narrow(notebook, QUERY.names, frozenset())})
     cut.analyse("n.ipynb")
     assert whole.files["n.ipynb"].findings == cut.files["n.ipynb"].findings
+
+
+# A module other files import: what it binds for them stays, with what that depends on.
+HELPER_POOL = [
+    "import heronframe as hf",
+    "from heronframe import merge_tables",
+    "glue = merge_tables",
+    "loader = hf.read_table",
+    "def load(p):\n    return hf.read_table(p)",
+    "def reshape(t):\n    return t.pivot(1, 2, fill=0)",
+    "unused = [1, 2, 3]",
+    "def local_only():\n    return 42",
+    "glue = None",
+    "class Box:\n    pass",
+    "cfg = Box()",
+    "def setup():\n    cfg.table = hf.read_table('z')",
+    "setup()",
+    "shared = loader('a')",
+    "__all__ = ['glue', 'load']",
+    "def init():\n    global late\n    late = hf.read_table('q')",
+    "init()",
+]
+IMPORTER_POOL = [
+    "from helpers import glue",
+    "from helpers import load, reshape",
+    "from helpers import cfg, shared",
+    "import helpers",
+    "glue([1])",
+    "load('x').pivot(1, 2, fill=0)",
+    "reshape(load('y'))",
+    "cfg.table.pivot(1, 2, fill=0)",
+    "shared.pivot(1, 2, 3, 4)",
+    "helpers.glue([2])",
+    "helpers.late.pivot(fill=1)",
+    "helpers.loader('b').pivot(1, 2, fill=0)",
+]
+
+
+def _project_findings(helpers: Source, main: Source) -> list:
+    resolver = ProjectResolver("p", QUERY, {"helpers.py": helpers, "main.py": main})
+    for path in ("helpers.py", "main.py"):
+        resolver.analyse(path)
+    resolver.finish()
+    return sorted(f for fa in resolver.files.values() for f in fa.findings)
+
+
+def _narrow_both(helpers: Source, main: Source) -> tuple[Source, Source]:
+    text = main.cells[0].code
+    relays = frozenset({"helpers", "main"})
+    spelled = lambda name: re.search(rf"(?<!\w){re.escape(name)}(?!\w)", text) is not None  # noqa: E731
+    return narrow(helpers, QUERY.names, relays, spelled), narrow(main, QUERY.names, relays)
+
+
+def test_an_imported_module_keeps_what_importers_name() -> None:
+    helpers = Source("helpers.py", "module", (CodeCell(None, "\n".join(HELPER_POOL) + "\n"),))
+    main = _module("from helpers import glue, cfg\nimport helpers\nglue([1])\ncfg.table.pivot(1, 2, fill=0)\nhelpers.late.pivot(fill=1)\n")
+    cut_helpers, cut_main = _narrow_both(helpers, main)
+    kept = [line for line in cut_helpers.cells[0].code.splitlines() if line]
+    assert "unused = [1, 2, 3]" not in kept and "    return 42" not in kept
+    assert "glue = None" in kept and "setup()" in kept and "init()" in kept
+    assert _project_findings(cut_helpers, cut_main) == _project_findings(helpers, main) != []
+
+
+def _most_of(pool: list[str]) -> st.SearchStrategy[list[str]]:
+    """Most of the pool, in any order: dependencies between statements come up often."""
+    return st.tuples(st.permutations(pool), st.lists(st.booleans(), min_size=len(pool), max_size=len(pool))).map(
+        lambda drawn: [s for s, dropped in zip(*drawn) if not dropped or s.startswith("import")]
+    )
+
+
+@settings(max_examples=200, deadline=None)
+@given(_most_of(HELPER_POOL), _most_of(IMPORTER_POOL))
+def test_property_imported_modules_narrowed_by_what_importers_spell(helper: list[str], importer: list[str]) -> None:
+    helpers = Source("helpers.py", "module", (CodeCell(None, "\n".join(helper) + "\n"),))
+    main = _module("\n".join(importer) + "\n")
+    assert _project_findings(*_narrow_both(helpers, main)) == _project_findings(helpers, main)
+
+
+@settings(max_examples=150, deadline=None)
+@given(_most_of(POOL))
+def test_property_large_programs_in_any_order(statements: list[str]) -> None:
+    _same(_module("\n".join(statements) + "\n"))

@@ -27,6 +27,7 @@ from typing import Iterable, Mapping
 from impactscope.resolve.project import module_names
 
 _RELATIVE_IMPORT = re.compile(r"(?m)^[ \t]*from[ \t]+\.")
+_STAR_IMPORT = re.compile(r"(?m)^[ \t]*from[ \t]+([\w.]+)[ \t]+import[ \t]*\*")
 
 
 def _any_word(names: Iterable[str]) -> re.Pattern[str] | None:
@@ -40,15 +41,19 @@ def _any_word(names: Iterable[str]) -> re.Pattern[str] | None:
 class Plan:
     """What the prefilter decided for one project.
 
-    `keep`: the files worth resolving. `whole`: those of them other project files may import,
-    read whole (their bindings are what importers see); the rest may be narrowed to the
-    statements that matter. `relays`: the leaf names of kept modules, the only project modules
-    through which a changed member can reach another file without its name being spelled there.
+    `keep`: the files worth resolving. `whole`: those of them to read whole (package
+    `__init__` files, and every module of a project with relative or star imports of its own
+    modules); the rest may be narrowed to the statements that matter. `importable`: the narrowed
+    modules another project file names, whose statements binding a name some other file spells
+    stay too (importers see those bindings). `relays`: the leaf names of kept modules, the only
+    project modules through which a changed member can reach another file without its name being
+    spelled there.
     """
 
     keep: set[str] = field(default_factory=set)
     whole: set[str] = field(default_factory=set)
     relays: frozenset[str] = frozenset()
+    importable: set[str] = field(default_factory=set)
 
 
 class Prefilter:
@@ -105,18 +110,28 @@ class Prefilter:
             kept |= relative & touching
             kept = _close(kept, texts, leaf, within=touching)
         modules = {path for path in kept if not path.endswith(".ipynb")}
-        whole = modules
-        if not relative and modules:
-            leaves = {leaf[path] for path in modules if leaf[path]}
-            mentioned: dict[str, set[str]] = {}
-            for path, text in texts.items():
-                for name in _mentioned(text, leaves):
-                    mentioned.setdefault(name, set()).add(path)
-            whole = {
-                path for path in modules
-                if path.endswith("__init__.py") or mentioned.get(leaf[path], set()) - {path}
-            }
-        return Plan(kept, whole, frozenset(leaf[path] for path in modules if leaf[path]))
+        relays = frozenset(leaf[path] for path in modules if leaf[path])
+        if relative or self._star_imports_project(texts.values()):
+            # Any module may be reached by a name no file spells: read them all whole.
+            return Plan(kept, modules, relays)
+        leaves = {leaf[path] for path in modules if leaf[path]}
+        mentioned: dict[str, set[str]] = {}
+        for path, text in texts.items():
+            for name in _mentioned(text, leaves):
+                mentioned.setdefault(name, set()).add(path)
+        whole = {path for path in modules if path.endswith("__init__.py")}
+        importable = {path for path in modules - whole if mentioned.get(leaf[path], set()) - {path}}
+        return Plan(kept, whole, relays, importable)
+
+    def _star_imports_project(self, texts: Iterable[str]) -> bool:
+        """Whether some file star-imports a module other than the library's."""
+        for text in texts:
+            if "*" not in text:
+                continue
+            for module in _STAR_IMPORT.findall(text):
+                if module.split(".")[0] not in self._tops:
+                    return True
+        return False
 
 
 def _mentioned(text: str, names: set[str]) -> set[str]:

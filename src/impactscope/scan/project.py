@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 import hashlib
+import re
 from dataclasses import dataclass, field
+from typing import Callable
 
 from impactscope.corpus.roots import Project
 from impactscope.corpus.sources import Source, SourceError, notebook_text, read_notebook, read_python
@@ -100,7 +102,8 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             keep.discard(path)
     if narrowing:
         for path in keep - plan.whole:
-            sources[path] = narrow(sources[path], query.names, plan.relays)
+            exported = _spelled_elsewhere(texts, path) if path in plan.importable else None
+            sources[path] = narrow(sources[path], query.names, plan.relays, exported)
     resolver = ProjectResolver(project.name, query, sources)
     for path in sorted(keep):
         resolver.analyse(path)
@@ -124,6 +127,17 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
     return result
+
+
+def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool]:
+    """Whether a file of the project other than `path` spells a name as a whole word."""
+    others = [text for other, text in texts.items() if other != path]
+
+    def spelled(name: str) -> bool:
+        word = re.compile(rf"(?<![\w]){re.escape(name)}(?![\w])")
+        return any(name in text and word.search(text) for text in others)
+
+    return spelled
 
 
 def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[Finding]:

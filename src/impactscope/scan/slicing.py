@@ -26,11 +26,13 @@ can hold no finding and cannot change one. "Reads" is every identifier of the st
 literals (string annotations and dynamic imports are read by the resolver); comments and bare
 string statements (docstrings) are never evaluated and do not count.
 
-Only files no other project file can import are narrowed: a module's bindings are what its
-importers see, so a module named (as a word) by another file of its project, a package
-`__init__`, or any module of a project with relative imports is read whole. Notebooks are never
-imported. A file `ast` cannot read (Python 2, syntax newer than the running Python) is left
-whole too, and libcst decides.
+A module's bindings are what its importers see. An importer reaches a binding only by spelling
+its name (`from m import name`, `m.name`, `getattr(m, "name")`), so in a module another file of
+its project names, the statements binding a name some other file spells are kept as well, with
+what they depend on. Read whole: package `__init__` files, and every module of a project with
+relative imports or star imports of its own modules (names reached without being spelled).
+Notebooks are never imported. A file `ast` cannot read (Python 2, syntax newer than the running
+Python) is left whole too, and libcst decides.
 """
 
 from __future__ import annotations
@@ -38,7 +40,7 @@ from __future__ import annotations
 import ast
 import re
 from dataclasses import replace
-from typing import AbstractSet, Iterable, Iterator, NamedTuple
+from typing import AbstractSet, Callable, Iterable, Iterator, NamedTuple
 
 from impactscope.corpus.sources import Source
 
@@ -90,16 +92,32 @@ class _Statement:
         return bool(self.words & names) and bool(self.facts(relays).reads & names)
 
 
-def narrow(source: Source, members: frozenset[str], relays: frozenset[str]) -> Source:
+def narrow(
+    source: Source,
+    members: frozenset[str],
+    relays: frozenset[str],
+    exported: Callable[[str], bool] | None = None,
+) -> Source:
     """`source` with the top-level statements that cannot matter replaced by blank lines.
 
     `members`: the changed members' own names; `relays`: the leaf names of the project modules
-    that may relay a member (see `Plan.relays`). Each cell of the result records the first
-    lines of its statements, for positions."""
+    that may relay a member (see `Plan.relays`). For a module other files import, `exported`
+    says whether some other file spells a name: statements that bind such a name (and
+    `__all__`) stay, since importers see them. Each cell of the result records the first lines
+    of its statements, for positions."""
     statements = _statements(source)
     if statements is None:
         return source
-    keep = _slice(statements, members, relays)
+    wanted: set[int] = set()
+    if exported is not None:
+        asked: dict[str, bool] = {"__all__": True}
+        for i, s in enumerate(statements):
+            for name in s.facts(relays).binds:
+                if name not in asked:
+                    asked[name] = exported(name)
+                if asked[name]:
+                    wanted.add(i)
+    keep = _slice(statements, members, relays, wanted)
     cells = []
     for position, cell in enumerate(source.cells):
         dropped = [s for i, s in enumerate(statements) if s.cell == position and i not in keep]
@@ -109,10 +127,12 @@ def narrow(source: Source, members: frozenset[str], relays: frozenset[str]) -> S
     return replace(source, cells=tuple(cells))
 
 
-def _slice(statements: list[_Statement], members: frozenset[str], relays: frozenset[str]) -> set[int]:
+def _slice(
+    statements: list[_Statement], members: frozenset[str], relays: frozenset[str], wanted: set[int]
+) -> set[int]:
     spelled = members | _DYNAMIC
     forward = {i for i, s in enumerate(statements) if s.reads_any(spelled, relays)}
-    keep = set(forward)
+    keep = forward | wanted
     for i, s in enumerate(statements):
         if "import" in s.words and s.facts(relays).imports:
             keep.add(i)
