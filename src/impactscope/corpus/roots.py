@@ -275,11 +275,13 @@ def _classify(path: str, size: int, library: str, layout: _Layout | None) -> str
     if "node_modules" in segments:
         return "node modules"
     directories = set(parts[:-1])
-    ancestors = ["/".join(parts[:depth]) for depth in range(len(parts))]
     if layout is None:
         venv = bool(directories & (_INSTALL_DIRS | _VENV_NAMES))
         vendored = library in directories
+    elif not layout.venvs and not layout.vendored:  # the usual project: no ancestor to look up
+        venv, vendored = bool(directories & _INSTALL_DIRS), False
     else:
+        ancestors = ["/".join(parts[:depth]) for depth in range(len(parts))]
         venv = bool(directories & _INSTALL_DIRS) or any(d in layout.venvs for d in ancestors)
         vendored = any(d in layout.vendored for d in ancestors)
     if venv:
@@ -301,7 +303,8 @@ def _classified(entries: Iterable[Entry], library: str) -> Iterator[Entry]:
     for entry in ordered:
         if entry.skip is None and entry.error is None:
             reason = _classify(entry.path, entry.size, library, layout)
-            entry = dataclasses.replace(entry, skip=reason)
+            if reason is not None:
+                entry = dataclasses.replace(entry, skip=reason)
         yield entry
 
 
