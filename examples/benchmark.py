@@ -36,54 +36,13 @@ import sys
 import tempfile
 import time
 from dataclasses import dataclass
+from importlib import resources
 from pathlib import Path
 from typing import Any, Callable, Iterator
 
-TYPICAL = """\
-# Benchmark change list, typical case: members with names specific to the library.
-[library]
-name = "heronframe"
-release = "3.0"
-
-[types]
-"heronframe.read_table" = "heronframe.Table"
-"heronframe.Table" = "heronframe.Table"
-
-[[change]]
-id = "HF-5"
-member = "heronframe.Table.pivot"
-kind = "parameter-renamed"
-parameter = "fill"
-new_parameter = "fill_value"
-position = 3
-
-[[change]]
-id = "HF-9"
-member = "heronframe.merge_tables"
-kind = "removed"
-replacement = "heronframe.Table.append_rows"
-"""
-
-WORST = """\
-# Benchmark change list, worst case: changed names are common words most files contain.
-[library]
-name = "heronframe"
-release = "3.0"
-
-[types]
-"heronframe.read_table" = "heronframe.Table"
-"heronframe.Table" = "heronframe.Table"
-
-[[change]]
-id = "W-1"
-member = "heronframe.Table.append"
-kind = "removed"
-
-[[change]]
-id = "W-2"
-member = "heronframe.Table.copy"
-kind = "behaviour-changed"
-"""
+# The built-in change lists are demo data, shared with the tests of the shortcuts.
+TYPICAL = (resources.files("impactscope.demo") / "bench-typical.toml").read_text(encoding="utf-8")
+WORST = (resources.files("impactscope.demo") / "bench-common-names.toml").read_text(encoding="utf-8")
 
 CHUNK_PROJECTS = 600  # the demo generator draws names from a pool of 640
 FILLER_FILES = 3  # keeps about 30% of the files using the library

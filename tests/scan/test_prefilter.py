@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pytest
 
-from impactscope.changes import load_change_list, parse_change_list
+from impactscope.changes import load_change_list
 from impactscope.corpus.roots import discover
 from impactscope.demo import generate_corpus
 from impactscope.demo.run import demo_changes_path
@@ -15,28 +15,6 @@ from impactscope.scan.prefilter import Prefilter
 from impactscope.scan import project as project_module
 from impactscope.scan import slicing
 from impactscope.scan.project import scan_project
-
-# Changed members named like methods of builtin objects, which most files spell.
-COMMON_NAMES = b"""\
-[library]
-name = "heronframe"
-release = "3.0"
-
-[types]
-"heronframe.read_table" = "heronframe.Table"
-"heronframe.Table" = "heronframe.Table"
-
-[[change]]
-id = "W-1"
-member = "heronframe.Table.append"
-kind = "removed"
-
-[[change]]
-id = "W-2"
-member = "heronframe.Table.copy"
-kind = "behaviour-changed"
-"""
-
 
 @pytest.fixture(scope="module")
 def corpus(tmp_path_factory: pytest.TempPathFactory) -> Path:
@@ -48,7 +26,8 @@ def corpus(tmp_path_factory: pytest.TempPathFactory) -> Path:
 def _queries() -> dict[str, Query]:
     return {
         "demo change list": Query(load_change_list(demo_changes_path())),
-        "common names": Query(parse_change_list(COMMON_NAMES, Path("common.toml"))),
+        # Changed members named like methods of builtin objects, which most files spell.
+        "common names": Query(load_change_list(demo_changes_path("bench-common-names.toml"))),
     }
 
 

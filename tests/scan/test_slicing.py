@@ -3,42 +3,19 @@
 from __future__ import annotations
 
 import re
-from pathlib import Path
 
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from impactscope.changes import parse_change_list
+from impactscope.changes import load_change_list
 from impactscope.corpus.sources import CodeCell, Source
+from impactscope.demo.run import demo_changes_path
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
 from impactscope.scan.slicing import narrow
 
-CHANGES = b"""\
-[library]
-name = "heronframe"
-release = "3.0"
-
-[types]
-"heronframe.read_table" = "heronframe.Table"
-"heronframe.Table" = "heronframe.Table"
-
-[[change]]
-id = "HF-5"
-member = "heronframe.Table.pivot"
-kind = "parameter-renamed"
-parameter = "fill"
-new_parameter = "fill_value"
-position = 3
-
-[[change]]
-id = "HF-9"
-member = "heronframe.merge_tables"
-kind = "removed"
-"""
-
-QUERY = Query(parse_change_list(CHANGES, Path("changes.toml")))
+QUERY = Query(load_change_list(demo_changes_path("bench-typical.toml")))  # pivot, merge_tables
 HELPERS = "from heronframe import merge_tables as relay\nimport heronframe as hf\n"
 
 

@@ -10,8 +10,10 @@ from typing import Any, Callable, Iterable
 from impactscope.findings import Finding
 
 
-def demo_changes_path() -> Path:
-    return Path(str(resources.files("impactscope.demo") / "changes.toml"))
+def demo_changes_path(name: str = "changes.toml") -> Path:
+    """A change list of the demo: `changes.toml` (one change of every kind), or the benchmark's
+    `bench-typical.toml` and `bench-common-names.toml`."""
+    return Path(str(resources.files("impactscope.demo") / name))
 
 
 def score(findings: Iterable[Finding], expected: Iterable[dict[str, Any]], change_ids: Iterable[str]) -> dict[str, dict[str, float]]:
