@@ -1,3 +1,3 @@
 """impactscope: size the downstream impact of planned changes to a Python library's public API."""
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
