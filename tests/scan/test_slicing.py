@@ -269,3 +269,16 @@ def test_property_imported_modules_narrowed_by_what_importers_spell(helper: list
 @given(_most_of(POOL))
 def test_property_large_programs_in_any_order(statements: list[str]) -> None:
     _same(_module("\n".join(statements) + "\n"))
+
+
+@settings(max_examples=150, deadline=None)
+@given(_most_of(POOL), st.sampled_from(["\n", "\r\n", "\r"]), st.booleans())
+def test_property_lines_stay_in_place_whatever_the_line_ends(statements: list[str], end: str, trailing: bool) -> None:
+    # Python counts lines at \n, \r\n and \r (the Language Reference, 2.1.2 "Physical lines").
+    code = end.join("\n".join(statements).split("\n")) + (end if trailing else "")
+    narrowed = narrow(_module(code), QUERY.names, frozenset()).cells[0].code
+    before, after = re.split(r"\r\n|\r|\n", code), re.split(r"\r\n|\r|\n", narrowed)
+    assert len(before) == len(after)
+    assert all(b == a or a == "" for b, a in zip(before, after))
+    assert re.findall(r"\r\n|\r|\n", code) == re.findall(r"\r\n|\r|\n", narrowed)
+    _same(_module(code))
