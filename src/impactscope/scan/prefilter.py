@@ -74,7 +74,7 @@ class Prefilter:
     def imports_library(self, text: str) -> bool:
         """A line-level test for files that were not resolved: an import statement of the library,
         or an import by a call (`importlib.import_module`, `__import__`) that names it."""
-        return bool(self._tops) and self._import_line.search(text) is not None
+        return any(top in text for top in self._tops) and self._import_line.search(text) is not None
 
     def mentions_library(self, text: str) -> bool:
         return any(top in text for top in self._tops) and self._library is not None and (
