@@ -40,7 +40,7 @@ from __future__ import annotations
 import ast
 import re
 from dataclasses import replace
-from typing import AbstractSet, Callable, Iterable, Iterator, NamedTuple
+from typing import AbstractSet, Callable, Iterable, NamedTuple
 
 from impactscope.corpus.sources import Source
 
@@ -198,31 +198,79 @@ def _statements(source: Source) -> list[_Statement] | None:
 
 def _facts(stmt: ast.stmt, relays: frozenset[str]) -> _Facts:
     """What one statement binds at module level (the Python Language Reference, 4.2.1 "Binding
-    of names"), stores into, reads and imports."""
+    of names"), stores into, reads and imports.
+
+    One walk over the tree, carrying whether a node sits in a function or class body (a scope of
+    its own) and the parameters of the innermost function around it. The commonest nodes (names,
+    attributes, constants, calls) are handled first, by exact type: this runs on most statements
+    of every narrowed file."""
     binds: set[str] = set()
     reads: set[str] = set()
     defines: set[str] = set()
     imports = relay_import = False
-    for node, in_function, params in _walk(stmt):
-        if isinstance(node, ast.Name):
-            reads.add(node.id)
-            if isinstance(node.ctx, (ast.Store, ast.Del)) and not in_function:
-                binds.add(node.id)
-        elif isinstance(node, ast.Attribute):
-            reads.add(node.attr)
-            if isinstance(node.ctx, (ast.Store, ast.Del)):
-                root = _root(node)
+    stack: list[tuple[ast.AST, bool, frozenset[str]]] = [(stmt, False, frozenset())]
+    push = stack.append
+    while stack:
+        node, in_function, params = stack.pop()
+        kind = type(node)
+        if kind is ast.Name:
+            reads.add(node.id)  # type: ignore[attr-defined]
+            if type(node.ctx) is not ast.Load and not in_function:  # type: ignore[attr-defined]
+                binds.add(node.id)  # type: ignore[attr-defined]
+            continue
+        if kind is ast.Attribute or kind is ast.Subscript:
+            if kind is ast.Attribute:
+                reads.add(node.attr)  # type: ignore[attr-defined]
+            if type(node.ctx) is not ast.Load:  # type: ignore[attr-defined]
+                root = _root(node)  # type: ignore[arg-type]
                 if root is not None and root not in params:
                     binds.add(root)
-        elif isinstance(node, ast.Subscript):
-            if isinstance(node.ctx, (ast.Store, ast.Del)):
-                root = _root(node)
-                if root is not None and root not in params:
-                    binds.add(root)
-        elif isinstance(node, ast.Constant):
-            if isinstance(node.value, str):
-                reads.update(_IDENTIFIER.findall(node.value))  # string annotations, dynamic imports
-        elif isinstance(node, ast.keyword):
+            push((node.value, in_function, params))  # type: ignore[attr-defined]
+            if kind is ast.Subscript:
+                push((node.slice, in_function, params))  # type: ignore[attr-defined]
+            continue
+        if kind is ast.Constant:
+            if type(node.value) is str:  # type: ignore[attr-defined]
+                reads.update(_IDENTIFIER.findall(node.value))  # type: ignore[attr-defined]  # string annotations, dynamic imports
+            continue
+        if kind is ast.Call:
+            push((node.func, in_function, params))  # type: ignore[attr-defined]
+            for arg in node.args:  # type: ignore[attr-defined]
+                push((arg, in_function, params))
+            for kw in node.keywords:  # type: ignore[attr-defined]
+                if kw.arg:
+                    reads.add(kw.arg)
+                push((kw.value, in_function, params))
+            continue
+        if kind is ast.Expr and type(node.value) is ast.Constant and type(node.value.value) is str:  # type: ignore[attr-defined]
+            continue  # a docstring or a bare string: never evaluated, never read
+        if isinstance(node, _SCOPES):
+            if not isinstance(node, ast.Lambda):
+                reads.add(node.name)
+                if not in_function:
+                    binds.add(node.name)
+                    defines.add(node.name)
+            inner = frozenset(a.arg for a in _arguments(node.args))
+            # Decorators, defaults and annotations are evaluated where the definition is.
+            outside = [*getattr(node, "decorator_list", ()), *node.args.defaults,
+                       *(d for d in node.args.kw_defaults if d is not None)]
+            if not isinstance(node, ast.Lambda):
+                outside += [a.annotation for a in _arguments(node.args) if a.annotation is not None]
+                if node.returns is not None:
+                    outside.append(node.returns)
+            body = node.body if isinstance(node.body, list) else [node.body]
+            stack.extend((child, in_function, params) for child in outside)
+            stack.extend((child, True, inner) for child in body)
+            continue
+        if kind is ast.ClassDef:
+            reads.add(node.name)  # type: ignore[attr-defined]
+            if not in_function:
+                binds.add(node.name)  # type: ignore[attr-defined]
+                defines.add(node.name)  # type: ignore[attr-defined]
+            stack.extend((child, in_function, params) for child in [*node.decorator_list, *node.bases, *node.keywords])  # type: ignore[attr-defined]
+            stack.extend((child, True, params) for child in node.body)  # type: ignore[attr-defined]
+            continue
+        if isinstance(node, ast.keyword):
             if node.arg:
                 reads.add(node.arg)
         elif isinstance(node, ast.arg):
@@ -245,11 +293,6 @@ def _facts(stmt: ast.stmt, relays: frozenset[str]) -> _Facts:
         elif isinstance(node, (ast.Global, ast.Nonlocal)):
             binds.update(node.names)
             reads.update(node.names)
-        elif isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
-            reads.add(node.name)
-            if not in_function:
-                binds.add(node.name)
-                defines.add(node.name)
         elif isinstance(node, (ast.ExceptHandler, ast.MatchAs, ast.MatchStar)):
             if node.name:
                 reads.add(node.name)
@@ -262,6 +305,9 @@ def _facts(stmt: ast.stmt, relays: frozenset[str]) -> _Facts:
                     binds.add(node.rest)
         elif isinstance(node, ast.MatchClass):
             reads.update(node.kwd_attrs)
+        for child in ast.iter_child_nodes(node):
+            if not isinstance(child, _LEAVES):
+                push((child, in_function, params))
     return _Facts(frozenset(binds), frozenset(reads), imports, relay_import, frozenset(defines))
 
 
@@ -269,36 +315,6 @@ def _root(node: ast.expr) -> str | None:
     while isinstance(node, (ast.Attribute, ast.Subscript)):
         node = node.value
     return node.id if isinstance(node, ast.Name) else None
-
-
-def _walk(stmt: ast.stmt) -> Iterator[tuple[ast.AST, bool, frozenset[str]]]:
-    """Every node with whether it sits in a function or class body (a scope of its own) and the
-    parameters of the innermost function around it."""
-    stack: list[tuple[ast.AST, bool, frozenset[str]]] = [(stmt, False, frozenset())]
-    while stack:
-        node, in_function, params = stack.pop()
-        yield node, in_function, params
-        if isinstance(node, _SCOPES):
-            inner = frozenset(a.arg for a in _arguments(node.args))
-            # Decorators, defaults and annotations are evaluated where the definition is.
-            outside = [*getattr(node, "decorator_list", ()), *node.args.defaults,
-                       *(d for d in node.args.kw_defaults if d is not None)]
-            if not isinstance(node, ast.Lambda):
-                outside += [a.annotation for a in _arguments(node.args) if a.annotation is not None]
-                if node.returns is not None:
-                    outside.append(node.returns)
-            body = node.body if isinstance(node.body, list) else [node.body]
-            stack.extend((child, in_function, params) for child in outside)
-            stack.extend((child, True, inner) for child in body)
-        elif isinstance(node, ast.ClassDef):
-            stack.extend((child, in_function, params) for child in [*node.decorator_list, *node.bases, *node.keywords])
-            stack.extend((child, True, params) for child in node.body)
-        elif isinstance(node, ast.Expr) and isinstance(node.value, ast.Constant) and isinstance(node.value.value, str):
-            continue  # a docstring or a bare string: never evaluated, never read
-        else:
-            for child in ast.iter_child_nodes(node):
-                if not isinstance(child, _LEAVES):
-                    stack.append((child, in_function, params))
 
 
 def _arguments(args: ast.arguments) -> list[ast.arg]:
