@@ -139,13 +139,15 @@ def v_ast(roots: list[Path], changes: Path, work: Path) -> int:
     return files
 
 
-def v_naive(roots: list[Path], changes: Path, work: Path) -> int:
+def v_naive(roots: list[Path], changes: Path, work: Path, also: Path | None = None) -> int:
     import libcst as cst
     from libcst.metadata import MetadataWrapper, PositionProvider, QualifiedNameProvider
 
     from impactscope.changes import load_change_list
 
-    lists = [changes, *EXTRA_LISTS]
+    # `also` (from --also-changes): a second list matched in the same pass. The naive cost is
+    # parsing and resolving every file, which does not depend on the list, so one pass serves two.
+    lists = [changes] if also is None else [changes, also]
     member_lists = [[c.member for c in load_change_list(path).changes] for path in lists]
     files = 0
     hits = [0] * len(lists)
@@ -168,11 +170,6 @@ def v_naive(roots: list[Path], changes: Path, work: Path) -> int:
                             _ = positions.get(node)
     print(f"naive matches: {hits}", file=sys.stderr)
     return files
-
-
-# Change lists the naive pass matches as well as --changes (set from --also-changes): its cost is
-# parsing and resolving every file, which does not depend on the list, so one pass can serve two.
-EXTRA_LISTS: list[Path] = []
 
 
 def _scan(roots: list[Path], changes: Path, out: Path, jobs: int, fresh: bool) -> int:
@@ -201,9 +198,9 @@ VARIANTS: dict[str, Callable[[list[Path], Path, Path], int]] = {
 }
 
 
-def run_variant(name: str, roots: list[Path], changes: Path, work: Path) -> None:
+def run_variant(name: str, roots: list[Path], changes: Path, work: Path, also: Path | None = None) -> None:
     started = time.perf_counter()
-    files = VARIANTS[name](roots, changes, work)
+    files = v_naive(roots, changes, work, also) if name == "naive" else VARIANTS[name](roots, changes, work)
     seconds = time.perf_counter() - started
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
     children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
@@ -270,9 +267,7 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
 
     if args.variant:
-        if args.also_changes is not None:
-            EXTRA_LISTS.append(args.also_changes)
-        run_variant(args.variant, args.corpus, args.changes, args.work)
+        run_variant(args.variant, args.corpus, args.changes, args.work, args.also_changes)
         return 0
 
     if args.quick:

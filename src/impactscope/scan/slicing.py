@@ -118,12 +118,18 @@ def narrow(
                 if asked[name]:
                     wanted.add(i)
     keep = _slice(statements, members, relays, wanted)
-    cells = []
-    for position, cell in enumerate(source.cells):
-        dropped = [s for i, s in enumerate(statements) if s.cell == position and i not in keep]
-        lines = tuple(s.first for i, s in enumerate(statements) if s.cell == position and i in keep)
-        code = _blank(cell.code, dropped) if dropped else cell.code
-        cells.append(replace(cell, code=code, statement_lines=lines))
+    # One pass over the statements, grouped by cell (a notebook may have many of both).
+    dropped: list[list[_Statement]] = [[] for _ in source.cells]
+    kept: list[list[int]] = [[] for _ in source.cells]
+    for i, s in enumerate(statements):
+        if i in keep:
+            kept[s.cell].append(s.first)
+        else:
+            dropped[s.cell].append(s)
+    cells = [
+        replace(cell, code=_blank(cell.code, dropped[n]) if dropped[n] else cell.code, statement_lines=tuple(kept[n]))
+        for n, cell in enumerate(source.cells)
+    ]
     return replace(source, cells=tuple(cells))
 
 
