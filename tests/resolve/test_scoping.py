@@ -30,7 +30,8 @@ def test_parameter_shadows_the_global() -> None:
     found = findings(code)
     # §4.2.1: "If a name is bound in a block, it is a local variable of that block"; parameters
     # are bound in the function block (§4.2.1 lists formal parameters among binding constructs).
-    assert at(found, 3, "HF-2") in ("inferred", None)
+    # `stack` is a module's function: on a receiver that is not known, at most possible.
+    assert at(found, 3, "HF-2") in ("possible", None)
     assert at(found, 5, "HF-2") == "resolved"
 
 
@@ -38,7 +39,7 @@ def test_lambda_parameter_shadows_the_global() -> None:
     code = "import heronframe as hf\nf = lambda hf: hf.stack()\nhf.stack()\n"
     found = findings(code)
     # §6.14 (lambda) + §4.2.1: a lambda's parameters are local to its block.
-    assert at(found, 2, "HF-2") in ("inferred", None)
+    assert at(found, 2, "HF-2") in ("possible", None)  # a module's function on an unknown receiver
     assert at(found, 3, "HF-2") == "resolved"
 
 

@@ -30,6 +30,21 @@ from impactscope.resolve.values import (
 )
 
 _BUILTINS = frozenset(dir(builtins))
+# Built-in callables whose result is a built-in object whatever the arguments (the Python Library
+# Reference, "Built-in Functions" and "Built-in Types"). Not `abs`, `round`, `sum`, `min`, `max`,
+# `next`, `getattr`, `iter`, `copy`: they hand back what an argument's own methods return.
+_BUILTIN_RESULTS = frozenset(
+    f"builtins.{name}"
+    for name in (
+        "list", "dict", "set", "frozenset", "tuple", "str", "bytes", "bytearray", "int", "float",
+        "complex", "bool", "range", "len", "repr", "ascii", "sorted", "enumerate", "zip", "map",
+        "filter", "reversed", "open", "isinstance", "issubclass", "hasattr", "callable", "id",
+        "hash", "format", "chr", "ord", "hex", "oct", "bin", "input", "print", "dir", "vars",
+        "object", "memoryview", "slice",
+    )
+)
+# Member kinds whose attribute access yields a value (typed by the library), not a callable.
+_VALUE_KINDS = frozenset({"property", "constant", "unknown"})
 _PROPERTY_DECORATORS = frozenset({"builtins.property", "functools.cached_property"})
 _FIRST_PARAM_METHODS = frozenset({"method", "property"})
 # How many calls deep return values are inferred: deeper chains give "unknown" rather than
@@ -70,6 +85,9 @@ class Ref:
     bound: bool = False
     call: CallShape | None = None
     import_text: str = ""
+    # Library imports of the `try` whose `except ImportError:` handler holds this reference: the
+    # handler runs only when one of them fails, so on a release that keeps them all it never runs.
+    guard: tuple[str, ...] = ()
 
 
 class ProjectView(Protocol):
@@ -137,7 +155,8 @@ class ModuleEvaluator:
         self.result = ModuleResult()
         self.scope = Scope("module", None)
         self.cell: int | None = None
-        self._last: tuple[cst.CSTNode, Ref] | None = None
+        self._last: tuple[cst.CSTNode, list[Ref]] | None = None
+        self._guard: tuple[str, ...] = ()
         self._quiet = 0  # > 0 while a body is read only to learn what it returns
         self.top: cst.CSTNode | None = None
 
@@ -202,7 +221,7 @@ class ModuleEvaluator:
 
     # ------------------------------------------------------------------ references
     def _ref(self, node: cst.CSTNode, context: str, **kw: object) -> Ref:
-        ref = Ref(cell=self.cell, node=node, context=context, top=self.top, **kw)  # type: ignore[arg-type]
+        ref = Ref(cell=self.cell, node=node, context=context, top=self.top, guard=self._guard, **kw)  # type: ignore[arg-type]
         if not self._quiet:
             self.result.refs.append(ref)
         return ref
@@ -227,7 +246,14 @@ class ModuleEvaluator:
             self.class_def(s, scope)
         elif isinstance(s, cst.If):
             self.expr(s.test, scope)
-            self.branches(scope, [lambda: self.suite(s.body, scope), lambda: s.orelse and self.stmt(s.orelse, scope)])
+            narrowed = self._isinstance(s.test, scope)
+
+            def body() -> None:
+                if narrowed is not None:
+                    self.bind(scope, *narrowed)
+                self.suite(s.body, scope)
+
+            self.branches(scope, [body, lambda: s.orelse and self.stmt(s.orelse, scope)])
         elif isinstance(s, cst.Else):
             self.suite(s.body, scope)
         elif isinstance(s, cst.For):
@@ -250,6 +276,26 @@ class ModuleEvaluator:
             self.branches(scope, arms + [lambda: None])
         else:
             self.generic(s, scope)
+
+    def _isinstance(self, test: cst.BaseExpression, scope: Scope) -> tuple[str, Value] | None:
+        """`isinstance(name, lib.Class)` (also first in an `and`): inside the branch, `name` is an
+        instance of that class. Several classes in a tuple tell no one class."""
+        while isinstance(test, cst.BooleanOperation) and isinstance(test.operator, cst.And):
+            test = test.left
+        if not (isinstance(test, cst.Call) and len(test.args) == 2 and isinstance(test.args[0].value, cst.Name)):
+            return None
+        if test.args[0].star or test.args[1].star:
+            return None
+        func = self.expr(test.func, scope, record=False)
+        if not (isinstance(func, Foreign) and func.name == "builtins.isinstance"):
+            return None
+        cls = self.expr(test.args[1].value, scope, record=False)
+        name = test.args[0].value.value
+        if isinstance(cls, Lib) and self.q.model.kind(cls.name) in ("class", None):
+            return name, Inst(cls.name)
+        if isinstance(cls, UserClass):
+            return name, UserInst(cls)
+        return None
 
     def _entered(self, manager: Value) -> Value:
         """What `with manager as name` binds: `__enter__`'s return value."""
@@ -339,13 +385,20 @@ class ModuleEvaluator:
             self.suite(s.orelse.body, scope)
         after_body = scope.names
         merged = after_body
+        imported = _library_imports(s.body, self.q)
         for handler in s.handlers:
             scope.names = _merge(before, after_body)
             if handler.type is not None:
                 self.expr(handler.type, scope)
             if handler.name is not None:
                 self.assign(handler.name.name, UNKNOWN, scope)
-            self.suite(handler.body, scope)
+            outer = self._guard
+            if imported and _catches_import_error(handler):
+                self._guard = outer + imported
+            try:
+                self.suite(handler.body, scope)
+            finally:
+                self._guard = outer
             merged = _merge(merged, scope.names)
         scope.names = merged
         if s.finalbody is not None:
@@ -390,6 +443,11 @@ class ModuleEvaluator:
             scope.function_home().returns.append(value)
         elif isinstance(s, cst.Del):
             self.delete(s.target, scope)
+        elif isinstance(s, cst.Assert):
+            self.generic(s, scope)
+            narrowed = self._isinstance(s.test, scope)
+            if narrowed is not None:
+                self.bind(scope, *narrowed)
         elif isinstance(s, cst.Global):
             scope.globals.update(n.name.value for n in s.names)
         elif isinstance(s, cst.Nonlocal):
@@ -700,6 +758,8 @@ class ModuleEvaluator:
         if isinstance(node, cst.Lambda):
             self.lambda_expr(node, scope)
             return Foreign("lambda")
+        if isinstance(node, cst.Subscript):
+            return self.subscript(node, scope)
         if isinstance(node, cst.IfExp):
             self.expr(node.test, scope)
             return join(self.expr(node.body, scope), self.expr(node.orelse, scope))
@@ -715,6 +775,18 @@ class ModuleEvaluator:
         self.generic(node, scope)
         return UNKNOWN
 
+    def subscript(self, node: cst.Subscript, scope: Scope) -> Value:
+        """`x[key]`: for a library instance, what the library's `__getitem__` is typed to return
+        (column selection, `.loc[...]` indexers); anything else is not known."""
+        receiver = self.expr(node.value, scope)
+        for element in node.slice:
+            self.generic(element, scope)
+        if isinstance(receiver, Inst):
+            typed = self.q.model.returns(f"{receiver.cls}.__getitem__")
+            if typed is not None:
+                return Inst(typed)
+        return UNKNOWN
+
     def _name(self, node: cst.Name, scope: Scope, record: bool, context: str) -> Value:
         if node.value == "None":
             return UNKNOWN  # a placeholder that is usually rebound later: it tells nothing
@@ -723,7 +795,7 @@ class ModuleEvaluator:
         value = self.lookup(scope, node.value)
         if record and isinstance(value, Lib):
             ref = self._ref(node, context, name=value.name, receiver=value.name.rpartition(".")[0], bound=value.bound)
-            self._last = (node, ref)
+            self._last = (node, [ref])
         return value
 
     def _attribute_ref(
@@ -731,20 +803,42 @@ class ModuleEvaluator:
     ) -> Value:
         attr = node.attr.value
         value, how = self.attribute(receiver, attr)
-        if isinstance(value, Lib) and record:
-            ref = self._ref(node.attr, context, name=value.name, receiver=how, bound=value.bound)
-            self._last = (node, ref)
-        elif receiver is UNKNOWN and attr in self.q.names:
-            ref = self._ref(node.attr, context, attr=attr, receiver="?")
-            self._last = (node, ref)
+        refs: list[Ref] = []
+        named = how if isinstance(value, Inst) else None  # a typed attribute: its own path, kept
+        if record and (isinstance(value, Lib) or named is not None):
+            name = value.name if isinstance(value, Lib) else f"{named}.{attr}"
+            bound = value.bound if isinstance(value, Lib) else True
+            receiver_text = how if isinstance(value, Lib) else f"<{named}>"
+            refs.append(self._ref(node.attr, context, name=name, receiver=receiver_text, bound=bound))
+        if attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver)):
+            # The receiver is not proven to be anything in particular: the name alone decides.
+            refs.append(self._ref(node.attr, context, attr=attr, receiver="?"))
+        if refs:
+            self._last = (node, refs)
         return value
 
+    def _untyped(self, receiver: Value) -> bool:
+        """A library value whose own type is not known: an attribute reached through an instance
+        (a column, an attribute the source does not type) rather than a module or class path."""
+        if not isinstance(receiver, Lib) or not receiver.bound:
+            return False
+        kind = self.q.model.kind(receiver.name)
+        return kind not in ("module", "class", "method", "function", "classmethod", "staticmethod")
+
     def attribute(self, receiver: Value, attr: str) -> tuple[Value, str]:
-        """The value of `receiver.attr`, and how a pattern should name the receiver."""
+        """The value of `receiver.attr`, and how a pattern should name the receiver.
+
+        An attribute of a library instance that the library types (a property, a typed
+        attribute) is an instance of that type; then `how` is the receiver's class."""
         if isinstance(receiver, Lib):
             return Lib(f"{receiver.name}.{attr}", bound=receiver.bound), receiver.name
         if isinstance(receiver, Inst):
-            return Lib(f"{receiver.cls}.{attr}", bound=True), f"<{receiver.cls}>"
+            dotted = f"{receiver.cls}.{attr}"
+            if self.q.model.kind(dotted) in _VALUE_KINDS:
+                typed = self.q.model.returns(dotted)
+                if typed is not None:
+                    return Inst(typed), receiver.cls
+            return Lib(dotted, bound=True), f"<{receiver.cls}>"
         if isinstance(receiver, ProjMod):
             sub = f"{receiver.name}.{attr}"
             if self._is_project_module(sub):
@@ -782,7 +876,8 @@ class ModuleEvaluator:
         last = self._last
         shape = _shape(node.args)
         if last is not None and last[0] is node.func:
-            last[1].call = shape
+            for ref in last[1]:
+                ref.call = shape
         self._last = None
         for arg in node.args:
             self.expr(arg.value, scope)
@@ -798,6 +893,10 @@ class ModuleEvaluator:
         if isinstance(func, Foreign) and func.name == "builtins.super":
             owner = _method_owner(scope)
             return Super(owner) if owner is not None else UNKNOWN
+        if isinstance(func, Foreign) and func.name in _BUILTIN_RESULTS:
+            # `list()`, `dict(x)`, `len(x)`: the Language Reference's built-in types and functions
+            # return what they are documented to, whatever they are given.
+            return Foreign(f"{func.name}()")
         if isinstance(func, UserFunc):
             return self._call_user(func, scope)
         if isinstance(func, UserClass):
@@ -916,6 +1015,40 @@ def _unpacked(s: cst.Assign) -> Sequence[cst.BaseElement] | None:
         if any(isinstance(el.value, cst.StarredElement) or isinstance(el, cst.StarredElement) for el in t.elements):
             return None
     return elements
+
+
+def _library_imports(body: cst.BaseSuite, query: Query) -> tuple[str, ...]:
+    """Dotted library names a `try` body imports at its own level (the new location, usually)."""
+    out: list[str] = []
+    for stmt in body.body:
+        for small in stmt.body if isinstance(stmt, cst.SimpleStatementLine) else ():
+            if isinstance(small, cst.Import):
+                out.extend(
+                    dotted for alias in small.names
+                    if query.is_library_module(dotted := get_full_name_for_node(alias.name) or "")
+                )
+            elif isinstance(small, cst.ImportFrom) and not small.relative and small.module is not None:
+                module = get_full_name_for_node(small.module) or ""
+                if not query.is_library_module(module):
+                    continue
+                if isinstance(small.names, cst.ImportStar):
+                    out.append(module)
+                else:
+                    out.extend(f"{module}.{get_full_name_for_node(a.name)}" for a in small.names)
+    return tuple(out)
+
+
+def _catches_import_error(handler: cst.ExceptHandler | cst.ExceptStarHandler) -> bool:
+    """`except ImportError`, `except ModuleNotFoundError`, a tuple holding one, or a bare `except`."""
+    if handler.type is None:
+        return True
+    names = handler.type.elements if isinstance(handler.type, cst.Tuple) else [handler.type]
+    for el in names:
+        value = el.value if isinstance(el, cst.Element) else el
+        if get_full_name_for_node(value) in ("ImportError", "ModuleNotFoundError", "builtins.ImportError",
+                                             "Exception", "BaseException"):
+            return True
+    return False
 
 
 def _merge(a: dict[str, Value], b: dict[str, Value]) -> dict[str, Value]:

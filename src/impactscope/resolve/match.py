@@ -16,12 +16,19 @@ def judge(ref: Ref, query: Query) -> list[tuple[CompiledChange, Confidence]]:
     else:
         assert ref.attr is not None
         candidates = query.by_name(ref.attr)
+    # A use in an `except ImportError:` fallback runs only if the `try` import fails; when the
+    # release keeps every name that `try` imports, it never runs there: possible at most.
+    fallback = bool(ref.guard) and not any(query.match(name) for name in ref.guard)
     out: list[tuple[CompiledChange, Confidence]] = []
     for cc in candidates:
         if ref.name is None:
-            base = Confidence.INFERRED if query.is_specific(cc) else Confidence.POSSIBLE
+            # A module's function reached through an unknown receiver is some object's method.
+            specific = cc.parent_is_class and query.is_specific(cc)
+            base = Confidence.INFERRED if specific else Confidence.POSSIBLE
         confidence = _apply_rule(ref, cc, base, query)
         if confidence is not None:
+            if fallback:
+                confidence = min(confidence, Confidence.POSSIBLE)
             out.append((cc, confidence))
     return out
 

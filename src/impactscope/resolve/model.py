@@ -23,6 +23,13 @@ class LibraryModel(Protocol):
 
     def owners(self, attr: str) -> frozenset[str]: ...
 
+    def mro(self, cls: str) -> tuple[str, ...]: ...
+
+    def kind(self, dotted: str) -> str | None: ...
+
+    @property
+    def knows_kinds(self) -> bool: ...
+
 
 class TypesModel:
     """The model the change list alone gives: return types from `[types]`, nothing canonicalised."""
@@ -40,6 +47,7 @@ class TypesModel:
                 owners.setdefault(leaf, set()).add(parent)
         self._children = {k: tuple(sorted(v)) for k, v in children.items()}
         self._owners = {k: frozenset(v) for k, v in owners.items()}
+        self._tops = changes.top_modules
 
     def canonical(self, dotted: str) -> str:
         return dotted
@@ -56,6 +64,21 @@ class TypesModel:
 
     def owners(self, attr: str) -> frozenset[str]:
         return self._owners.get(attr, frozenset())
+
+    def mro(self, cls: str) -> tuple[str, ...]:
+        return (cls,) if self.is_class(cls) else ()
+
+    def kind(self, dotted: str) -> str | None:
+        """"class" or "module" where the change list says so; None for the rest (not known)."""
+        if self.is_class(dotted):
+            return "class"
+        if dotted in self._tops:
+            return "module"
+        return None
+
+    @property
+    def knows_kinds(self) -> bool:
+        return False
 
 
 class SurfaceModel:
@@ -96,6 +119,22 @@ class SurfaceModel:
 
     def owners(self, attr: str) -> frozenset[str]:
         return frozenset(self._surface.owners(attr))  # type: ignore[attr-defined]
+
+    def mro(self, cls: str) -> tuple[str, ...]:
+        if self._types.is_class(cls) and not self.is_class(cls):
+            return (cls,)
+        return tuple(self._surface.mro(cls))  # type: ignore[attr-defined]
+
+    def kind(self, dotted: str) -> str | None:
+        """The member's kind as the source defines it (module, class, method, property, ...)."""
+        member = self._surface.member(dotted)  # type: ignore[attr-defined]
+        if member is None:
+            return "class" if self._types.is_class(dotted) else None
+        return str(member.kind)
+
+    @property
+    def knows_kinds(self) -> bool:
+        return True
 
     def position(self, member: str, parameter: str) -> int | None:
         """The 0-based position of `parameter` (self excluded), from the member's signature."""

@@ -29,6 +29,7 @@ class CompiledChange:
     canonical: str
     parent_is_class: bool
     position: int | None  # from the change, else from the library's signature when known
+    owner: str | None = None  # the canonical class whose member this is (None: a module's member)
 
 
 class Query:
@@ -36,23 +37,38 @@ class Query:
         self.changes = changes
         self.model: LibraryModel = model if model is not None else library_model(changes)
         self.tops = changes.top_modules
-        self.compiled = tuple(
-            CompiledChange(
-                change=c,
-                canonical=self.model.canonical(c.member),
-                parent_is_class=self.model.is_class(self.model.canonical(c.member).rpartition(".")[0]),
-                position=self._position(c),
-            )
-            for c in changes.changes
-        )
+        self.compiled = tuple(self._compile(c) for c in changes.changes)
+        # A change is found three ways: by the path it is spelled with (a public path that
+        # re-exports a private module still names the change), by its defining place when it is a
+        # module's member, and by (class, attribute) when it is a class's member, so that two
+        # classes sharing one inherited definition keep their changes apart.
+        self._by_spelled: dict[str, list[CompiledChange]] = {}
         self._by_member: dict[str, list[CompiledChange]] = {}
+        self._by_owner: dict[tuple[str, str], list[CompiledChange]] = {}
         for cc in self.compiled:
-            self._by_member.setdefault(cc.canonical, []).append(cc)
+            self._by_spelled.setdefault(cc.change.member, []).append(cc)
+            if cc.owner is not None:
+                self._by_owner.setdefault((cc.owner, cc.change.name), []).append(cc)
+            else:
+                self._by_member.setdefault(cc.canonical, []).append(cc)
         self._by_name: dict[str, list[CompiledChange]] = {}
         for cc in self.compiled:
             self._by_name.setdefault(cc.change.name, []).append(cc)
         self.names = frozenset(self._by_name)
         self._common = builtin_attribute_names()
+
+    def _compile(self, c: Change) -> CompiledChange:
+        model = self.model
+        canonical = model.canonical(c.member)
+        parent = c.member.rpartition(".")[0]
+        owner = model.canonical(parent) if parent and model.is_class(parent) else None
+        parent_is_class = owner is not None or model.is_class(canonical.rpartition(".")[0])
+        if not parent_is_class and not model.knows_kinds and parent.rpartition(".")[2][:1].isupper():
+            # Without the library's source, a CapWords owner is taken for a class (PEP 8 naming,
+            # common practice): it decides only how unknown receivers are judged, never a proof.
+            parent_is_class = True
+        return CompiledChange(change=c, canonical=canonical, parent_is_class=parent_is_class,
+                              position=self._position(c), owner=owner)
 
     def _position(self, change: Change) -> int | None:
         if change.position is not None or change.parameter is None:
@@ -69,14 +85,27 @@ class Query:
         return dotted.split(".", 1)[0] in self.tops
 
     def match(self, dotted: str) -> list[CompiledChange]:
-        """Changes whose member is `dotted` or a prefix of it (a removed class takes its members)."""
-        name = self.model.canonical(dotted)
+        """Changes whose member is `dotted` or a prefix of it (a removed class takes its members).
+
+        Each prefix matches by its spelling, then by what it resolves to: a module's member by its
+        defining place, a class's member by the class and the classes it inherits from.
+        """
         out: list[CompiledChange] = []
-        probe = name
+        probe = dotted
         while probe:
-            out.extend(self._by_member.get(probe, ()))
-            probe = probe.rpartition(".")[0]
-        return out
+            out.extend(self._by_spelled.get(probe, ()))
+            parent, _, leaf = probe.rpartition(".")
+            owner = self.model.canonical(parent) if parent else ""
+            if parent and self.model.is_class(owner):
+                for cls in self.model.mro(owner) or (owner,):
+                    out.extend(self._by_owner.get((cls, leaf), ()))
+            else:
+                out.extend(self._by_member.get(self.model.canonical(probe), ()))
+            probe = parent
+        unique: dict[int, CompiledChange] = {}
+        for cc in out:
+            unique.setdefault(id(cc), cc)
+        return list(unique.values())
 
     def by_name(self, attr: str) -> list[CompiledChange]:
         return self._by_name.get(attr, [])
