@@ -22,6 +22,7 @@ from impactscope.resolve.values import (
     Lib,
     ProjMod,
     Super,
+    Tup,
     UserClass,
     UserFunc,
     UserInst,
@@ -249,9 +250,20 @@ class ModuleEvaluator:
             narrowed = self._isinstance(s.test, scope)
 
             def body() -> None:
-                if narrowed is not None:
-                    self.bind(scope, *narrowed)
+                if narrowed is None:
+                    self.suite(s.body, scope)
+                    return
+                name, value = narrowed
+                had = name in scope.names
+                prior = scope.names.get(name)
+                self.bind(scope, name, value)
                 self.suite(s.body, scope)
+                if scope.names.get(name) is value:
+                    # The check tells nothing after the branch (join would let it win there).
+                    if had:
+                        scope.names[name] = prior  # type: ignore[assignment]
+                    else:
+                        scope.names.pop(name, None)
 
             self.branches(scope, [body, lambda: s.orelse and self.stmt(s.orelse, scope)])
         elif isinstance(s, cst.Else):
@@ -468,9 +480,15 @@ class ModuleEvaluator:
         if isinstance(target, cst.Name):
             self.bind(scope, target.value, value)
         elif isinstance(target, (cst.Tuple, cst.List)):
-            for el in target.elements:
+            items: tuple[Value, ...] | None = None
+            if isinstance(value, Tup) and len(value.items) == len(target.elements) and not any(
+                isinstance(el.value, cst.StarredElement) for el in target.elements
+            ):
+                items = value.items
+            for i, el in enumerate(target.elements):
                 inner = el.value
-                self.assign(inner.value if isinstance(inner, cst.StarredElement) else inner, UNKNOWN, scope)
+                item = items[i] if items is not None else UNKNOWN
+                self.assign(inner.value if isinstance(inner, cst.StarredElement) else inner, item, scope)
         elif isinstance(target, cst.StarredElement):
             self.assign(target.value, UNKNOWN, scope)
         elif isinstance(target, cst.Attribute):
@@ -666,6 +684,8 @@ class ModuleEvaluator:
         decl = getattr(func, "returns_decl", None)
         if result is UNKNOWN and decl is not None:
             result = decl
+        elif isinstance(result, Tup) and isinstance(decl, Tup) and len(result.items) == len(decl.items):
+            result = Tup(tuple(d if r is UNKNOWN else r for r, d in zip(result.items, decl.items)))
         return result
 
     def class_def(self, node: cst.ClassDef, scope: Scope) -> None:
@@ -715,6 +735,14 @@ class ModuleEvaluator:
         if isinstance(expr, cst.Subscript):
             head = self.expr(expr.value, scope, record=record, context="annotation")
             head_name = head.name if isinstance(head, (Foreign, Lib)) else None
+            if head_name in ("typing.Tuple", "builtins.tuple"):
+                parts = [
+                    self.annotation(el.slice.value, scope, record) if isinstance(el.slice, cst.Index) else None
+                    for el in expr.slice
+                ]
+                if any(p is not None for p in parts):
+                    return Tup(tuple(p if p is not None else UNKNOWN for p in parts))
+                return None
             found: Value | None = None
             for el in expr.slice:
                 if isinstance(el.slice, cst.Index):
@@ -749,6 +777,8 @@ class ModuleEvaluator:
             return self.call(node, scope)
         if isinstance(node, (cst.SimpleString, cst.Integer, cst.Float, cst.Imaginary, cst.Ellipsis)):
             return Foreign("literal")
+        if isinstance(node, cst.Tuple) and not any(isinstance(el, cst.StarredElement) for el in node.elements):
+            return Tup(tuple(self.expr(el.value, scope) for el in node.elements))
         if isinstance(node, (cst.ConcatenatedString, cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
             self.generic(node, scope)
             return Foreign("literal")
@@ -785,6 +815,10 @@ class ModuleEvaluator:
             typed = self.q.model.returns(f"{receiver.cls}.__getitem__")
             if typed is not None:
                 return Inst(typed)
+        if isinstance(receiver, Tup) and len(node.slice) == 1 and isinstance(node.slice[0].slice, cst.Index):
+            key = node.slice[0].slice.value
+            if isinstance(key, cst.Integer) and int(key.value, 0) < len(receiver.items):
+                return receiver.items[int(key.value, 0)]
         return UNKNOWN
 
     def _name(self, node: cst.Name, scope: Scope, record: bool, context: str) -> Value:
@@ -866,7 +900,7 @@ class ModuleEvaluator:
             return Foreign(None), ""
         if isinstance(receiver, Foreign):
             return Foreign(f"{receiver.name}.{attr}" if receiver.name and receiver.name != "literal" else None), ""
-        if isinstance(receiver, UserFunc):
+        if isinstance(receiver, (UserFunc, Tup)):
             return Foreign(None), ""
         return UNKNOWN, "?"
 

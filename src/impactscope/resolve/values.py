@@ -99,6 +99,14 @@ class Super:
     cls: UserClass
 
 
+@dataclass(frozen=True)
+class Tup:
+    """A tuple whose items are known one by one (a tuple display, or a `tuple[...]` annotation):
+    unpacking it gives each target its own item."""
+
+    items: tuple["Value", ...]
+
+
 class _Unknown:
     __slots__ = ()
 
@@ -108,7 +116,7 @@ class _Unknown:
 
 UNKNOWN = _Unknown()
 
-Value = Union[Lib, Inst, Foreign, ProjMod, UserFunc, UserClass, UserInst, Super, _Unknown]
+Value = Union[Lib, Inst, Foreign, ProjMod, UserFunc, UserClass, UserInst, Super, Tup, _Unknown]
 
 
 def is_library(value: object) -> bool:

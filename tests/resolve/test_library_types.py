@@ -1,0 +1,343 @@
+"""Type flow and matching against a library read from its source, in the shapes real libraries
+have: typed properties and indexers, one definition shared by two classes, a public module that
+star-re-exports a private one, `isinstance` checks, `except ImportError:` fallbacks, and the rule
+that makes `possible` an upper bound.
+
+The library source below is invented test data in the demo's scenario (the fictional heronframe).
+"""
+
+from __future__ import annotations
+
+import textwrap
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from impactscope.changes import parse_change_list
+from impactscope.corpus.sources import read_python
+from impactscope.findings import Finding
+from impactscope.resolve.model import library_model
+from impactscope.resolve.project import ProjectResolver
+from impactscope.resolve.query import Query
+
+from .conftest import at
+
+LIBRARY = {
+    "heronframe/__init__.py": """
+        from heronframe.core.frame import Table
+        from heronframe.core.column import Column
+        from heronframe.io import read_table
+        from heronframe import util
+    """,
+    "heronframe/core/__init__.py": "",
+    "heronframe/core/base.py": """
+        class Shaped:
+            def merge_all(self, other):
+                return self
+
+            def describe(self):
+                return None
+    """,
+    "heronframe/core/frame.py": """
+        from heronframe.core.base import Shaped
+        from heronframe.core.column import Column
+
+
+        class _RowIndexer:
+            def __getitem__(self, key) -> "Table":
+                ...
+
+
+        class Table(Shaped):
+            def transpose(self) -> "Table":
+                return self
+
+            T = property(transpose)
+
+            @property
+            def kinds(self) -> Column:
+                return Column()
+
+            @property
+            def rows(self) -> _RowIndexer:
+                return _RowIndexer()
+
+            def __getitem__(self, key) -> Column:
+                return Column()
+
+            def stack_rows(self, other):
+                return self
+    """,
+    "heronframe/core/column.py": """
+        from heronframe.core.base import Shaped
+
+
+        class Column(Shaped):
+            def iter_pairs(self):
+                return iter(())
+    """,
+    "heronframe/io.py": """
+        from heronframe.core.frame import Table
+
+
+        def read_table(path) -> Table:
+            return Table()
+    """,
+    "heronframe/_checks.py": """
+        __all__ = ["assert_same"]
+
+
+        def assert_same(a, b):
+            pass
+    """,
+    "heronframe/util/__init__.py": "",
+    "heronframe/util/checks.py": """
+        from heronframe._checks import *  # noqa: F401,F403
+    """,
+}
+
+CHANGES = b'''
+[library]
+name = "heronframe"
+release = "3.0"
+
+[[change]]
+id = "T-STACK"
+member = "heronframe.Table.stack_rows"
+kind = "removed"
+
+[[change]]
+id = "T-MERGE"
+member = "heronframe.Table.merge_all"
+kind = "removed"
+
+[[change]]
+id = "C-MERGE"
+member = "heronframe.Column.merge_all"
+kind = "removed"
+
+[[change]]
+id = "C-PAIRS"
+member = "heronframe.Column.iter_pairs"
+kind = "removed"
+
+[[change]]
+id = "CHECKS"
+member = "heronframe.util.checks"
+kind = "removed"
+'''
+
+
+@pytest.fixture(scope="module")
+def query(tmp_path_factory: pytest.TempPathFactory) -> Query:
+    root = tmp_path_factory.mktemp("lib")
+    for path, text in LIBRARY.items():
+        target = root / path
+        target.parent.mkdir(parents=True, exist_ok=True)
+        target.write_text(textwrap.dedent(text).lstrip("\n"))
+    changes = parse_change_list(CHANGES, Path("changes.toml"))
+    return Query(changes, library_model(changes, source=root / "heronframe"))
+
+
+def found(query: Query, code: str, files: dict[str, str] | None = None) -> list[Finding]:
+    texts = {"main.py": textwrap.dedent(code).lstrip("\n"), **(files or {})}
+    sources = {p: read_python(t.encode(), p) for p, t in texts.items()}
+    return ProjectResolver("demo", query, sources).analyse("main.py").findings
+
+
+def test_property_built_from_a_method_carries_its_return_type(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        t = hf.Table().T
+        t.stack_rows(1)
+        hf.read_table("p").T.stack_rows(2)
+    """
+    hits = found(query, code)
+    assert at(hits, 3, "T-STACK") == "resolved"
+    assert at(hits, 4, "T-STACK") == "resolved"
+
+
+def test_typed_property_and_indexers(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        t = hf.read_table("p")
+        t.kinds.iter_pairs()
+        t["a"].iter_pairs()
+        t.rows[0].stack_rows(3)
+    """
+    hits = found(query, code)
+    assert at(hits, 3, "C-PAIRS") == "resolved"  # property -> Column
+    assert at(hits, 4, "C-PAIRS") == "resolved"  # Table.__getitem__ -> Column
+    assert at(hits, 5, "T-STACK") == "resolved"  # rows -> _RowIndexer, its __getitem__ -> Table
+
+
+def test_one_inherited_definition_keeps_two_changes_apart(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        hf.Table().merge_all(1)
+        hf.Column().merge_all(2)
+    """
+    hits = found(query, code)
+    assert at(hits, 2, "T-MERGE") == "resolved" and at(hits, 2, "C-MERGE") is None
+    assert at(hits, 3, "C-MERGE") == "resolved" and at(hits, 3, "T-MERGE") is None
+
+
+def test_a_public_module_that_star_reexports_a_private_one(query: Query) -> None:
+    code = """
+        import heronframe.util.checks as chk
+        from heronframe.util.checks import assert_same
+        import heronframe as hf
+        chk.assert_same(1, 2)
+        hf.util.checks.assert_same(1, 2)
+    """
+    hits = found(query, code)
+    for line in (1, 2, 4, 5):
+        assert at(hits, line, "CHECKS") == "resolved", line
+
+
+def test_isinstance_narrows_the_branch_and_assert(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        def f(x, y):
+            if isinstance(x, hf.Table):
+                x.stack_rows(1)
+            assert isinstance(y, hf.Column)
+            y.iter_pairs()
+            x.stack_rows(2)
+    """
+    hits = found(query, code)
+    assert at(hits, 4, "T-STACK") == "resolved"
+    assert at(hits, 6, "C-PAIRS") == "resolved"
+    assert at(hits, 7, "T-STACK") == "inferred"  # after the branch, x is not known
+
+
+def test_a_fallback_import_that_cannot_run_on_the_release_is_not_proven(query: Query) -> None:
+    code = """
+        try:
+            from heronframe import Table
+        except ImportError:
+            from heronframe.util.checks import assert_same
+        try:
+            from heronframe.util.checks import assert_same
+        except ImportError:
+            import heronframe.util.checks as chk
+    """
+    hits = found(query, code)
+    # The first `try` imports only what the release keeps: its handler never runs there.
+    assert at(hits, 4, "CHECKS") == "possible"
+    # The second imports a module the release removes, so the handler may run: still proven.
+    assert at(hits, 8, "CHECKS") == "resolved"
+
+
+def test_builtin_calls_prove_the_receiver(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        b = list()
+        b.iter_pairs()
+        d = dict(a=1).iter_pairs()
+        unknown_thing.iter_pairs()
+    """
+    hits = found(query, code)
+    assert at(hits, 3, "C-PAIRS") is None
+    assert at(hits, 4, "C-PAIRS") is None
+    assert at(hits, 5, "C-PAIRS") == "inferred"
+
+
+def test_an_untyped_attribute_of_an_instance_leaves_the_receiver_unknown(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        t = hf.read_table("p")
+        t.some_column.iter_pairs()
+    """
+    hits = found(query, code)
+    assert at(hits, 3, "C-PAIRS") == "inferred"
+
+
+# ---------------------------------------------------------------- the upper bound, by property
+_RECEIVERS = {
+    # receiver expression -> whether a chain proves it is not the library's (no finding allowed)
+    "[]": True,
+    "list()": True,
+    "dict()": True,
+    "str(x)": True,
+    "'text'": True,
+    "x": False,
+    "x.y": False,
+    "f(x)": False,
+    "x[0]": False,
+    "hf.read_table(p).some_column": False,
+    "(x or y)": False,
+}
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    receivers=st.lists(st.sampled_from(sorted(_RECEIVERS)), min_size=1, max_size=6),
+    name=st.sampled_from(["iter_pairs", "merge_all", "stack_rows"]),
+    wrap=st.booleans(),
+)
+def test_every_matching_name_is_found_unless_proven_otherwise(
+    query: Query, receivers: list[str], name: str, wrap: bool
+) -> None:
+    """DESIGN.md, confidence levels: in a file that uses the library, every reference whose name
+    matches a changed member is a finding at some level unless a chain proves the receiver is
+    something else. So the count at `possible` bounds the true count from above."""
+    lines = ["import heronframe as hf"]
+    if wrap:
+        lines.append("def g(x, y, p, f):")
+    indent = "    " if wrap else ""
+    for receiver in receivers:
+        lines.append(f"{indent}{receiver}.{name}()")
+    hits = found(query, "\n".join(lines) + "\n")
+    lines_hit = {h.line for h in hits}
+    first = 3 if wrap else 2
+    for i, receiver in enumerate(receivers):
+        line = first + i
+        if _RECEIVERS[receiver]:
+            assert line not in lines_hit, (receiver, name)
+        else:
+            assert line in lines_hit, (receiver, name)
+
+
+def test_tuple_unpacking_of_an_annotated_return_and_of_a_tuple_display(query: Query) -> None:
+    code = """
+        from typing import Tuple
+        import heronframe as hf
+        def load(p) -> Tuple[hf.Table, hf.Column]:
+            return unknown(p)
+        def pair(p):
+            return hf.read_table(p), hf.Column()
+        t, c = load("p")
+        t.stack_rows(1)
+        c.iter_pairs()
+        u, d = pair("p")
+        u.stack_rows(2)
+        d.iter_pairs()
+        pair("q")[0].stack_rows(3)
+    """
+    hits = found(query, code)
+    for line in (8, 9, 11, 12, 13):
+        assert at(hits, line, "T-STACK" if line in (8, 11, 13) else "C-PAIRS") == "resolved", line
+
+
+def test_attributes_of_project_classes_annotated_with_library_types(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        class Holder:
+            table: hf.Table
+            def __init__(self, column: hf.Column) -> None:
+                self.column = column
+            @property
+            def view(self) -> hf.Table:
+                return self._compute()
+            def run(self):
+                self.table.stack_rows(1)
+                self.column.iter_pairs()
+                self.view.stack_rows(2)
+    """
+    hits = found(query, code)
+    assert at(hits, 10, "T-STACK") == "resolved"
+    assert at(hits, 11, "C-PAIRS") == "resolved"
+    assert at(hits, 12, "T-STACK") == "resolved"
