@@ -24,8 +24,11 @@ MEMBER_KINDS = (
     "property",
     "constant",
     "unknown",
+    "dynamic",  # served by a module-level __getattr__ (PEP 562) from a fixed set of names
 )
+SELF = "typing.Self"  # in `Member.returns_all`: the receiver's class (PEP 673), filled in per look-up
 JSON_FORMAT = 1
+_VALUE_KINDS = frozenset({"property", "constant", "unknown", "dynamic"})
 
 
 class SurfaceError(ValueError):
@@ -55,6 +58,9 @@ class Member:
     constants and unknowns it is the library class of the value, when the source says so.
     `shape` is a short digest of the definition's body, used to recognise a definition that
     moved or was renamed; "" when the body is trivial (a stub, `pass`) or not a definition.
+    `returns_all` lists every library class a call (or read) can give, in source order, over
+    overloads (PEP 484) and unions; `returns` is set only when they all agree. An entry `SELF`
+    stands for the receiver's class.
     """
 
     name: str
@@ -66,6 +72,7 @@ class Member:
     line: int
     shape: str = ""
     returns_self: bool = False  # annotated `-> Self` (PEP 673): the receiver's class, not the definer's
+    returns_all: tuple[str, ...] = ()
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -226,6 +233,35 @@ class Surface:
             if self.is_class(owner):
                 return owner
         return member.returns
+
+    def returns_all(self, dotted: str) -> tuple[str, ...]:
+        """Every canonical library class calling `dotted` can return, in order, without repeats.
+
+        Overloads (PEP 484) and unions list each of their classes; `returns()` is the one class
+        only when all of them agree (a `None` outcome does not count: it has no attributes).
+        A class returns itself; `Self` (PEP 673) is the receiver's class, as in `returns()`.
+        """
+        member = self.member(dotted)
+        if member is None:
+            return ()
+        if member.kind == "class":
+            return (member.name,)
+        if not member.returns_all:
+            return () if member.returns is None else (member.returns,)
+        receiver = self.canonical(dotted.rpartition(".")[0])
+        if not self.is_class(receiver):
+            receiver = member.name.rpartition(".")[0]
+        out = (receiver if c == SELF else c for c in member.returns_all)
+        return tuple(dict.fromkeys(out))
+
+    def attribute_type(self, dotted: str) -> str | None:
+        """The library class of the value `obj.attr` reads, when `dotted` names a property, a
+        descriptor or a data attribute (class-level annotation, constant, instance attribute);
+        None for methods, classes, modules and values of unknown type."""
+        member = self.member(dotted)
+        if member is None or member.kind not in _VALUE_KINDS:
+            return None
+        return self.returns(dotted)
 
     def parameters(self, dotted: str) -> tuple[Parameter, ...] | None:
         """Parameters of a callable; for a class, those of its `__init__` without self."""
@@ -415,6 +451,7 @@ def _member_json(m: Member) -> dict[str, Any]:
         "line": m.line,
         "shape": m.shape,
         "returns_self": m.returns_self,
+        "returns_all": list(m.returns_all),
     }
 
 
@@ -434,6 +471,7 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         line=int(d["line"]),
         shape=d.get("shape", ""),
         returns_self=bool(d.get("returns_self", False)),
+        returns_all=tuple(d.get("returns_all", ())),
     )
 
 
