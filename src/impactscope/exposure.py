@@ -7,9 +7,21 @@ unconstrained (nothing it declares limits the version).
 
 Manifests are read as data, never run: requirement files in pip's format, `pyproject.toml`
 (PEP 621 `[project]`, PEP 735 `[dependency-groups]`, Poetry's `[tool.poetry]`), `setup.cfg`,
-`Pipfile`, and `setup.py`, from which only literal `install_requires=[...]` lists are read with
-libcst. A manifest that cannot be read is not an error: `read_manifests` returns what it could
-read together with a list of problems, each naming the file (and line where there is one).
+`Pipfile`, `setup.py`, from which only literal `install_requires=[...]` lists are read with
+libcst, and the core metadata of a built distribution: a wheel's `<name>.dist-info/METADATA` and
+an sdist's `PKG-INFO`, at the top of the project (`Requires-Dist`, `Requires-Python`). A manifest
+that cannot be read is not an error: `read_manifests` returns what it could read together with a
+list of problems, each naming the file (and line where there is one).
+
+Optional requirements count like the others: an entry of `[project.optional-dependencies]`,
+`extras_require`, or a `Requires-Dist` under an extra (`lib<2; extra == "plot"`) is a declaration
+of the project. The code that uses the library is often the optional part, and every install that
+has the extra, and so runs that code, is held to the constraint. `classify` therefore treats an
+`extra == "..."` marker as true.
+
+The project's supported Pythons (`Requires-Python`, PEP 621 `requires-python`, setuptools'
+`python_requires`, Poetry's `python` dependency) are read too: a project whose Pythons and the
+release's own `Requires-Python` have none in common can never install the release.
 """
 
 from __future__ import annotations
@@ -40,6 +52,7 @@ from packaging.version import InvalidVersion, Version
 __all__ = [
     "MANIFEST_PATTERNS",
     "Declared",
+    "DeclaredPython",
     "Exposure",
     "ExposureError",
     "Manifests",
@@ -76,11 +89,25 @@ class Declared:
 
 
 @dataclass(frozen=True)
+class DeclaredPython:
+    """One declaration of the Python versions a project supports, e.g. `Requires-Python: >=3.8`.
+
+    `source` and `text` are as in `Declared`.
+    """
+
+    source: str
+    text: str
+    specifier: SpecifierSet
+
+
+@dataclass(frozen=True)
 class Manifests:
-    """What a project's manifests declare about the library, and what could not be read."""
+    """What a project's manifests declare about the library and about Python, and what could
+    not be read."""
 
     declared: tuple[Declared, ...]
     problems: tuple[str, ...] = field(default=())
+    python: tuple[DeclaredPython, ...] = field(default=())
 
 
 class Exposure(str, enum.Enum):
@@ -94,7 +121,9 @@ class Exposure(str, enum.Enum):
 # --- which files are manifests ---------------------------------------------------------------
 
 #: Glob patterns (matched case-insensitively against the file name, or against
-#: `parent/name` for patterns with a slash) of the files `read_manifests` reads.
+#: `parent/name` for patterns with a slash) of the files `read_manifests` reads. The core
+#: metadata files (the last two) count only at the top of the project, where a wheel or an
+#: sdist has them: deeper ones describe some other distribution (an install, a vendored copy).
 MANIFEST_PATTERNS: tuple[str, ...] = (
     "*requirements*.txt",
     "requirements/*.txt",
@@ -103,7 +132,10 @@ MANIFEST_PATTERNS: tuple[str, ...] = (
     "setup.cfg",
     "setup.py",
     "Pipfile",
+    "PKG-INFO",
+    "*.dist-info/METADATA",
 )
+_CORE_METADATA = ("PKG-INFO", "*.dist-info/METADATA")
 
 # A requirement file of this shape is read on its own, unless it is named like a constraints file;
 # other requirement-format files are read only when another file includes them with -r or -c.
@@ -135,7 +167,18 @@ def is_manifest(path: str) -> bool:
     parts = path.split("/")
     if any(part in _FOREIGN_DIRS for part in parts[:-1]):
         return False
+    if _matches(path, _CORE_METADATA):
+        return _is_core_metadata(path)
     return _matches(path, MANIFEST_PATTERNS)
+
+
+def _is_core_metadata(path: str) -> bool:
+    """An sdist's `PKG-INFO` or a wheel's `<name>-<version>.dist-info/METADATA`, at the top of
+    the project (the file names are exact: the sdist and wheel specifications spell them so)."""
+    parts = path.split("/")
+    if parts == ["PKG-INFO"]:
+        return True
+    return len(parts) == 2 and parts[0].endswith(".dist-info") and parts[1] == "METADATA"
 
 
 # --- reading ---------------------------------------------------------------------------------
@@ -148,6 +191,7 @@ class _Reader:
         self.files = files
         self.target = canonicalize_name(distribution)
         self.declared: list[Declared] = []
+        self.python: list[DeclaredPython] = []
         self.problems: list[str] = []
         self.requirement_files_read: set[tuple[str, bool]] = set()  # (path, as constraints)
 
@@ -191,6 +235,16 @@ class _Reader:
 
     def add_direct(self, text: str, source: str, *, constraint: bool = False, marker: Marker | None = None) -> None:
         self.declared.append(Declared(source, text, None, marker, True, constraint))
+
+    def add_python(self, text: str, source: str) -> None:
+        """Add a Requires-Python style specifier (PEP 440) of the project's own Pythons."""
+        try:
+            specifier = SpecifierSet(text)
+        except InvalidSpecifier as exc:
+            self.problem(f"{source}: invalid Python version specifier {text!r}: {exc}")
+            return
+        if len(specifier):
+            self.python.append(DeclaredPython(source, text, specifier))
 
 
 _LEADING_NAME = re.compile(r"[A-Za-z0-9](?:[A-Za-z0-9._-]*[A-Za-z0-9])?")
@@ -402,6 +456,9 @@ def _read_pyproject(path: str, reader: _Reader) -> None:
                 reader.problem(f"{path} [project]: {key} are dynamic (filled in by the build backend); not read")
         if "dependencies" in project:
             _requirement_list(project["dependencies"], path, "project.dependencies", reader)
+        python = project.get("requires-python")
+        if isinstance(python, str):
+            reader.add_python(python, f"{path} [project.requires-python]")
         optional = project.get("optional-dependencies", {})
         if isinstance(optional, dict):
             for extra, value in optional.items():
@@ -423,6 +480,22 @@ def _read_pyproject(path: str, reader: _Reader) -> None:
                 for name, value in body.items():
                     if reader.is_target(name):
                         _poetry_dependency(name, value, f"{path} [{table}]", reader)
+        main = poetry.get("dependencies")
+        if isinstance(main, dict) and isinstance(main.get("python"), str):
+            _poetry_python(main["python"], f"{path} [tool.poetry.dependencies]", reader)
+
+
+def _poetry_python(text: str, source: str, reader: _Reader) -> None:
+    try:
+        alternatives = _poetry_alternatives(text)
+    except _ConstraintError as exc:
+        reader.problem(f"{source}: {exc} in python = {text!r}")
+        return
+    if len(alternatives) > 1:
+        reader.problem(f"{source}: union constraint in python = {text!r} is not supported; not read")
+        return
+    if alternatives[0]:
+        reader.add_python(",".join(alternatives[0]), source)
 
 
 class _ConstraintError(ValueError):
@@ -638,6 +711,9 @@ def _read_setup_cfg(path: str, reader: _Reader) -> None:
     except configparser.Error as exc:
         reader.problem(f"{path}: invalid setup.cfg ({' '.join(str(exc).split())}); not read")
         return
+    for option in ("python_requires", "python-requires"):
+        if parser.has_option("options", option):
+            reader.add_python(parser.get("options", option).strip(), f"{path} [options.{option}]")
     entries = []
     for option in ("install_requires", "install-requires"):  # setuptools still takes the dashed spelling
         if parser.has_option("options", option):
@@ -774,6 +850,9 @@ def _read_setup_py(path: str, reader: _Reader) -> None:
     for call in scan.calls:
         call_line = line_of(call)
         keywords = {arg.keyword.value: arg.value for arg in call.args if arg.keyword is not None}
+        python = keywords.get("python_requires")
+        if isinstance(python, (cst.SimpleString, cst.ConcatenatedString)) and isinstance(python.evaluated_value, str):
+            reader.add_python(python.evaluated_value.strip(), f"{path}:{line_of(python)}")
         if "install_requires" in keywords:
             read(keywords["install_requires"], "install_requires", call_line)
         elif any(arg.star == "**" for arg in call.args):
@@ -793,6 +872,61 @@ def _read_setup_py(path: str, reader: _Reader) -> None:
                     reader.problem(f"{path}:{call_line}: extras_require is partly dynamic")
         elif extras is not None:
             reader.problem(f"{path}:{call_line}: extras_require is dynamic; not read")
+
+
+# --- core metadata (wheel METADATA, sdist PKG-INFO) --------------------------------------------
+
+
+def _header_lines(text: str, field_name: str) -> list[int]:
+    """The line numbers at which header `field_name` starts, in the header block (up to the
+    first empty line; a line that starts with white space continues the header before it)."""
+    wanted = field_name.lower()
+    found = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        if not line.strip():
+            break
+        if line[0] in " \t":
+            continue
+        name, colon, _ = line.partition(":")
+        if colon and name.strip().lower() == wanted:
+            found.append(number)
+    return found
+
+
+def _read_core_metadata(path: str, reader: _Reader) -> None:
+    """`Requires-Dist` and `Requires-Python` of a wheel's METADATA or an sdist's PKG-INFO.
+
+    The core metadata specification defines the format as email headers, as the standard
+    library's `email.parser` reads them with the compat32 policy, in UTF-8; packaging's
+    `parse_email` reads it so. In an sdist (core metadata 2.2, PEP 643) a field marked `Dynamic`
+    may differ in the wheels built from it: its declarations are still read (they are what the
+    sdist says) and the problem list says so.
+    """
+    from packaging.metadata import parse_email  # noqa: PLC0415 - only distributions need it
+
+    data = reader.files[path]
+    raw, unparsed = parse_email(data)
+    for key in ("requires-dist", "requires-python"):
+        if key in unparsed:
+            reader.problem(f"{path}: cannot read {key.title()} (not valid UTF-8, or given more than once where once is allowed); not read")
+    text = data.decode("utf-8", "replace")
+    requirements = list(raw.get("requires_dist") or [])
+    lines = _header_lines(text, "Requires-Dist")
+    before = len(reader.declared)
+    for index, requirement in enumerate(requirements):
+        source = f"{path}:{lines[index]}" if len(lines) == len(requirements) else f"{path} [Requires-Dist]"
+        reader.add_requirement(requirement.strip(), source)
+    python = raw.get("requires_python")
+    if isinstance(python, str):
+        python_lines = _header_lines(text, "Requires-Python")
+        source = f"{path}:{python_lines[0]}" if len(python_lines) == 1 else f"{path} [Requires-Python]"
+        reader.add_python(python.strip(), source)
+    dynamic = {name.strip().lower() for name in raw.get("dynamic") or []}
+    if path.rsplit("/", 1)[-1] == "PKG-INFO" and "requires-dist" in dynamic and len(reader.declared) > before:
+        reader.problem(
+            f"{path}: Requires-Dist is marked Dynamic, so a wheel built from this sdist may declare "
+            "other requirements (core metadata 2.2)"
+        )
 
 
 # --- entry points -----------------------------------------------------------------------------
@@ -822,9 +956,11 @@ def read_manifests(files: Mapping[str, bytes], distribution: str) -> Manifests:
             _read_setup_cfg(path, reader)
         elif name == "setup.py":
             _read_setup_py(path, reader)
+        elif _is_core_metadata(path):
+            _read_core_metadata(path, reader)
         elif _matches(path, _REQUIREMENT_ROOTS) and not _matches(path, ("*constraints*.txt",)):
             _read_requirement_file(path, reader, constraint=False)
-    return Manifests(tuple(reader.declared), tuple(reader.problems))
+    return Manifests(tuple(reader.declared), tuple(reader.problems), tuple(reader.python))
 
 
 def declared_requirements(files: Mapping[str, bytes], distribution: str) -> tuple[Declared, ...]:
@@ -855,29 +991,81 @@ def environment_for_python(version: str) -> dict[str, str]:
     return environment
 
 
+# `extra == "name"` or `"name" == extra` in a marker (PEP 508 marker grammar).
+_EXTRA_TEST = re.compile(r"""\bextra\s*==\s*(['"])(.*?)\1|(['"])(.*?)\3\s*==\s*extra\b""")
+
+
 def _applies(marker: Marker | None, environment: Mapping[str, str] | None) -> bool:
+    """Whether a declaration's marker holds in `environment` for some install of the project.
+
+    The project may be installed with any of its extras (see the module docstring), so the
+    marker is tried with no extra and with each extra it names, and holds if any try does.
+    """
     if marker is None:
         return True
     env = dict(environment) if environment is not None else {}
-    env.setdefault("extra", "")  # older packaging needs it for markers that mention extras
-    try:
-        return marker.evaluate(env)
-    except (UndefinedComparison, UndefinedEnvironmentName):
-        # A marker this environment cannot decide is kept: dropping it could hide a declaration.
-        return True
+    extras = {""} | {m.group(2) if m.group(1) else m.group(4) for m in _EXTRA_TEST.finditer(str(marker))}
+    for extra in sorted(extras):
+        try:
+            if marker.evaluate({**env, "extra": extra}):
+                return True
+        except (UndefinedComparison, UndefinedEnvironmentName):
+            # A marker this environment cannot decide is kept: dropping it could hide a declaration.
+            return True
+    return False
+
+
+def _python_candidates(specifiers: Iterable[SpecifierSet]) -> set[Version]:
+    """Python versions at which sets of `specifiers` can first or last agree.
+
+    Each set is a union of intervals whose ends are versions it names, so if all the sets admit
+    some X.Y.Z Python they admit one of: a named version, or the next micro, minor or major
+    release after one, or a minor release 2.0-2.7 or 3.0-3.39 (a range over the Python
+    releases, with room for releases still to come).
+    """
+    found = {Version(f"2.{minor}") for minor in range(8)} | {Version(f"3.{minor}") for minor in range(40)}
+    for specifier_set in specifiers:
+        for specifier in specifier_set:
+            text = specifier.version.removesuffix(".*")
+            try:
+                version = Version(text)
+            except InvalidVersion:
+                continue  # `===` with a non-PEP 440 string
+            major, minor, micro = (list(version.release) + [0, 0])[:3]
+            found |= {
+                Version(f"{major}.{minor}.{micro}"),
+                Version(f"{major}.{minor}.{micro + 1}"),
+                Version(f"{major}.{minor + 1}"),
+                Version(f"{major + 1}.0"),
+            }
+    return found
+
+
+def _pythons_meet(project: Sequence[DeclaredPython], release_python: SpecifierSet) -> bool:
+    """Whether some Python satisfies both the project's and the release's Requires-Python."""
+    sets = [d.specifier for d in project] + [release_python]
+    return any(all(s.contains(v, prereleases=True) for s in sets) for v in _python_candidates(sets))
 
 
 def classify(
     declared: Sequence[Declared],
     release: Version | str,
     environment: Mapping[str, str] | None = None,
+    *,
+    python: Sequence[DeclaredPython] = (),
+    release_python: SpecifierSet | None = None,
 ) -> Exposure:
     """Classify a project's declarations against `release`.
 
     Declarations whose marker is false in `environment` (packaging's default environment, i.e.
-    the running interpreter, when None; see `environment_for_python`) are ignored. If none of the
+    the running interpreter, when None; see `environment_for_python`) are ignored; a marker that
+    tests `extra` holds when it holds for some extra (see the module docstring). If none of the
     rest limits the version, the project is unconstrained. Otherwise the version specifiers of
     all of them are intersected: exposed if the intersection admits the release, else shielded.
+
+    `python` are the project's own Requires-Python declarations (`Manifests.python`) and
+    `release_python` the release's Requires-Python: when both are given and no Python satisfies
+    them all, the project cannot install the release and is shielded, whatever else it declares.
 
     Pre-releases follow PEP 440's default for installers: a pre-release such as "3.0rc1" is
     admitted only when some specifier explicitly allows pre-releases (it names one, as in
@@ -892,6 +1080,8 @@ def classify(
             version = Version(release)
         except (InvalidVersion, TypeError):
             raise ExposureError(f"release must be a PEP 440 version, got {release!r}") from None
+    if release_python is not None and python and not _pythons_meet(python, release_python):
+        return Exposure.SHIELDED
     live = [d for d in declared if _applies(d.marker, environment)]
     specifiers = [d.specifier for d in live if d.specifier is not None]
     constraining = [s for s in specifiers if len(s)]

@@ -1,21 +1,33 @@
 """Find the projects in corpus roots and list every file in them, without unpacking.
 
-A root is a directory or an archive (.zip, .tar, .tar.gz, .tgz, .tar.bz2,
-.tar.xz). Each immediate child of a root is one project: a folder (named by
-the folder), an archive (named by its file name without the archive
+A root is a directory or an archive (.zip, .whl, .tar, .tar.gz, .tgz,
+.tar.bz2, .tar.xz). Each immediate child of a root is one project: a folder
+(named by the folder), an archive (named by its file name without the archive
 extension) or a loose `.py` / `.ipynb` file (named by its file name). Hidden
 children (names starting with ".") and other loose files are not projects.
-With `single=True` each root is itself one project.
+With `single=True` each root is itself one project. A wheel given as a root
+is always one project, as if `single` were set: it holds exactly one
+distribution (its package folders and its `.dist-info` belong together), and
+it is then named as it would be in a folder of wheels.
 
-Archives are read in place: zip members through `zipfile`, tar members in a
-single streaming pass through `tarfile`. Nothing is written to disk. Every
+An archive project's file paths are relative to the archive, except in the
+layout of source distributions and code-hosting downloads: when the archive's
+name without extension is not a Python identifier (`pkg-1.0`, `repo-main`)
+and a top folder has that same name, the paths of the members under that
+folder are relative to it (`pkg-1.0/setup.py` becomes `setup.py`). A name that
+is an identifier could be a package folder, so it is never taken off.
+
+Archives are read in place: zip (and wheel) members through `zipfile`, tar
+members in a single streaming pass through `tarfile`. Nothing is written to disk. Every
 file of a project comes out as an `Entry`, including the ones that should not
 be read, so that totals can account for each file.
 
 Streaming a tar archive has consequences that callers must respect:
 
 - a tar project's entries come in archive order, not sorted, and an entry's
-  `read` only works until the iterator advances;
+  `read` only works until the iterator advances (until then it can be called
+  again: the bytes are held while the stream is at the member, and only
+  that member's);
 - a tar *root* is streamed once for all its projects, so its projects come in
   archive order, and each project's entries must be consumed before
   `discover` is advanced (afterwards `entries()` raises EntryError);
@@ -66,7 +78,9 @@ __all__ = [
 ]
 
 # Longest first, so that ".tar.gz" is taken off whole.
-ARCHIVE_SUFFIXES = (".tar.gz", ".tar.bz2", ".tar.xz", ".tgz", ".tar", ".zip")
+ARCHIVE_SUFFIXES = (".tar.gz", ".tar.bz2", ".tar.xz", ".tgz", ".tar", ".zip", ".whl")
+# A wheel is a zip archive (PEP 427).
+_ZIP_SUFFIXES = (".zip", ".whl")
 SOURCE_SUFFIXES = frozenset({".py", ".ipynb"})
 MAX_FILE_SIZE = 2_000_000
 # A zip project inside an archive root needs random access, so it is read
@@ -173,6 +187,23 @@ def archive_stem(name: str) -> str | None:
     return None
 
 
+def _is_zip_name(name: str) -> bool:
+    return name.lower().endswith(_ZIP_SUFFIXES)
+
+
+def _is_wheel_name(name: str) -> bool:
+    return name.lower().endswith(".whl")
+
+
+def _top_folder(name: str) -> tuple[str, ...]:
+    """The folder that the paths of archive `name`'s members are relative to, if present
+    (see the module docstring): its stem, unless the stem could be a package name."""
+    stem = archive_stem(name)
+    if stem is None or stem.isidentifier() or _is_wheel_name(name):
+        return ()
+    return (stem,)
+
+
 def _display(name: str) -> str:
     """A file name as valid text: bytes that did not decode (kept by the OS and
     tarfile as surrogate escapes) become U+FFFD, so reports can encode it."""
@@ -253,7 +284,9 @@ def classify(
 
     `siblings` are the paths of all files in the project. The rules, first
     match wins: "version control", "cache", "node modules", "virtual
-    environment", "vendored library", "not source", "too large".
+    environment", "vendored library", "not source", "too large". "Too large"
+    (over MAX_FILE_SIZE bytes) is not decided here for notebooks: their size is
+    mostly outputs, so `sources` applies the limit to the code they hold.
 
     Without `siblings` (as in a tar stream, where later members are not known
     yet) only names count: a virtual environment is any directory named
@@ -290,7 +323,8 @@ def _classify(path: str, size: int, library: str, layout: _Layout | None) -> str
         return "vendored library"
     if not _is_source_name(parts[-1]):
         return "not source"
-    if size > MAX_FILE_SIZE:
+    # A notebook's size is mostly its outputs; its reader applies the limit to its code.
+    if size > MAX_FILE_SIZE and not parts[-1].endswith(".ipynb"):
         return "too large"
     return None
 
@@ -424,6 +458,8 @@ def _member_entry(member: _Member, prefix: tuple[str, ...]) -> Entry:
         head = "".join(f"{part}/" for part in prefix)
         path = raw[len(head) :] if head and raw.startswith(head) else raw
         return _skipped(_display(path), member.size, member.stamp, "unsafe path")
+    if parts[: len(prefix)] != prefix:  # outside the top folder of an archive project
+        prefix = ()
     path = _display("/".join(parts[len(prefix) :]))
     if member.error is not None:
         return _failed(path, member.error, member.size, member.stamp)
@@ -487,7 +523,7 @@ def _zip_listing(
 
 
 def _zip_entries(source: _ZipSource, name: str, library: str) -> Iterator[Entry]:
-    """All entries of a zip archive that is one project."""
+    """All entries of a zip archive (or wheel) that is one project."""
     try:
         archive = _open_zip(source)
     except _ARCHIVE_ERRORS as exc:
@@ -495,7 +531,8 @@ def _zip_entries(source: _ZipSource, name: str, library: str) -> Iterator[Entry]
         return
     with archive:
         try:
-            entries = list(_zip_listing(archive, source, archive.infolist(), (), library))
+            infos = archive.infolist()
+            entries = list(_zip_listing(archive, source, infos, _top_folder(name), library))
         except _ARCHIVE_ERRORS as exc:
             entries = [_corrupt(name, exc)]
         yield from entries
@@ -517,11 +554,11 @@ def _read_tar(archive: tarfile.TarFile, info: tarfile.TarInfo) -> bytes:
         raise EntryError(f"corrupt archive: {exc}") from None
 
 
-def _tar_member(archive: tarfile.TarFile, info: tarfile.TarInfo) -> _Member | None:
+def _tar_member(stream: _TarStream, info: tarfile.TarInfo) -> _Member | None:
     """The member as a file or link, or None for directories, devices and FIFOs."""
     stamp = f"t{int(info.mtime)}:{info.size}"
     if info.isreg():
-        return _Member(info.name, info.size, stamp, functools.partial(_read_tar, archive, info))
+        return _Member(info.name, info.size, stamp, functools.partial(stream.read, info))
     if info.issym() or info.islnk():
         # Hard link targets are archive-relative names; symlink targets are relative to the link.
         refuse = functools.partial(_refuse, "archive link")
@@ -532,9 +569,9 @@ def _tar_member(archive: tarfile.TarFile, info: tarfile.TarInfo) -> _Member | No
 
 
 def _tar_entry(
-    archive: tarfile.TarFile, info: tarfile.TarInfo, prefix: tuple[str, ...], library: str
+    stream: _TarStream, info: tarfile.TarInfo, prefix: tuple[str, ...], library: str
 ) -> Entry | None:
-    member = _tar_member(archive, info)
+    member = _tar_member(stream, info)
     if member is None:
         return None
     entry = _member_entry(member, prefix)
@@ -549,7 +586,10 @@ class _TarStream:
     `peek` gives the next member, a string describing the corruption that
     ended the stream (given once), or None at the end. Looking ahead moves
     the stream past the current member's data, so a member is only readable
-    until the next `peek` after its `take`.
+    until the next `peek` after its `take`. Until then `read` may be called
+    for it any number of times (a scan reads a manifest, then reads it again
+    as a file): the bytes of the member last read are held, and dropped
+    when the stream moves on, so at most one member's bytes are held.
     """
 
     def __init__(self, archive: tarfile.TarFile) -> None:
@@ -557,11 +597,21 @@ class _TarStream:
         self._ahead: tarfile.TarInfo | str | None = None
         self._peeked = False
         self._ended = False
+        self._held: tuple[tarfile.TarInfo, bytes] | None = None
+
+    def read(self, info: tarfile.TarInfo) -> bytes:
+        """The bytes of member `info`, while the stream is still at it."""
+        if self._held is not None and self._held[0] is info:
+            return self._held[1]
+        data = _read_tar(self.archive, info)
+        self._held = (info, data)
+        return data
 
     def peek(self) -> tarfile.TarInfo | str | None:
         if not self._peeked:
             self._peeked = True
             self._ahead = None
+            self._held = None
             if not self._ended:
                 try:
                     self._ahead = self.archive.next()
@@ -583,9 +633,12 @@ def _open_tar_stream(source: IO[bytes]) -> tarfile.TarFile:
     return tarfile.open(fileobj=source, mode="r|*")
 
 
-def _tar_run(stream: _TarStream, head: str | None, name: str, library: str) -> Iterator[Entry]:
-    """Entries from the stream while members lie under `head` (all of them if None)."""
-    prefix = () if head is None else (head,)
+def _tar_run(
+    stream: _TarStream, head: str | None, name: str, library: str, prefix: tuple[str, ...] = ()
+) -> Iterator[Entry]:
+    """Entries from the stream while members lie under `head` (all of them if None), with
+    paths relative to `head`, or else to `prefix` for the members under it."""
+    prefix = prefix if head is None else (head,)
     while (item := stream.peek()) is not None:
         if isinstance(item, str):
             stream.take()
@@ -594,7 +647,7 @@ def _tar_run(stream: _TarStream, head: str | None, name: str, library: str) -> I
         if head is not None and _member_head(item.name) != head:
             return
         stream.take()
-        entry = _tar_entry(stream.archive, item, prefix, library)
+        entry = _tar_entry(stream, item, prefix, library)
         if entry is not None:
             yield entry
 
@@ -607,12 +660,12 @@ def _tar_entries(source: IO[bytes], name: str, library: str) -> Iterator[Entry]:
         yield _corrupt(name, exc)
         return
     with archive:
-        yield from _tar_run(_TarStream(archive), None, name, library)
+        yield from _tar_run(_TarStream(archive), None, name, library, _top_folder(name))
 
 
 def _archive_file_entries(location: str, name: str, library: str) -> Iterator[Entry]:
     """Entries of an archive file on disk that is one project."""
-    if name.lower().endswith(".zip"):
+    if _is_zip_name(name):
         yield from _zip_entries(location, name, library)
         return
     try:
@@ -629,10 +682,11 @@ def _nested_archive(
 ) -> Iterator[Entry]:
     """An archive project that is itself a member of an archive root.
 
-    A tar streams straight from the outer member; a zip needs random access,
-    so it is read into memory, up to MAX_NESTED_ARCHIVE_SIZE.
+    A tar streams straight from the outer member; a zip (or wheel) needs
+    random access, so it is read into memory, up to MAX_NESTED_ARCHIVE_SIZE.
     """
-    if name.lower().endswith(".zip") and size > MAX_NESTED_ARCHIVE_SIZE:
+    zipped = _is_zip_name(name)
+    if zipped and size > MAX_NESTED_ARCHIVE_SIZE:
         yield _skipped(_display(name), size, "", "too large")
         return
     try:
@@ -641,7 +695,7 @@ def _nested_archive(
         yield _corrupt(name, exc)
         return
     with member:
-        if not name.lower().endswith(".zip"):
+        if not zipped:
             yield from _tar_entries(member, name, library)
             return
         try:
@@ -707,7 +761,8 @@ def discover(
     """Yield the projects of each root, root by root.
 
     Within a directory or zip root, projects come in sorted name order; within
-    a tar root, in archive order (see the module docstring). `library` is the
+    a tar root, in archive order (see the module docstring). A wheel root is
+    one project whatever `single` says. `library` is the
     target library's import name, used to recognise vendored copies of it.
 
     Project names are unique across the roots: a name already handed out (by
@@ -725,11 +780,11 @@ def discover(
         location = os.fspath(root)
         root_name = _root_name(location)
         projects: Iterable[Project]
-        if single:
+        if single or (_is_wheel_name(location) and not os.path.isdir(location)):
             projects = (_single_project(location, root_name, library),)
         elif os.path.isdir(location):
             projects = _directory_root(location, library, sink)
-        elif location.lower().endswith(".zip"):
+        elif _is_zip_name(location):
             projects = _zip_root(location, root_name, library, sink)
         else:
             projects = _tar_root(location, root_name, library, sink)
@@ -984,5 +1039,5 @@ def _tar_root_project(
         return Project(_display(stem), origin, entries)
     if not _is_source_name(head):
         return None
-    entry = _tar_entry(archive, item, (), library)
+    entry = _tar_entry(stream, item, (), library)
     return None if entry is None else Project(_display(head), origin, _fixed(entry))

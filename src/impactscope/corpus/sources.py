@@ -5,17 +5,27 @@ with nbformat, and each code cell has its IPython-only syntax (magics, shell
 escapes, help queries) rewritten into plain Python by IPython's own input
 transformer, keeping line numbers, so that later steps can parse it. Nothing
 here imports, compiles or runs the code being read.
+
+A notebook's bytes are mostly outputs (plots as base64 images), which say
+nothing about its code. So the JSON parser drops every output, and cell
+attachments, as soon as each is parsed, and keeps only the cells' text; and
+the size limit that `corpus.roots` applies to files applies to a notebook's
+code instead: a notebook whose code cells hold more than MAX_FILE_SIZE bytes
+is refused as "too large".
 """
 
 from __future__ import annotations
 
 import io
+import json
 import keyword
 import re
 import tokenize
 from collections.abc import Iterator
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Any, Literal
+
+from impactscope.corpus.roots import MAX_FILE_SIZE
 
 if TYPE_CHECKING:  # IPython is slow to import; only notebooks need it.
     from IPython.core.inputtransformer2 import TransformerManager
@@ -29,6 +39,7 @@ __all__ = [
     "looks_like_python2",
     "read_notebook",
     "read_python",
+    "without_outputs",
 ]
 
 # Cell magics whose body is ordinary Python that IPython runs in the user
@@ -40,10 +51,12 @@ PYTHON_CELL_MAGICS = frozenset(
 
 
 class SourceError(ValueError):
-    """A file whose text cannot be had: undecodable bytes or an unreadable notebook.
+    """A file whose text cannot be had: undecodable bytes, an unreadable notebook, or a
+    notebook with too much code.
 
-    `reason` is a short, stable key for totals ("encoding" or "invalid notebook");
-    `detail` says where and why, for people.
+    `reason` is a short, stable key for totals ("encoding", "invalid notebook" or "too
+    large"; the last is a reason to skip the file, as `corpus.roots.classify` gives it
+    for other files); `detail` says where and why, for people.
     """
 
     def __init__(self, reason: str, detail: str) -> None:
@@ -125,20 +138,98 @@ def read_python(data: bytes, path: str) -> Source:
 # ---------------------------------------------------------------------- notebooks
 
 
-def notebook_text(data: bytes, path: str) -> str:
-    """The raw code-cell text of a notebook (v3 or v4), untransformed: cheap enough to decide
-    whether the notebook is worth reading fully. IPython syntax only turns text into strings,
-    so every identifier of the transformed code is in this text too."""
-    import json
+# Keys whose values are outputs or attachments (nbformat v3 and v4): never kept.
+_BULKY_KEYS = frozenset({"outputs", "attachments"})
 
+
+def _lean_object(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    """A JSON object without what a scan never reads: an output (any object with an
+    `output_type`, nbformat v3 and v4) becomes empty, and `outputs` / `attachments` lists
+    become empty, as soon as each is parsed, so that at most one output's data is alive."""
+    if any(key == "output_type" for key, _ in pairs):
+        return {}
+    return {key: ([] if key in _BULKY_KEYS else value) for key, value in pairs}
+
+
+# A JSON string, or a character that opens, closes or separates (RFC 8259 grammar). Strings
+# are matched whole, so brackets inside them are never counted.
+_JSON_TOKEN = re.compile(rb'"[^"\\]*(?:\\.[^"\\]*)*"|[\[\]{}:]')
+_BULKY_JSON_KEYS = frozenset(b'"%s"' % key.encode() for key in _BULKY_KEYS)
+
+
+def without_outputs(data: bytes) -> bytes:
+    """A notebook's bytes with the contents of every `outputs` and `attachments` array or
+    object cut out, found by a scan of the raw bytes, so that neither a decoded copy of the
+    outputs nor their parsed objects ever exist. What is left reads the same with
+    `notebook_text` and `read_notebook`, and is what a caller should hold on to. The JSON
+    parser reads what is left (and reports any fault in it); should the scan find the
+    brackets unbalanced, `data` comes back whole for the parser to judge."""
+    if not any(key in data for key in _BULKY_JSON_KEYS):
+        return data
+    pieces: list[bytes] = []
+    kept = 0  # data[kept:] is not in pieces yet
+    tokens = _JSON_TOKEN.finditer(data)
+    previous: bytes = b""
+    for match in tokens:
+        token = match.group()
+        if token == b":" and previous in _BULKY_JSON_KEYS:
+            value = next(tokens, None)
+            if value is None:
+                return data
+            if value.group() not in (b"[", b"{"):
+                previous = value.group()
+                continue
+            depth = 1
+            for inner in tokens:
+                mark = inner.group()
+                if mark in (b"[", b"{"):
+                    depth += 1
+                elif mark in (b"]", b"}"):
+                    depth -= 1
+                    if depth == 0:
+                        pieces.append(data[kept : value.end()])
+                        kept = inner.start()
+                        break
+            else:
+                return data
+            previous = b""
+            continue
+        previous = token
+    pieces.append(data[kept:])
+    return b"".join(pieces)
+
+
+def _notebook_json(data: bytes, path: str) -> str:
     try:
-        document = json.loads(data.decode("utf-8-sig"))
+        return without_outputs(data).decode("utf-8-sig")  # JSON is UTF-8 (RFC 8259)
     except UnicodeDecodeError as exc:
         raise SourceError(
             "encoding", f"{path}: byte 0x{data[exc.start]:02x} at offset {exc.start} is not UTF-8"
         ) from None
+
+
+def _check_code_size(size: int, path: str) -> None:
+    if size > MAX_FILE_SIZE:
+        raise SourceError(
+            "too large",
+            f"{path}: its code cells hold {size} bytes, over the limit of {MAX_FILE_SIZE}",
+        )
+
+
+def notebook_text(data: bytes, path: str) -> str:
+    """The raw code-cell text of a notebook (v3 or v4), untransformed: cheap enough to decide
+    whether the notebook is worth reading fully. IPython syntax only turns text into strings,
+    so every identifier of the transformed code is in this text too.
+
+    Raises SourceError("too large") when the code cells hold more than MAX_FILE_SIZE bytes
+    (UTF-8), whatever the size of the outputs.
+    """
+    text = _notebook_json(data, path)
+    try:
+        document = json.loads(text, object_pairs_hook=_lean_object)
     except ValueError as exc:
         raise SourceError("invalid notebook", f"{path}: {_first_line(str(exc))}") from None
+    del text
     if not isinstance(document, dict):
         raise SourceError("invalid notebook", f"{path}: the top level is not a JSON object")
     cells = document.get("cells")
@@ -148,8 +239,10 @@ def notebook_text(data: bytes, path: str) -> str:
     for cell in cells if isinstance(cells, list) else []:
         if isinstance(cell, dict) and cell.get("cell_type") == "code":
             source = cell.get("source", cell.get("input", ""))
-            parts.append("".join(source) if isinstance(source, list) else str(source))
-    return "\n".join(parts)
+            parts.append("".join(map(str, source)) if isinstance(source, list) else str(source))
+    code = "\n".join(parts)
+    _check_code_size(len(code.encode("utf-8", "surrogatepass")), path)
+    return code
 
 
 def read_notebook(data: bytes, path: str) -> Source:
@@ -158,20 +251,18 @@ def read_notebook(data: bytes, path: str) -> Source:
     The notebook is read and upgraded to v4 exactly as `nbformat.reads(text,
     as_version=4)` does, minus its schema validation, which only logs and is
     slow on big notebooks: real notebooks often break the schema in ways that
-    do not matter here. Cells of a notebook whose kernel language is set and
-    is not Python are all skipped ("non-python kernel").
+    do not matter here; and minus outputs and attachments, which are dropped
+    while the JSON is parsed. Cells of a notebook whose kernel language is set
+    and is not Python are all skipped ("non-python kernel"). Raises
+    SourceError("too large") as `notebook_text` does.
     """
     import nbformat  # noqa: PLC0415 - only notebooks need it
     import nbformat.reader  # noqa: PLC0415
 
+    text = _notebook_json(data, path)
     try:
-        text = data.decode("utf-8-sig")  # JSON is UTF-8 (RFC 8259)
-    except UnicodeDecodeError as exc:
-        raise SourceError(
-            "encoding", f"{path}: byte 0x{data[exc.start]:02x} at offset {exc.start} is not UTF-8"
-        ) from None
-    try:
-        notebook = nbformat.convert(nbformat.reader.reads(text), 4)
+        notebook = nbformat.convert(nbformat.reader.reads(text, object_pairs_hook=_lean_object), 4)
+        del text
         raw_cells = notebook["cells"]
         metadata = notebook.get("metadata") or {}
         if not isinstance(raw_cells, list) or not isinstance(metadata, dict):
@@ -186,6 +277,7 @@ def read_notebook(data: bytes, path: str) -> Source:
     manager: TransformerManager | None = None
     cells: list[CodeCell] = []
     skipped: list[tuple[int, str]] = []
+    sources: list[tuple[int, str]] = []
     for index, cell in enumerate(raw_cells):
         if not isinstance(cell, dict) or cell.get("cell_type") != "code":
             continue
@@ -195,6 +287,10 @@ def read_notebook(data: bytes, path: str) -> Source:
         if not isinstance(source, str):
             skipped.append((index, "invalid cell source"))
             continue
+        sources.append((index, source))
+    # The same measure as notebook_text's: the code cells joined by newlines.
+    _check_code_size(sum(len(code.encode("utf-8", "surrogatepass")) + 1 for _, code in sources) - 1, path)
+    for index, source in sources:
         if foreign:
             skipped.append((index, "non-python kernel"))
             continue
@@ -206,6 +302,7 @@ def read_notebook(data: bytes, path: str) -> Source:
         else:
             code, first_line = result
             cells.append(CodeCell(index, code, first_line))
+    skipped.sort()
     return Source(path, "notebook", tuple(cells), tuple(skipped))
 
 

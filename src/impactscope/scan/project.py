@@ -8,7 +8,14 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 from impactscope.corpus.roots import Project
-from impactscope.corpus.sources import Source, SourceError, notebook_text, read_notebook, read_python
+from impactscope.corpus.sources import (
+    Source,
+    SourceError,
+    notebook_text,
+    read_notebook,
+    read_python,
+    without_outputs,
+)
 from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding
 from impactscope.resolve.legacy import legacy_hits
@@ -77,13 +84,16 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         kind = "notebook" if entry.path.endswith(".ipynb") else "module"
         try:
             if kind == "notebook":
-                # Full reading (nbformat, IPython's transformer) waits until the prefilter keeps it.
+                # Full reading (nbformat, IPython's transformer) waits until the prefilter keeps it;
+                # until then only the code is held, not the outputs.
+                data = without_outputs(data)
                 raw_texts[entry.path] = notebook_text(data, entry.path)
                 notebooks[entry.path] = data
             else:
                 sources[entry.path] = read_python(data, entry.path)
         except SourceError as exc:
-            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", exc.reason, exc.detail, digest, kind)
+            status = "skipped" if exc.reason == "too large" else "unparsed"  # a notebook's code size
+            outcomes[entry.path] = FileOutcome(entry.path, status, exc.reason, exc.detail, digest, kind)
             continue
         outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, "", digest, kind)
 
