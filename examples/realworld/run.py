@@ -1,0 +1,276 @@
+"""The real-world benchmark: real libraries, real downstream packages, hand-checked verdicts.
+
+    python examples/realworld/run.py all --work /tmp/rw            # fetch, unpack, scan, candidates, score
+    python examples/realworld/run.py fetch --work /tmp/rw          # download the pinned files (sha256 checked)
+    python examples/realworld/run.py unpack --work /tmp/rw         # one folder per project, library sources
+    python examples/realworld/run.py scan --work /tmp/rw           # without and with the library's source
+    python examples/realworld/run.py candidates --work /tmp/rw     # whole-word hits, for judging
+    python examples/realworld/run.py score --work /tmp/rw          # = python examples/realworld/score.py
+
+Nothing downloaded is built, installed, imported or run: wheels come from `pip download
+--only-binary=:all: --no-deps`, sdists straight from the PEP 691 JSON API, and both are unpacked
+as data (regular files only, no absolute or parent paths). `--archives` scans the downloaded
+archives in place instead of the unpacked folders. Scans run with `--jobs 1` unless told.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import io
+import json
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tarfile
+import time
+import tomllib
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path, PurePosixPath
+
+import nbformat
+
+from pypi import DistFile, fetch
+
+HERE = Path(__file__).resolve().parent
+IMPACTSCOPE = [sys.executable, "-c", "from impactscope.cli import main; main()"]
+MODES = ("plain", "source")  # without / with --library-source
+
+
+@dataclass(frozen=True)
+class Library:
+    name: str
+    changes: Path
+    old: DistFile
+    new: DistFile
+    platform: str | None
+
+
+@dataclass(frozen=True)
+class Corpus:
+    libraries: tuple[Library, ...]
+    projects: tuple[tuple[str, DistFile], ...]  # (library, file)
+
+    def of(self, library: str) -> list[DistFile]:
+        return [dist for lib, dist in self.projects if lib == library]
+
+
+def load_corpus(path: Path = HERE / "corpus.toml") -> Corpus:
+    data = tomllib.loads(path.read_text(encoding="utf-8"))
+    libraries = []
+    for entry in data["library"]:
+        name = entry["name"]
+        old, new = (
+            DistFile(name, entry[k]["version"], entry[k]["file"], "wheel", entry[k]["sha256"]) for k in ("old", "new")
+        )
+        libraries.append(Library(name, HERE / entry["changes"], old, new, entry["old"].get("platform")))
+    projects = tuple(
+        (p["library"], DistFile(p["name"], p["version"], p["file"], p["kind"], p["sha256"], uploaded=p["uploaded"]))
+        for p in data["project"]
+    )
+    return Corpus(tuple(libraries), projects)
+
+
+# ------------------------------------------------------------------ fetch and unpack
+
+
+def cmd_fetch(corpus: Corpus, work: Path) -> None:
+    for lib in corpus.libraries:
+        for dist in (lib.old, lib.new):
+            fetch(dist, work / "dist" / "library", platform=lib.platform)
+            print(f"library {dist.filename}")
+        for dist in corpus.of(lib.name):
+            fetch(dist, work / "dist" / lib.name)
+            print(f"{lib.name:9} {dist.kind:5} {dist.filename}")
+
+
+def _safe_parts(name: str) -> tuple[str, ...] | None:
+    path = PurePosixPath(name.replace("\\", "/"))
+    if path.is_absolute() or any(part in ("..", "") for part in path.parts):
+        return None
+    return path.parts
+
+
+def _members(archive: Path) -> list[tuple[tuple[str, ...], bytes]]:
+    """Regular files of an archive as (path parts, bytes); links, devices and unsafe paths left out."""
+    out: list[tuple[tuple[str, ...], bytes]] = []
+    if archive.name.endswith((".whl", ".zip")):
+        with zipfile.ZipFile(archive) as zf:
+            for info in zf.infolist():
+                parts = _safe_parts(info.filename)
+                if parts and not info.is_dir():
+                    out.append((parts, zf.read(info)))
+        return out
+    with tarfile.open(archive) as tf:
+        for info in tf.getmembers():
+            parts = _safe_parts(info.name)
+            if parts and info.isfile():
+                handle = tf.extractfile(info)
+                if handle is not None:
+                    out.append((parts, handle.read()))
+    return out
+
+
+def sdist_top(archive: Path) -> str | None:
+    """The single top folder of an sdist (`name-version/`), which the project root is under."""
+    if archive.name.endswith(".whl"):
+        return None
+    heads = {parts[0] for parts, _ in _members(archive) if len(parts) > 1}
+    return heads.pop() if len(heads) == 1 else None
+
+
+def unpack(archive: Path, target: Path, strip_top: bool) -> None:
+    members = _members(archive)
+    heads = {parts[0] for parts, _ in members if len(parts) > 1}
+    strip = strip_top and len(heads) == 1 and all(len(parts) > 1 for parts, _ in members)
+    if target.exists():
+        shutil.rmtree(target)
+    for parts, data in members:
+        rel = parts[1:] if strip else parts
+        dest = target.joinpath(*rel)
+        dest.parent.mkdir(parents=True, exist_ok=True)
+        dest.write_bytes(data)
+
+
+def library_source(work: Path, lib: Library, which: str = "old") -> Path:
+    dist = lib.old if which == "old" else lib.new
+    return work / "library" / f"{lib.name}-{dist.version}" / lib.name
+
+
+def cmd_unpack(corpus: Corpus, work: Path) -> None:
+    for lib in corpus.libraries:
+        for dist in (lib.old, lib.new):
+            unpack(work / "dist" / "library" / dist.filename, work / "library" / f"{lib.name}-{dist.version}", False)
+        for dist in corpus.of(lib.name):
+            unpack(work / "dist" / lib.name / dist.filename, work / "projects" / lib.name / dist.name, True)
+        print(f"{lib.name}: {len(corpus.of(lib.name))} projects unpacked under {work / 'projects' / lib.name}")
+
+
+# ------------------------------------------------------------------ scan
+
+
+def results_path(work: Path, library: str, mode: str) -> Path:
+    return work / "results" / f"{library}-{mode}.json"
+
+
+def tool_env(tool_src: Path | None) -> dict[str, str]:
+    """The environment for the tool: `--tool-src` puts a snapshot of src/ first on the path."""
+    env = dict(os.environ)
+    if tool_src is not None:
+        env["PYTHONPATH"] = str(tool_src.resolve())
+    return env
+
+
+def cmd_scan(corpus: Corpus, work: Path, jobs: int, archives: bool, only: str | None, tool_src: Path | None) -> None:
+    (work / "results").mkdir(parents=True, exist_ok=True)
+    env = tool_env(tool_src)
+    timings: dict[str, float] = {}
+    timing_file = work / "results" / "timings.json"
+    if timing_file.exists():
+        timings = json.loads(timing_file.read_text())
+    for lib in corpus.libraries:
+        if only and lib.name != only:
+            continue
+        root = work / "dist" / lib.name if archives else work / "projects" / lib.name
+        for mode in MODES:
+            out = work / "results" / f"{lib.name}-{mode}.sqlite"
+            command = [*IMPACTSCOPE, "scan", str(lib.changes), str(root), "--out", str(out),
+                       "--jobs", str(jobs), "--fresh", "--quiet"]
+            if mode == "source":
+                command += ["--library-source", str(library_source(work, lib))]
+            started = time.perf_counter()
+            done = subprocess.run(command, capture_output=True, text=True, env=env)
+            seconds = time.perf_counter() - started
+            if done.returncode != 0:
+                raise SystemExit(f"scan of {lib.name} ({mode}) failed ({done.returncode}): {done.stderr.strip()[-2000:]}")
+            report = subprocess.run([*IMPACTSCOPE, "report", str(out), "--format", "json"],
+                                    capture_output=True, text=True, check=True, env=env)
+            results_path(work, lib.name, mode).write_text(report.stdout)
+            timings[f"{lib.name}-{mode}"] = round(seconds, 2)
+            print(f"scan {lib.name:9} {mode:6} {seconds:7.1f} s  impactscope {' '.join(command[3:])}")
+    timing_file.write_text(json.dumps(timings, indent=1))
+
+
+# ------------------------------------------------------------------ candidates
+
+
+def changes_of(lib: Library) -> list[dict]:
+    return tomllib.loads(lib.changes.read_text(encoding="utf-8"))["change"]
+
+
+def candidate_word(change: dict) -> str:
+    """The word grep looks for: a parameter's name for parameter changes, else the member's last segment."""
+    if change["kind"] in ("parameter-removed", "parameter-renamed", "default-changed"):
+        return change["parameter"]
+    return change["member"].rsplit(".", 1)[-1]
+
+
+def sources_of(project: Path):
+    """(file, cell, text) for every .py file and every notebook code cell of a project."""
+    for path in sorted(project.rglob("*")):
+        if not path.is_file():
+            continue
+        rel = path.relative_to(project).as_posix()
+        if path.suffix == ".py":
+            yield rel, None, path.read_bytes().decode("utf-8", errors="replace")
+        elif path.suffix == ".ipynb":
+            try:
+                notebook = nbformat.reads(path.read_text(encoding="utf-8", errors="replace"), as_version=4)
+            except Exception:  # an unreadable notebook has no cells to grep; the scan reports it
+                continue
+            for index, cell in enumerate(notebook.cells):
+                if cell.cell_type == "code":
+                    yield rel, index, cell.source
+
+
+def cmd_candidates(corpus: Corpus, work: Path) -> None:
+    out_dir = work / "candidates"
+    out_dir.mkdir(parents=True, exist_ok=True)
+    for lib in corpus.libraries:
+        changes = changes_of(lib)
+        words = {c["id"]: re.compile(rf"\b{re.escape(candidate_word(c))}\b") for c in changes}
+        rows = []
+        for dist in corpus.of(lib.name):
+            for rel, cell, text in sources_of(work / "projects" / lib.name / dist.name):
+                for number, line in enumerate(text.splitlines(), 1):
+                    for cid, word in words.items():
+                        if word.search(line):
+                            rows.append((dist.name, rel, "" if cell is None else cell, number, cid, line.strip()[:200]))
+        with (out_dir / f"{lib.name}.csv").open("w", newline="", encoding="utf-8") as handle:
+            writer = csv.writer(handle)
+            writer.writerow(["project", "file", "cell", "line", "change", "text"])
+            writer.writerows(rows)
+        print(f"{lib.name}: {len(rows)} whole-word candidate lines -> {out_dir / (lib.name + '.csv')}")
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("step", choices=("fetch", "unpack", "scan", "candidates", "score", "all"))
+    parser.add_argument("--work", type=Path, required=True, help="folder for downloads and results (not the repository)")
+    parser.add_argument("--jobs", type=int, default=1)
+    parser.add_argument("--archives", action="store_true", help="scan the downloaded archives in place")
+    parser.add_argument("--library", help="only this library")
+    parser.add_argument("--tool-src", type=Path, help="scan with this copy of impactscope's src/ (e.g. a `git archive` of a commit)")
+    args = parser.parse_args()
+    corpus = load_corpus()
+    work = args.work.resolve()
+    if args.step in ("fetch", "all"):
+        cmd_fetch(corpus, work)
+    if args.step in ("unpack", "all"):
+        cmd_unpack(corpus, work)
+    if args.step in ("scan", "all"):
+        cmd_scan(corpus, work, args.jobs, args.archives, args.library, args.tool_src)
+    if args.step in ("candidates", "all"):
+        cmd_candidates(corpus, work)
+    if args.step in ("score", "all"):
+        import score
+
+        return score.run(corpus, work)
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
