@@ -87,9 +87,12 @@ def scan(
         raise typer.Exit(130) from None
     if not quiet:
         reused = f" ({summary.reused} unchanged, reused)" if summary.reused else ""
+        died = summary.faults.get("worker died", 0)
+        lost = f", {died} files in projects whose worker died" if died else ""
         typer.echo(
             f"scanned {summary.projects} projects{reused}, {summary.files} files in {summary.seconds:.1f} s; "
-            f"{summary.findings} findings -> {summary.out}",
+            f"{summary.findings} findings, {summary.analysis_errors} files with an analysis error{lost} "
+            f"-> {summary.out}",
             err=True,
         )
 

@@ -19,6 +19,7 @@ from typing import Iterator
 from impactscope import __version__
 from impactscope.changes import ChangeList, parse_change_list
 from impactscope.findings import Confidence, Finding
+from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
 from impactscope.scan.project import FileOutcome, ProjectResult
 
 SCHEMA = """
@@ -267,6 +268,15 @@ class ResultStore:
         return sorted(
             Finding(p, f, c, ln, col, ch, Confidence(conf), pat) for p, f, c, ln, col, ch, conf, pat in rows
         )
+
+    def fault_counts(self) -> dict[str, int]:
+        """Files by reason of failure: an unexpected exception on the file ("analysis error") or
+        its project's worker process dying ("worker died")."""
+        rows = self._db.execute(
+            "SELECT reason, COUNT(*) FROM files WHERE status = 'unparsed' AND reason IN (?, ?) GROUP BY reason",
+            (ANALYSIS_ERROR, WORKER_DIED),
+        )
+        return {reason: count for reason, count in rows}
 
     def manifests(self, project: str) -> dict[str, bytes]:
         rows = self._db.execute("SELECT path, content FROM manifests WHERE project = ?", (project,))

@@ -9,6 +9,7 @@ from typing import Any
 import pandas as pd
 
 from impactscope.findings import Confidence
+from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
 from impactscope.report.sizing import SizingOptions, change_sizing, corpus_sizing, project_facts
 from impactscope.store import ResultStore
 
@@ -33,6 +34,10 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
         "files_parsed": status["parsed"],
         "files_skipped": status["skipped"],
         "files_unparsed": status["unparsed"],
+        # Part of files_unparsed: an unexpected exception met on the file (a bug to report), and
+        # files of projects whose worker process died twice.
+        "files_analysis_error": reasons[("unparsed", ANALYSIS_ERROR)],
+        "files_worker_died": reasons[("unparsed", WORKER_DIED)],
     }
     by_project: dict[str, list] = {}
     for project, outcome in file_rows:
@@ -104,6 +109,12 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
         "projects": [facts[p.name] for p in projects],
         "findings": [f.to_json() for f in findings],
         "files_by_project": _per_project(file_rows),
+        # Each file the scan failed on, with its one-line detail: what a bug report needs.
+        "failed_files": [
+            {"project": project, "file": o.path, "reason": o.reason, "detail": o.detail}
+            for project, o in file_rows
+            if o.status == "unparsed" and o.reason in (ANALYSIS_ERROR, WORKER_DIED)
+        ],
     }
 
 

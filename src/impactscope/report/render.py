@@ -9,6 +9,8 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
+FAILED_ROWS = 20  # the terminal table lists this many failed files; JSON lists them all
+
 
 def to_json(report: dict[str, Any]) -> str:
     return json.dumps(report, indent=2, sort_keys=False) + "\n"
@@ -48,6 +50,15 @@ def _legacy_rows(report: dict[str, Any]) -> list[tuple[str, int, int]]:
     return rows
 
 
+def _faults(report: dict[str, Any]) -> str:
+    """How many files the scan failed on (bugs to report), as part of the unparsed count."""
+    t = report["totals"]
+    text = f"{t.get('files_analysis_error', 0)} with an analysis error"
+    if t.get("files_worker_died"):
+        text += f", {t['files_worker_died']} in projects whose worker died"
+    return text
+
+
 def _users(report: dict[str, Any]) -> str:
     t = report["totals"]
     return f"{t['projects_using_library']} projects that use {report['library']}"
@@ -60,7 +71,7 @@ def to_markdown(report: dict[str, Any]) -> str:
         "",
         f"Scanned {t['projects']} projects ({t['projects_using_library']} use {report['library']}); "
         f"{t['files']} files: {t['files_parsed']} parsed, {t['files_skipped']} skipped, "
-        f"{t['files_unparsed']} unparsed.",
+        f"{t['files_unparsed']} unparsed ({_faults(report)}).",
         "",
         "Projects hit are given as proven / likely / at most (resolved, inferred, possible). "
         f"Share is of the {_users(report)}: the proven share, with the interval running from the low end "
@@ -92,6 +103,13 @@ def to_markdown(report: dict[str, Any]) -> str:
         lines += ["", "## Files not analysed", "", "| status | reason | files |", "|---|---|---|"]
         for r in report["file_reasons"]:
             lines.append(f"| {r['status']} | {r['reason']} | {r['files']} |")
+    failed = report.get("failed_files") or []
+    if failed:
+        lines += ["", "## Files the scan failed on (please report these)", "",
+                  "| project | file | reason | detail |", "|---|---|---|---|"]
+        for f in failed:
+            detail = f["detail"].replace("|", "\\|")
+            lines.append(f"| {f['project']} | `{f['file']}` | {f['reason']} | {detail} |")
     if report.get("not_projects"):
         lines += ["", "## In the roots but not projects", "", "| reason | items |", "|---|---|"]
         for reason, count in _not_projects(report):
@@ -113,7 +131,8 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
     console.print(
         f"{report['library']} {report['release'] or ''}: {t['projects']} projects scanned, "
         f"{t['projects_using_library']} use the library; files {t['files']} = "
-        f"{t['files_parsed']} parsed + {t['files_skipped']} skipped + {t['files_unparsed']} unparsed"
+        f"{t['files_parsed']} parsed + {t['files_skipped']} skipped + {t['files_unparsed']} unparsed "
+        f"({_faults(report)})"
     )
     summary = Table(
         title=f"Projects hit per planned change (proven / likely / at most); share of the {_users(report)}, "
@@ -153,6 +172,16 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
         for r in report["file_reasons"]:
             reasons.add_row(r["status"], r["reason"], str(r["files"]))
         console.print(reasons)
+    failed = report.get("failed_files") or []
+    if failed:
+        table = Table(title="Files the scan failed on (please report these)", title_justify="left")
+        for column in ("project", "file", "reason", "detail"):
+            table.add_column(column)
+        for f in failed[:FAILED_ROWS]:
+            table.add_row(f["project"], f["file"], f["reason"], f["detail"])
+        if len(failed) > FAILED_ROWS:
+            table.add_row(f"... {len(failed) - FAILED_ROWS} more (see --format json)", "", "", "")
+        console.print(table)
     if report.get("not_projects"):
         stray = Table(title="In the roots but not projects", title_justify="left")
         stray.add_column("reason")

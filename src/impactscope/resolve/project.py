@@ -14,6 +14,7 @@ import libcst as cst
 from impactscope.corpus.sources import Source, looks_like_python2
 from impactscope.findings import Finding
 from impactscope.resolve.evaluate import ModuleEvaluator, ModuleResult, Ref
+from impactscope.resolve.faults import ANALYSIS_ERROR, describe, statement_line
 from impactscope.resolve.match import judge, pattern
 from impactscope.resolve.positions import Positions
 from impactscope.resolve.query import Query
@@ -143,6 +144,12 @@ class ProjectResolver:
                 except RecursionError:
                     fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
                     fa.result = None
+                except Exception as exc:  # noqa: BLE001 - a resolver bug costs this file, not its project
+                    module = next((m for index, _, m in fa.cells if index == evaluator.cell), None)
+                    line = statement_line(module, evaluator.top) if module is not None else None
+                    fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
+                    fa.detail = describe(exc, stage="resolver", line=line, cell=evaluator.cell)
+                    fa.result = None
             self.files[path] = fa
             return fa
         finally:
@@ -168,7 +175,13 @@ class ProjectResolver:
                     changed = True
         for fa in self.files.values():
             if fa.result is not None and fa.matched_as_user is not fa.result.uses_library:
-                fa.findings = self._findings(fa)
+                try:
+                    fa.findings = self._findings(fa)
+                except Exception as exc:  # noqa: BLE001 - a matching or positions bug costs this file only
+                    fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
+                    fa.detail = describe(exc, stage="matching")
+                    fa.findings, fa.result = [], None
+                    continue
                 fa.matched_as_user = fa.result.uses_library
 
     def _parse(self, path: str) -> FileAnalysis:
@@ -190,6 +203,12 @@ class ProjectResolver:
                     fa.status, fa.reason = "unparsed", "too deeply nested"
                     return fa
                 fa.unparsed_cells.append((cell.index, "too deeply nested"))
+                continue
+            except Exception as exc:  # noqa: BLE001 - a parser bug costs this file (or cell) only
+                if cell.index is None:
+                    fa.status, fa.reason, fa.detail = "unparsed", ANALYSIS_ERROR, describe(exc, stage="parser")
+                    return fa
+                fa.unparsed_cells.append((cell.index, ANALYSIS_ERROR))
                 continue
             fa.cells.append((cell.index, cell.first_line, module))
         if source.kind == "notebook":

@@ -30,7 +30,7 @@ from impactscope import __version__
 from impactscope.changes import ChangeList
 from impactscope.corpus.roots import MAX_FILE_SIZE, Entry, EntryError, Project, archive_stem
 
-KEY_SCHEMA = "1"
+KEY_SCHEMA = "2"  # 2: the library source is keyed by content, not by file stamps
 
 
 @dataclass(frozen=True)
@@ -40,11 +40,13 @@ class ScanSettings:
     changes_digest: str
     tool_version: str
     prefilter: bool
-    library_digest: str = ""  # the library source the change list points at, if any
+    library_digest: str = ""  # content hash of the library source the scan resolves against, if any
 
     @classmethod
-    def of(cls, changes: ChangeList, *, prefilter: bool) -> "ScanSettings":
-        return cls(changes.digest, __version__, prefilter, library_digest(changes.source))
+    def of(cls, changes: ChangeList, *, prefilter: bool, library: str = "") -> "ScanSettings":
+        """`library` is `scan.library.source_digest` of the change list's source ("" without one):
+        editing the library changes what its surface says, so it voids the cache like the change list."""
+        return cls(changes.digest, __version__, prefilter, library)
 
     @property
     def fingerprint(self) -> str:
@@ -53,29 +55,6 @@ class ScanSettings:
             f"\0{self.library_digest}"
         )
         return hashlib.sha256(text.encode()).hexdigest()
-
-
-def library_digest(source: str | os.PathLike[str] | None) -> str:
-    """Stamps of every file under the library source a scan resolves against (`[library] source`):
-    editing the library changes what its surface says, so it voids the cache like the change list."""
-    if source is None:
-        return ""
-    top = os.fspath(source)
-    parts: list[str] = []
-    if os.path.isfile(top):
-        walked: Iterable[tuple[str, list[str], list[str]]] = [(os.path.dirname(top), [], [os.path.basename(top)])]
-    else:
-        walked = os.walk(top)
-    for directory, dirs, files in walked:
-        dirs[:] = sorted(d for d in dirs if d != "__pycache__" and not d.startswith("."))
-        for name in sorted(files):
-            location = os.path.join(directory, name)
-            try:
-                info = os.stat(location)
-            except OSError:
-                continue
-            parts.append(f"{os.path.relpath(location, top)}:{info.st_mtime_ns}:{info.st_size}")
-    return _digest(parts) if parts else "missing"
 
 
 def origin_stamp(origin: str) -> str | None:

@@ -12,9 +12,8 @@ import contextlib
 import itertools
 from typing import TYPE_CHECKING, Any, Generator, Iterable, Iterator
 
-from impactscope.changes import ChangeList
-from impactscope.resolve.query import Query
 from impactscope.scan.executor import Batch, Scanned, picklable_batch, scan_batch, scan_batch_remote
+from impactscope.scan.library import ScanLibrary
 
 if TYPE_CHECKING:  # pragma: no cover
     from distributed import Client
@@ -59,7 +58,7 @@ def connect(address: str, *, timeout: float = 15.0) -> Iterator["Client"]:
 
 
 def scan_on_cluster(
-    address: str, batches: Iterable[Batch], changes: ChangeList, query: Query, prefilter: bool, fingerprint: str
+    address: str, batches: Iterable[Batch], library: ScanLibrary, prefilter: bool, fingerprint: str
 ) -> Generator[Scanned, None, None]:
     """`run_cluster` on a client of `address`, connected only once there is work to send
     (a warm rescan with nothing changed never starts or contacts a cluster)."""
@@ -68,13 +67,12 @@ def scan_on_cluster(
     if first is None:
         return
     with connect(address) as client:
-        yield from run_cluster(itertools.chain((first,), work), changes, query, prefilter, fingerprint, client)
+        yield from run_cluster(itertools.chain((first,), work), library, prefilter, fingerprint, client)
 
 
 def run_cluster(
     batches: Iterable[Batch],
-    changes: ChangeList,
-    query: Query,
+    library: ScanLibrary,
     prefilter: bool,
     fingerprint: str,
     client: "Client",
@@ -87,12 +85,14 @@ def run_cluster(
     limit = window or workers * 3
     finished = distributed.as_completed()
     pending: set[Any] = set()  # references only to unfinished work, so results are not pinned
+    # The library (change list and surface) goes to every worker once, not with every task.
+    shipped = client.scatter(library, broadcast=True)
     try:
         for batch in batches:
             if not picklable_batch(batch):
-                yield from scan_batch(batch, query, prefilter, fingerprint)
+                yield from scan_batch(batch, library.query, prefilter, fingerprint)
                 continue
-            future = client.submit(scan_batch_remote, changes, prefilter, fingerprint, batch, pure=False)
+            future = client.submit(scan_batch_remote, shipped, prefilter, fingerprint, batch, pure=False)
             pending.add(future)
             finished.add(future)
             while len(pending) >= limit:

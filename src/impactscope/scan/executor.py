@@ -2,8 +2,16 @@
 
 Work is cut by project, so cross-module resolution stays inside one worker; small projects travel
 in batches to keep the cost per task low. Each result comes back with the project's cache key,
-computed from the very listing the scan used. Results are yielded as batches finish; the caller
+computed from the very listing the scan used. Results are yielded as projects finish; the caller
 writes them, so the store has one writer. The output does not depend on the number of workers.
+
+Faults cost as little as they can. An exception escaping `scan_project` (it isolates files itself,
+so this is a bug outside any one file) marks that project's files "analysis error". A worker that
+dies (recursion in C code, memory exhaustion, a signal) is replaced; the projects of its batch
+that finished are kept, the ones it had not started are sent again, and the one it held is retried
+alone once, then recorded with reason "worker died". The pool is our own small one, not
+`concurrent.futures`, because that one breaks as a whole when a worker dies and cannot say which
+task the dead worker held.
 """
 
 from __future__ import annotations
@@ -15,29 +23,30 @@ import pickle
 import signal
 import threading
 from collections import deque
-from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import dataclass
-from typing import Generator, Iterable, Iterator, Sequence
+from typing import Any, Generator, Iterable, Iterator, Sequence
 
-from impactscope.changes import ChangeList
 from impactscope.corpus.roots import Entry, Project
+from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED, describe
 from impactscope.resolve.query import Query
 from impactscope.scan.cache import origin_stamp, project_key
-from impactscope.scan.project import ProjectResult, scan_project
+from impactscope.scan.library import ScanLibrary
+from impactscope.scan.project import ProjectResult, failed_project, scan_project
 
 Batch = tuple[Project, ...]
 
-# Per worker process: the query is compiled once (by the pool initializer, or on a cluster worker
-# by its first task), not per task. This is the one sanctioned per-process cache.
+# Per cluster worker process: the query compiled from the library it was sent, kept for its later
+# tasks. The one sanctioned per-process cache (pool workers hold theirs in a local variable).
 _WORKER: dict[str, object] = {}
 
 
 @dataclass(frozen=True)
 class Scanned:
-    """One project's results and the cache key of the listing they came from."""
+    """One project's results and the cache key of the listing they came from (None: not to be
+    reused by a rescan, because the project failed as a whole and may fare better next time)."""
 
     result: ProjectResult
-    key: str
+    key: str | None
 
 
 def scan_keyed(project: Project, query: Query, prefilter: bool, fingerprint: str) -> Scanned:
@@ -51,7 +60,10 @@ def scan_keyed(project: Project, query: Query, prefilter: bool, fingerprint: str
             yield entry
 
     recorded = Project(project.name, project.origin, listing)
-    result = scan_project(recorded, query, prefilter=prefilter)
+    try:
+        result = scan_project(recorded, query, prefilter=prefilter)
+    except Exception as exc:  # noqa: BLE001 - a bug outside any one file costs this project only
+        return Scanned(failed_project(project, ANALYSIS_ERROR, describe(exc, stage="project")), None)
     return Scanned(result, project_key(fingerprint, project, stamp, seen))
 
 
@@ -62,10 +74,10 @@ def scan_batch(batch: Sequence[Project], query: Query, prefilter: bool, fingerpr
 # ------------------------------------------------------------------ in this process
 
 
-def run_inline(batches: Iterable[Batch], query: Query, prefilter: bool, fingerprint: str) -> Generator[Scanned, None, None]:
+def run_inline(batches: Iterable[Batch], library: ScanLibrary, prefilter: bool, fingerprint: str) -> Generator[Scanned, None, None]:
     for batch in batches:
         for project in batch:
-            yield scan_keyed(project, query, prefilter, fingerprint)
+            yield scan_keyed(project, library.query, prefilter, fingerprint)
 
 
 # ------------------------------------------------------------------ process pool
@@ -84,50 +96,210 @@ def _exit_with_parent() -> None:
     threading.Thread(target=watch, name="impactscope-parent-watch", daemon=True).start()
 
 
-def _init_worker(changes: ChangeList, prefilter: bool, fingerprint: str) -> None:
-    # Ctrl-C is the parent's to handle: it commits what is done and stops the pool.
+def _worker_main(conn: multiprocessing.connection.Connection, library: ScanLibrary, prefilter: bool, fingerprint: str) -> None:
+    """A pool worker: receive a batch, send back one `Scanned` per project in order, then None."""
+    # Ctrl-C is the parent's to handle: it commits what is done and stops the workers.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     _exit_with_parent()
-    _WORKER["query"] = Query(changes)
-    _WORKER["prefilter"] = prefilter
-    _WORKER["fingerprint"] = fingerprint
+    # Forked: the query compiled by the parent came along. Spawned: compiled here, once, from
+    # the surface JSON that was sent; the library's source is never read by a worker.
+    query = library.query
+    while True:
+        try:
+            batch = conn.recv()
+        except EOFError:
+            return
+        if batch is None:
+            return
+        for project in batch:
+            conn.send(scan_keyed(project, query, prefilter, fingerprint))
+        conn.send(None)
 
 
-def _scan_in_worker(batch: Batch) -> list[Scanned]:
-    query = _WORKER["query"]
-    assert isinstance(query, Query)
-    return scan_batch(batch, query, bool(_WORKER["prefilter"]), str(_WORKER["fingerprint"]))
+@dataclass
+class _Task:
+    batch: Batch
+    retry: bool = False  # the batch is one project whose worker died once already
+    done: int = 0  # projects of the batch whose results came back
+
+
+@dataclass
+class _Worker:
+    process: Any  # multiprocessing.Process (of whichever start method)
+    conn: multiprocessing.connection.Connection
+    task: _Task | None = None
+
+
+class _Pool:
+    """`jobs` worker processes, each fed one batch at a time over its own pipe."""
+
+    def __init__(self, jobs: int, library: ScanLibrary, prefilter: bool, fingerprint: str) -> None:
+        self._context = multiprocessing.get_context()
+        self._library = library
+        self._args = (library, prefilter, fingerprint)
+        self._jobs = jobs
+        self.workers: list[_Worker] = []
+
+    def _start(self) -> _Worker:
+        if self._context.get_start_method() == "fork":
+            # Compiled once, here, before the first fork: every worker inherits it as it is.
+            self._library.query  # noqa: B018 - the property compiles and keeps the query
+        ours, theirs = self._context.Pipe(duplex=True)
+        process = self._context.Process(
+            target=_worker_main, args=(theirs, *self._args), name="impactscope-worker", daemon=True
+        )
+        process.start()
+        theirs.close()
+        worker = _Worker(process, ours)
+        self.workers.append(worker)
+        return worker
+
+    def has_room(self) -> bool:
+        return len(self.workers) < self._jobs or any(w.task is None for w in self.workers)
+
+    def idle(self) -> _Worker:
+        for worker in self.workers:
+            if worker.task is None:
+                return worker
+        return self._start()
+
+    def busy(self) -> list[_Worker]:
+        return [w for w in self.workers if w.task is not None]
+
+    def replace(self, dead: _Worker) -> None:
+        self.workers.remove(dead)
+        dead.conn.close()
+        dead.process.join(timeout=1)
+
+    def stop(self, *, now: bool) -> None:
+        for worker in self.workers:
+            if now:
+                worker.process.terminate()
+            else:
+                try:
+                    worker.conn.send(None)
+                except OSError:
+                    pass
+        for worker in self.workers:
+            worker.process.join(timeout=None if not now else 5)
+            worker.conn.close()
+        self.workers.clear()
+
+
+def _death(process: Any) -> str:
+    code = process.exitcode
+    if code is not None and code < 0:
+        try:
+            return f"killed by {signal.Signals(-code).name}"
+        except ValueError:
+            return f"killed by signal {-code}"
+    return f"exit code {code}"
+
+
+def _died_twice(project: Project, how: str) -> Scanned:
+    detail = (
+        f"the worker process died while scanning this project, twice ({how}); "
+        "likely causes: recursion too deep for C code, memory exhausted, a signal"
+    )
+    return Scanned(failed_project(project, WORKER_DIED, detail), None)
 
 
 def run_pool(
-    batches: Iterable[Batch], changes: ChangeList, query: Query, jobs: int, prefilter: bool, fingerprint: str
+    batches: Iterable[Batch], library: ScanLibrary, jobs: int, prefilter: bool, fingerprint: str
 ) -> Generator[Scanned, None, None]:
-    """Yield results as batches finish; a few batches per worker are in flight at most."""
-    window = jobs * 3
-    pending: deque[Future[list[Scanned]]] = deque()
-    pool = ProcessPoolExecutor(max_workers=jobs, initializer=_init_worker, initargs=(changes, prefilter, fingerprint))
+    """Yield results as projects finish. Each worker holds one batch at a time; the next batch
+    is planned while the workers run. A dead worker's batch is dealt with as the module says."""
+    pool = _Pool(jobs, library, prefilter, fingerprint)
+    work = iter(batches)
+    again: deque[_Task] = deque()  # sent again after a worker died: first in line
+    planned: deque[_Task] = deque()
+    exhausted = False
     finished = False
+
+    def next_task() -> _Task | None:
+        nonlocal exhausted
+        if again:
+            return again.popleft()
+        if planned:
+            return planned.popleft()
+        while not exhausted:
+            batch = next(work, None)
+            if batch is None:
+                exhausted = True
+                break
+            return _Task(batch)
+        return None
+
     try:
-        for batch in batches:
-            if not picklable_batch(batch):
-                # Cannot travel (e.g. holds an open archive): scan it here.
-                yield from scan_batch(batch, query, prefilter, fingerprint)
-                continue
-            pending.append(pool.submit(_scan_in_worker, batch))
-            while len(pending) >= window or (pending and pending[0].done()):
-                yield from pending.popleft().result()
-        while pending:
-            yield from pending.popleft().result()
+        while True:
+            inline: list[Batch] = []
+            while pool.has_room():
+                task = next_task()
+                if task is None:
+                    break
+                if not picklable_batch(task.batch):
+                    # Cannot travel (e.g. holds an open archive): scan it here.
+                    inline.append(task.batch)
+                    continue
+                worker = pool.idle()
+                worker.task = task
+                worker.conn.send(task.batch)
+            for batch in inline:
+                yield from scan_batch(batch, library.query, prefilter, fingerprint)
+            busy = pool.busy()
+            if not busy:
+                if again or planned or not exhausted:
+                    continue
+                break
+            if not exhausted and len(planned) < jobs:
+                # Plan ahead while the workers run (listing a project is I/O done here).
+                task = next_task()
+                if task is not None:
+                    planned.append(task)
+            ready = multiprocessing.connection.wait(
+                [w.conn for w in busy] + [w.process.sentinel for w in busy]
+            )
+            for worker in busy:
+                if worker.conn in ready or worker.process.sentinel in ready:
+                    yield from _collect(pool, worker, again)
         finished = True
     finally:
-        if finished:
-            pool.shutdown(wait=True)
-        else:
-            # Interrupted or failed: drop queued work and stop the workers now, not after their tasks.
-            processes = list((getattr(pool, "_processes", None) or {}).values())
-            pool.shutdown(wait=False, cancel_futures=True)
-            for process in processes:
-                process.terminate()
+        pool.stop(now=not finished)
+
+
+def _collect(pool: _Pool, worker: _Worker, again: deque[_Task]) -> Iterator[Scanned]:
+    """Take what `worker` has sent; if it died, deal with the batch it held."""
+    task = worker.task
+    assert task is not None
+    died = False
+    while True:
+        try:
+            if not worker.conn.poll():
+                break
+            message = worker.conn.recv()
+        except (EOFError, OSError, pickle.UnpicklingError):
+            died = True
+            break
+        if message is None:
+            worker.task = None
+            return
+        task.done += 1
+        yield message
+    if not died and worker.process.is_alive():
+        return
+    worker.process.join(timeout=5)
+    how = _death(worker.process)
+    pool.replace(worker)
+    if task.done >= len(task.batch):
+        return  # it died after its last result: nothing was lost
+    held = task.batch[task.done]
+    rest = task.batch[task.done + 1 :]
+    if rest:
+        again.append(_Task(rest))
+    if task.retry:
+        yield _died_twice(held, how)
+    else:
+        again.appendleft(_Task((held,), retry=True))
 
 
 def picklable_batch(batch: Batch) -> bool:
@@ -141,15 +313,26 @@ def picklable_batch(batch: Batch) -> bool:
 # ------------------------------------------------------------------ cluster workers
 
 
-def scan_batch_remote(changes: ChangeList, prefilter: bool, fingerprint: str, batch: Batch) -> list[Scanned]:
-    """The task a cluster worker runs: compile the query once per worker process, scan the batch."""
+def scan_batch_remote(library: ScanLibrary, prefilter: bool, fingerprint: str, batch: Batch) -> list[Scanned]:
+    """The task a cluster worker runs: compile the query once per worker process from the library
+    it was sent (never from the library's source), then scan the batch."""
+    identity = (library.changes.digest, library.digest)
     cached = _WORKER.get("remote")
-    if isinstance(cached, tuple) and cached[0] == changes.digest:
+    if isinstance(cached, tuple) and cached[0] == identity:
         query = cached[1]
     else:
-        query = Query(changes)
-        _WORKER["remote"] = (changes.digest, query)
+        query = library.query
+        _WORKER["remote"] = (identity, query)
     return scan_batch(batch, query, prefilter, fingerprint)
 
 
-__all__ = ["Batch", "Scanned", "run_inline", "run_pool", "scan_batch", "scan_batch_remote", "scan_keyed"]
+__all__ = [
+    "WORKER_DIED",
+    "Batch",
+    "Scanned",
+    "run_inline",
+    "run_pool",
+    "scan_batch",
+    "scan_batch_remote",
+    "scan_keyed",
+]

@@ -18,6 +18,7 @@ from impactscope.corpus.sources import (
 )
 from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding
+from impactscope.resolve.faults import ANALYSIS_ERROR, describe
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
@@ -62,6 +63,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     raw_texts: dict[str, str] = {}
     notebooks: dict[str, bytes] = {}
     order: list[str] = []
+    faults: dict[str, str] = {}  # files whose analysis failed unexpectedly: their one-line detail
     for entry in project.entries():
         order.append(entry.path)
         if entry.error is None and entry.size < 2_000_000 and _is_manifest(entry.path, entry.size):
@@ -110,22 +112,47 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             prior = outcomes[path]
             outcomes[path] = FileOutcome(path, "unparsed", exc.reason, exc.detail, prior.digest, prior.kind)
             keep.discard(path)
+        except Exception as exc:  # noqa: BLE001 - a bug in the notebook transform costs this file only
+            faults[path] = describe(exc, stage="notebook")
+            keep.discard(path)
     if narrowing:
-        for path in keep - plan.whole:
+        for path in sorted(keep - plan.whole):
             exported = _spelled_elsewhere(texts, path) if path in plan.importable else None
-            sources[path] = narrow(sources[path], query.names, plan.relays, exported)
-    resolver = ProjectResolver(project.name, query, sources)
+            try:
+                sources[path] = narrow(sources[path], query.names, plan.relays, exported)
+            except Exception as exc:  # noqa: BLE001 - a narrowing bug costs this file only
+                faults[path] = describe(exc, stage="narrowing")
+                keep.discard(path)
+    # A file that failed before the resolver is no module of the project for the others either.
+    resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults})
     for path in sorted(keep):
-        resolver.analyse(path)
-    resolver.finish()
+        try:
+            resolver.analyse(path)
+        except Exception as exc:  # noqa: BLE001 - the resolver isolates files itself; this is the last net
+            faults[path] = describe(exc, stage="resolver")
+    try:
+        resolver.finish()
+    except Exception as exc:  # noqa: BLE001 - as above: no finding of a file that did not finish
+        for path in resolver.files:
+            faults.setdefault(path, describe(exc, stage="matching"))
     for path, fa in resolver.files.items():
+        if path in faults:
+            continue
         prior = outcomes[path]
         outcomes[path] = FileOutcome(path, fa.status, fa.reason, fa.detail, prior.digest, prior.kind)
         result.findings.extend(fa.findings)
         if fa.reason == "python 2":
-            result.findings.extend(_legacy_findings(project.name, path, texts[path], query))
+            try:
+                result.findings.extend(_legacy_findings(project.name, path, texts[path], query))
+            except Exception as exc:  # noqa: BLE001 - the token-level reading is best effort too
+                faults[path] = describe(exc, stage="python 2 reading")
+                continue
         if fa.result is not None and fa.result.uses_library:
             result.uses_library = True
+    for path, detail in faults.items():
+        prior = outcomes[path]
+        outcomes[path] = FileOutcome(path, "unparsed", ANALYSIS_ERROR, detail, prior.digest, prior.kind)
+        result.findings = [f for f in result.findings if f.file != path]
     if not result.uses_library:
         # Files the prefilter passed over may still import the library without touching a change.
         # So may files that did not parse (Python 2), read by the same import-line test.
@@ -136,6 +163,24 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         )
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
+    return result
+
+
+def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
+    """A project that could not be scanned as a whole: every file it lists is still accounted for,
+    its sources as unparsed with `reason` (skipped and unreadable files keep their own reasons)."""
+    result = ProjectResult(name=project.name, origin=project.origin)
+    try:
+        for entry in project.entries():
+            if entry.error is not None:
+                outcome = FileOutcome(entry.path, "unparsed", entry.error.split(":", 1)[0], entry.error)
+            elif entry.skip is not None:
+                outcome = FileOutcome(entry.path, "skipped", entry.skip)
+            else:
+                outcome = FileOutcome(entry.path, "unparsed", reason, detail)
+            result.files.append(outcome)
+    except Exception:  # noqa: BLE001 - what was listed before the listing failed is kept
+        pass
     return result
 
 

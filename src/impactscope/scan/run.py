@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
+import itertools
 import json
 import os
 import time
@@ -21,7 +22,6 @@ from typing import Generator, Iterable, Iterator, Sequence
 
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.roots import Entry, Project, archive_stem, check_roots, discover
-from impactscope.resolve.query import Query
 from impactscope.scan.cache import (
     ScanSettings,
     held,
@@ -32,6 +32,8 @@ from impactscope.scan.cache import (
     streamed,
 )
 from impactscope.scan.executor import Batch, Scanned, run_inline, run_pool
+from impactscope.scan.library import ScanLibrary, prepare_library, source_digest
+from impactscope.resolve.faults import ANALYSIS_ERROR
 from impactscope.scan.progress import ScanProgress, Silent, Tally
 from impactscope.store import CachedProject, ResultStore
 
@@ -56,6 +58,13 @@ class ScanSummary:
     out: Path
     reused: int = 0  # projects taken unchanged from the earlier scan in the same results file
     removed: int = 0  # projects of the earlier scan that are no longer in the corpus
+    # Files by reason of failure, over the whole results file: "analysis error" (an unexpected
+    # exception met on that file) and "worker died" (its project's worker process died twice).
+    faults: dict[str, int] = dataclasses.field(default_factory=dict)
+
+    @property
+    def analysis_errors(self) -> int:
+        return self.faults.get(ANALYSIS_ERROR, 0)
 
 
 class _Tallier:
@@ -175,6 +184,8 @@ def run_scan(
     """
     changes = _with_library(load_change_list(changes_path), library_source, library_installed)
     check_roots(roots)
+    out = Path(out)
+    _check_out(out)
     # Absolute, so that origins and cache keys do not depend on the working directory and
     # workers elsewhere (a cluster) find the corpus at the same path.
     roots = [os.path.abspath(os.fspath(root)) for root in roots]
@@ -182,8 +193,11 @@ def run_scan(
         raise ScanOptionError("--cluster needs a scheduler address such as tcp://host:8786, or `local`")
     workers = jobs if jobs > 0 else (os.cpu_count() or 1)
     text = Path(changes_path).read_text(encoding="utf-8")
-    settings = ScanSettings.of(changes, prefilter=prefilter)
+    digest = source_digest(changes.source, changes.import_name) if changes.source is not None else ""
+    settings = ScanSettings.of(changes, prefilter=prefilter, library=digest)
     fingerprint = settings.fingerprint
+    ignored: list[tuple[str, str]] = []  # root-level items that are not projects
+    found = _nonempty(discover(roots, single=single, library=changes.import_name, ignored=ignored), roots, ignored)
     if fresh:
         store, kept = ResultStore.create(out, changes, text, settings=fingerprint), False
     else:
@@ -193,16 +207,14 @@ def run_scan(
     tallier = _Tallier(total, display)
     seen: set[str] = set()
     removed = 0
+    faults: dict[str, int] = {}
     display.start(total)
     try:
         with contextlib.ExitStack() as stack:
             cached = store.cached() if kept else {}
-            query = Query(changes)
-            ignored: list[tuple[str, str]] = []  # root-level items that are not projects
-            found = discover(roots, single=single, library=changes.import_name, ignored=ignored)
             batches = _plan(found, cached, fingerprint, tallier, seen)
             results = stack.enter_context(
-                contextlib.closing(_execute(batches, changes, query, prefilter, fingerprint, workers, cluster))
+                contextlib.closing(_execute(batches, changes, out, digest, prefilter, fingerprint, workers, cluster))
             )
             last_commit = time.monotonic()
             uncommitted = 0
@@ -218,6 +230,7 @@ def run_scan(
         store.commit()
         removed = store.prune(seen)
         store.set_meta(not_projects=json.dumps(sorted(ignored)), complete="1")
+        faults = store.fault_counts()
     finally:
         # Whatever finished is whole and worth keeping: a rerun resumes from here.
         store.commit()
@@ -225,7 +238,7 @@ def run_scan(
         display.finish(tallier.tally())
     return ScanSummary(
         tallier.projects, tallier.files, tallier.findings, time.perf_counter() - tallier.started,
-        Path(out), tallier.reused, removed,
+        out, tallier.reused, removed, faults,
     )
 
 
@@ -252,22 +265,61 @@ def _with_library(
     return changes
 
 
+def _check_out(out: Path) -> None:
+    """Refuse an --out that cannot be written before any work is done."""
+    folder = out.parent
+    if not folder.exists():
+        raise ScanOptionError(f"--out {out}: the folder {folder} does not exist; create it or pass another --out")
+    if not folder.is_dir():
+        raise ScanOptionError(f"--out {out}: {folder} is not a folder; pass another --out")
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise ScanOptionError(f"--out {out}: the folder {folder} is not writable; pass another --out")
+
+
+def _nonempty(found: Iterator[Project], roots: Sequence[str], ignored: list[tuple[str, str]]) -> Iterator[Project]:
+    """`found`, after checking that it holds a project (only the first is looked at; the rest are
+    discovered as the scan goes). A scan of nothing is a mistake (a wrong path), not a result."""
+    first = next(found, None)
+    if first is None:
+        where = ", ".join(roots)
+        if ignored:
+            reasons = sorted({reason for _, reason in ignored})
+            held = f"holds {len(ignored)} item(s) that are not projects ({'; '.join(reasons)})"
+        else:
+            held = "is empty"
+        raise ScanOptionError(
+            f"{where}: no projects to scan: the root {held}; pass a folder or archive whose children are "
+            "projects, or add --single to scan a root as one project"
+        )
+    return itertools.chain((first,), found)
+
+
 def _execute(
     batches: Iterable[Batch],
     changes: ChangeList,
-    query: Query,
+    out: Path,
+    digest: str,
     prefilter: bool,
     fingerprint: str,
     workers: int,
     cluster: str | None,
 ) -> Generator[Scanned, None, None]:
+    """Run the batches; the library is prepared (surface read or loaded from beside `out`) only
+    once there is a batch, so a rescan that changed nothing never touches it."""
+    work = iter(batches)
+    first = next(work, None)
+    if first is None:
+        return
+    library = prepare_library(changes, out, digest)
+    work = itertools.chain((first,), work)
     if cluster is not None:
         from impactscope.scan.cluster import scan_on_cluster
 
-        return scan_on_cluster(cluster.strip(), batches, changes, query, prefilter, fingerprint)
-    if workers > 1:
-        return run_pool(batches, changes, query, workers, prefilter, fingerprint)
-    return run_inline(batches, query, prefilter, fingerprint)
+        yield from scan_on_cluster(cluster.strip(), work, library, prefilter, fingerprint)
+    elif workers > 1:
+        yield from run_pool(work, library, workers, prefilter, fingerprint)
+    else:
+        yield from run_inline(work, library, prefilter, fingerprint)
 
 
 __all__ = ["ChangeList", "ScanOptionError", "ScanSummary", "count_projects", "run_scan"]
