@@ -6,6 +6,7 @@ from packaging.version import Version
 from impactscope.exposure import (
     MANIFEST_PATTERNS,
     Declared,
+    DeclaredPython,
     Exposure,
     ExposureError,
     Manifests,
@@ -620,6 +621,14 @@ heronframe = {version = "<2.8", sys_platform = "== 'win32'"}
         ("src/setup_helpers.py", False),
         (".venv/lib/python3.12/site-packages/x/requirements.txt", False),
         ("node_modules/x/setup.py", False),
+        # Core metadata counts at the top of the project only (a wheel's dist-info, an sdist's
+        # PKG-INFO); the file names are exact (the wheel and sdist format specifications).
+        ("PKG-INFO", True),
+        ("wpkg-1.0.dist-info/METADATA", True),
+        ("src/wpkg.egg-info/PKG-INFO", False),
+        ("vendor/other-2.0.dist-info/METADATA", False),
+        ("wpkg-1.0.dist-info/metadata", False),
+        ("METADATA", False),
     ],
 )
 def test_is_manifest(path, expected):
@@ -630,3 +639,224 @@ def test_is_manifest(path, expected):
 def test_non_manifest_files_are_ignored_and_constraints_need_an_include():
     files = {"notes.txt": b"heronframe<2\n", "constraints.txt": b"heronframe<2\n"}
     assert read_manifests(files, "heronframe") == Manifests((), ())
+
+
+# --- core metadata: wheel METADATA and sdist PKG-INFO ---------------------------------------
+
+WHEEL_METADATA = "wpkg-1.0.dist-info/METADATA"
+
+
+def metadata(*headers: str, body: str = "") -> bytes:
+    head = "Metadata-Version: 2.1\nName: wpkg\nVersion: 1.0\n" + "".join(h + "\n" for h in headers)
+    return (head + ("\n" + body if body else "")).encode()
+
+
+# Source: the core metadata specification, "Requires-Dist" and "Requires-Python" (its own
+# examples: pkginfo, PasteDeploy, `zope.interface (>3.5.0)` with the parentheses tools must
+# accept, `pywin32 >1.0; sys_platform == 'win32'`, `Requires-Python: >=3.6`).
+def test_core_metadata_specification_examples():
+    data = metadata(
+        "Requires-Dist: pkginfo",
+        "Requires-Dist: PasteDeploy",
+        "Requires-Dist: zope.interface (>3.5.0)",
+        "Requires-Dist: pywin32 >1.0; sys_platform == 'win32'",
+        "Requires-Python: >=3.6",
+    )
+    files = {WHEEL_METADATA: data}
+    zope = one(files, "zope.interface")
+    assert zope.source == f"{WHEEL_METADATA}:6" and zope.specifier == SpecifierSet(">3.5.0")
+    assert classify([zope], "3.5.0", PY312) is Exposure.SHIELDED
+    assert classify([zope], "3.6", PY312) is Exposure.EXPOSED
+    pywin32 = one(files, "pywin32")
+    assert classify([pywin32], "1.0", PY312 | {"sys_platform": "linux"}) is Exposure.UNCONSTRAINED
+    assert classify([pywin32], "1.0", PY312 | {"sys_platform": "win32"}) is Exposure.SHIELDED
+    assert one(files, "pkginfo").specifier is None
+    read = read_manifests(files, "pastedeploy")  # PEP 503 names
+    assert read.python == (DeclaredPython(f"{WHEEL_METADATA}:8", ">=3.6", SpecifierSet(">=3.6")),)
+    assert read.problems == ()
+
+
+# Source: PEP 508, its first examples ("All features of the language shown with a name based
+# lookup", "A minimal URL based lookup"), given as Requires-Dist values.
+def test_pep508_examples_in_metadata():
+    files = {"PKG-INFO": metadata(
+        'Requires-Dist: requests [security,tests] >= 2.8.1, == 2.8.* ; python_version < "2.7"',
+        "Requires-Dist: pip @ https://github.com/pypa/pip/archive/1.3.1.zip"
+        "#sha1=da9234ee9982d4bbb3c72346a6de940a148ea686",
+    )}
+    requests = one(files, "requests")
+    assert requests.specifier == SpecifierSet(">=2.8.1,==2.8.*")
+    assert classify([requests], "2.9", PY312) is Exposure.UNCONSTRAINED  # the marker is false
+    assert classify([requests], "2.9", environment_for_python("2.6")) is Exposure.SHIELDED
+    assert classify([requests], "2.8.5", environment_for_python("2.6")) is Exposure.EXPOSED
+    pip = one(files, "pip")
+    assert pip.direct_reference and classify([pip], "1.3.1", PY312) is Exposure.UNCONSTRAINED
+
+
+# Source: the core metadata specification, "Provides-Extra": its example `Provides-Extra: pdf`
+# with `Requires-Dist: reportlab; extra == 'pdf'`. Our rule (module docstring): a requirement
+# under an extra is a declaration, as optional-dependencies and extras_require are.
+def test_requirements_under_an_extra_count():
+    example = {WHEEL_METADATA: metadata("Provides-Extra: pdf", "Requires-Dist: reportlab; extra == 'pdf'")}
+    assert classify([one(example, "reportlab")], "4.0", PY312) is Exposure.UNCONSTRAINED
+    files = {WHEEL_METADATA: metadata("Provides-Extra: plot", 'Requires-Dist: heronframe<2; extra == "plot"')}
+    assert classify([one(files)], "2.0", PY312) is Exposure.SHIELDED
+    assert classify([one(files)], "1.5", PY312) is Exposure.EXPOSED
+    both = {WHEEL_METADATA: metadata('Requires-Dist: heronframe<2; extra == "plot" and python_version < "3"')}
+    assert classify([one(both)], "2.0", PY312) is Exposure.UNCONSTRAINED  # false for every extra
+    reversed_test = {WHEEL_METADATA: metadata("Requires-Dist: heronframe<2; 'plot' == extra")}
+    assert classify([one(reversed_test)], "2.0", PY312) is Exposure.SHIELDED
+    # The same rule in PEP 621: an optional-dependencies entry limits the version too.
+    pyproject = {"pyproject.toml": b'[project]\nname = "p"\n[project.optional-dependencies]\nplot = ["heronframe<2"]\n'}
+    assert classify([one(pyproject)], "2.0", PY312) is Exposure.SHIELDED
+
+
+def test_core_metadata_only_at_the_top_and_other_fields_ignored():
+    files = {
+        "sub/PKG-INFO": metadata("Requires-Dist: heronframe<2"),
+        "vendor/x-1.dist-info/METADATA": metadata("Requires-Dist: heronframe<2"),
+        WHEEL_METADATA: metadata("Requires-External: heronframe (<2)", "Obsoletes-Dist: heronframe (<1)",
+                                 body="Requires-Dist: heronframe<2 is only prose in the description"),
+    }
+    assert read_manifests(files, "heronframe") == Manifests((), ())
+
+
+def test_folded_headers_and_line_numbers():
+    # Source: the core metadata specification: the format is email headers as the standard
+    # library's email.parser reads them (compat32); a line starting with white space folds.
+    data = metadata("Summary: one", "  folded", "Requires-Dist: other", "Requires-Dist: heronframe>=1.2")
+    declared = one({"PKG-INFO": data})
+    assert declared.source == "PKG-INFO:7" and declared.specifier == SpecifierSet(">=1.2")
+
+
+def test_core_metadata_problems():
+    bad_utf8 = b"Metadata-Version: 2.1\nName: w\nVersion: 1\nRequires-Dist: heronframe<2 # caf\xe9\n"
+    read = read_manifests({"PKG-INFO": bad_utf8}, "heronframe")
+    assert read.declared == () and read.problems == (
+        "PKG-INFO: cannot read Requires-Dist (not valid UTF-8, or given more than once where once "
+        "is allowed); not read",)
+    twice = metadata("Requires-Python: >=3.8", "Requires-Python: <4")
+    assert read_manifests({"PKG-INFO": twice}, "heronframe").problems[0].startswith(
+        "PKG-INFO: cannot read Requires-Python")
+    invalid = read_manifests({"PKG-INFO": metadata("Requires-Dist: heronframe <<2")}, "heronframe")
+    assert invalid.declared == () and invalid.problems[0].startswith("PKG-INFO:4: invalid requirement")
+    bad_python = read_manifests({"PKG-INFO": metadata("Requires-Python: three")}, "heronframe")
+    assert bad_python.python == () and "invalid Python version specifier" in bad_python.problems[0]
+
+
+# Source: the core metadata specification, "Dynamic" (2.2): in an sdist, a field marked Dynamic
+# may hold any value in a wheel built from it.
+def test_dynamic_requires_dist_in_an_sdist_is_read_with_a_problem():
+    data = metadata("Dynamic: Requires-Dist", "Requires-Dist: heronframe<2").replace(b"2.1", b"2.2", 1)
+    read = read_manifests({"PKG-INFO": data}, "heronframe")
+    assert [d.text for d in read.declared] == ["heronframe<2"]
+    assert read.problems == ("PKG-INFO: Requires-Dist is marked Dynamic, so a wheel built from this sdist "
+                             "may declare other requirements (core metadata 2.2)",)
+    # In a wheel, Dynamic is for information only.
+    assert read_manifests({WHEEL_METADATA: data}, "heronframe").problems == ()
+
+
+# --- Requires-Python ----------------------------------------------------------------------------
+
+
+def test_python_declarations_in_every_format():
+    files = {
+        "pyproject.toml": b'[project]\nname = "p"\nrequires-python = ">=3.8"\n'
+                          b'[tool.poetry.dependencies]\npython = "^3.9"\n',
+        "setup.cfg": b"[options]\npython_requires = >=3.7\n",
+        "setup.py": b"from setuptools import setup\nsetup(\n    python_requires='>=3.6',\n)\n",
+    }
+    read = read_manifests(files, "heronframe")
+    assert [(d.source, d.specifier) for d in read.python] == [
+        ("pyproject.toml [project.requires-python]", SpecifierSet(">=3.8")),
+        ("pyproject.toml [tool.poetry.dependencies]", SpecifierSet(">=3.9,<4")),  # Poetry's caret (above)
+        ("setup.cfg [options.python_requires]", SpecifierSet(">=3.7")),
+        ("setup.py:3", SpecifierSet(">=3.6")),
+    ]
+
+
+def python(text):
+    return DeclaredPython("PKG-INFO:5", text, SpecifierSet(text))
+
+
+# Source: PEP 440 comparison and exclusion operators; the Python releases 2.0-2.7 and 3.x are
+# common knowledge.
+@pytest.mark.parametrize(
+    ("project", "release", "meet"),
+    [
+        ([">=3.6"], ">=3.9", True),
+        (["<3.8"], ">=3.9", False),
+        (["<3.9"], ">=3.9", False),
+        (["<=3.9"], ">=3.9", True),
+        (["==3.8.*"], ">=3.8.1", True),
+        (["==3.8.*"], ">=3.9", False),
+        (["!=3.0.*,!=3.1.*,>=2.7,<3.2"], ">=3", False),
+        ([">=2.7,!=3.0.*,!=3.1.*"], ">=3.0", True),
+        ([">3.8"], "<=3.8.0", False),
+        ([">3.8"], "<3.9", True),  # 3.8.1 is greater than 3.8
+        (["~=3.7"], "<3.7", False),
+        (["~=3.7", "<3.10"], ">=3.9", True),
+        (["~=3.7", "<3.9"], ">=3.9", False),
+        (["==2.7.*"], ">=3.6", False),
+    ],
+)
+def test_project_and_release_pythons(project, release, meet):
+    declared = [spec("<5")]
+    got = classify(declared, "2.0", PY312, python=[python(p) for p in project], release_python=SpecifierSet(release))
+    assert got is (Exposure.EXPOSED if meet else Exposure.SHIELDED)
+
+
+def test_python_without_release_python_changes_nothing():
+    assert classify([], "2.0", PY312, python=[python("<3.8")]) is Exposure.UNCONSTRAINED
+    assert classify([], "2.0", PY312, python=[python("<3.8")], release_python=SpecifierSet(">=3.9")) \
+        is Exposure.SHIELDED
+    assert classify([], "2.0", PY312, python=(), release_python=SpecifierSet(">=3.9")) is Exposure.UNCONSTRAINED
+
+
+# --- end to end: a wheel's METADATA decides its exposure in the report ----------------------
+
+
+def test_a_wheel_that_pins_below_the_release_is_shielded(tmp_path):
+    import json
+    import zipfile
+
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text(
+        '[library]\nname = "heronframe"\nrelease = "2.0"\nrequires_python = ">=3.9"\n\n'
+        '[types]\n"heronframe.Table" = "heronframe.Table"\n\n'
+        '[[change]]\nid = "HF-1"\nmember = "heronframe.Table.stack_rows"\nkind = "removed"\n'
+    )
+    code = "import heronframe\nt = heronframe.Table()\nt.stack_rows()\n"
+    wheels = {
+        "pinned-1.0-py3-none-any.whl": metadata("Requires-Dist: heronframe<2"),
+        "open-1.0-py3-none-any.whl": metadata("Requires-Dist: heronframe>=1.5"),
+        "plain-1.0-py3-none-any.whl": metadata("Requires-Dist: numpy"),
+        "extra-1.0-py3-none-any.whl": metadata('Requires-Dist: heronframe<2; extra == "plot"'),
+        "oldpy-1.0-py3-none-any.whl": metadata("Requires-Python: <3.8"),
+    }
+    root = tmp_path / "wheels"
+    root.mkdir()
+    for name, meta in wheels.items():
+        stem = name.split("-py3")[0]
+        with zipfile.ZipFile(root / name, "w") as archive:
+            archive.writestr(f"{stem.split('-')[0]}/__init__.py", code)
+            archive.writestr(f"{stem}.dist-info/METADATA", meta)
+    runner = CliRunner()
+    out = tmp_path / "r.sqlite"
+    scanned = runner.invoke(app, ["scan", str(changes), str(root), "--out", str(out), "--jobs", "1"])
+    assert scanned.exit_code == 0, scanned.output
+    report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
+    exposure = {p["project"]: p["exposure"] for p in report["projects"]}
+    assert exposure == {
+        "pinned-1.0-py3-none-any": "shielded",
+        "open-1.0-py3-none-any": "exposed",
+        "plain-1.0-py3-none-any": "unconstrained",
+        "extra-1.0-py3-none-any": "shielded",
+        "oldpy-1.0-py3-none-any": "shielded",
+    }
+    (change,) = report["changes"]
+    assert change["exposure"] == {"exposed": 1, "shielded": 3, "unconstrained": 1}

@@ -1,6 +1,7 @@
 from __future__ import annotations
 
 import io
+import json
 import os
 import pickle
 import random
@@ -393,9 +394,10 @@ def test_vendored_library_needs_init(tmp_path: Path) -> None:
 
 
 def test_too_large(tmp_path: Path) -> None:
+    # A notebook's size is mostly outputs: its reader applies the limit to its code (see sources).
     files = {"big.py": b"#" * (MAX_FILE_SIZE + 1), "edge.py": b"#" * MAX_FILE_SIZE,
-             "big.csv": b"," * (MAX_FILE_SIZE + 1)}
-    expected = {"big.py": "too large", "edge.py": None, "big.csv": "not source"}
+             "big.csv": b"," * (MAX_FILE_SIZE + 1), "big.ipynb": b" " * (MAX_FILE_SIZE + 1)}
+    expected = {"big.py": "too large", "edge.py": None, "big.csv": "not source", "big.ipynb": None}
     got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files),
                    write_tar(tmp_path / "t.tar", files, "w"), single=True)
     assert got == {"f": expected, "z": expected, "t": expected}
@@ -612,3 +614,139 @@ def test_root_level_items_that_are_not_projects_are_reported(tmp_path: Path) -> 
     assert reasons[".hidden"] == "hidden"
     assert reasons["escape.py"] == "unsafe path"
     assert reasons["readme.txt"].startswith("not a project")
+
+
+# ------------------------------------------------------------------ wheels and sdists
+
+# A wheel is a zip archive holding its packages and `{name}-{version}.dist-info/` (PEP 427, the
+# binary distribution format); the wheel's own file name says {name}-{version}-{tags}.whl.
+WHEEL_FILES: dict[str, bytes | str] = {
+    "wpkg/__init__.py": "import heronframe\n",
+    "wpkg/plot.py": "from wpkg import heronframe\n",
+    "wpkg-1.0.dist-info/METADATA": "Metadata-Version: 2.1\nName: wpkg\nVersion: 1.0\n",
+    "wpkg-1.0.dist-info/RECORD": "",
+}
+WHEEL_NAME = "wpkg-1.0-py3-none-any.whl"
+WHEEL_LISTING = {
+    "wpkg-1.0.dist-info/METADATA": "not source",
+    "wpkg-1.0.dist-info/RECORD": "not source",
+    "wpkg/__init__.py": None,
+    "wpkg/plot.py": None,
+}
+# An sdist `{name}-{version}.tar.gz` holds one top folder `{name}-{version}/` (the source
+# distribution format); paths are relative to it.
+SDIST_FILES: dict[str, bytes | str] = {
+    "spkg-2.1/PKG-INFO": "Metadata-Version: 2.2\nName: spkg\nVersion: 2.1\n",
+    "spkg-2.1/setup.py": "from setuptools import setup\nsetup(name='spkg')\n",
+    "spkg-2.1/spkg/__init__.py": "import heronframe\n",
+}
+SDIST_LISTING = {"PKG-INFO": "not source", "setup.py": None, "spkg/__init__.py": None}
+
+
+def test_wheels_in_a_folder_are_projects(tmp_path: Path) -> None:
+    root = tmp_path / "wheels"
+    root.mkdir()
+    write_zip(root / WHEEL_NAME, WHEEL_FILES)
+    write_zip(root / "other-0.1-py2.py3-none-any.whl", {"other.py": "x = 1\n"})
+    ignored: list[tuple[str, str]] = []
+    found = list(discover([root], library=LIB, ignored=ignored))
+    assert ignored == []
+    assert [p.name for p in found] == ["other-0.1-py2.py3-none-any", "wpkg-1.0-py3-none-any"]
+    assert listing(found[1]) == WHEEL_LISTING
+    assert found[1].origin == str(root / WHEEL_NAME)
+
+
+@pytest.mark.parametrize("single", [False, True])
+def test_a_wheel_given_as_a_root_is_one_project(tmp_path: Path, single: bool) -> None:
+    wheel = write_zip(tmp_path / WHEEL_NAME, WHEEL_FILES)
+    check_roots([wheel])
+    assert projects(wheel, single=single) == {"wpkg-1.0-py3-none-any": WHEEL_LISTING}
+
+
+def test_wheels_inside_archive_roots(tmp_path: Path) -> None:
+    inner = io.BytesIO()
+    with zipfile.ZipFile(inner, "w") as archive:
+        for name, content in WHEEL_FILES.items():
+            archive.writestr(name, _bytes(content))
+    members = {WHEEL_NAME: inner.getvalue()}
+    expected = {"wpkg-1.0-py3-none-any": WHEEL_LISTING}
+    assert projects(write_zip(tmp_path / "outer.zip", members)) == expected
+    assert projects(write_tar(tmp_path / "outer.tar.gz", members)) == expected
+
+
+def test_corrupt_wheel_is_counted(tmp_path: Path) -> None:
+    root = tmp_path / "wheels"
+    root.mkdir()
+    (root / WHEEL_NAME).write_bytes(NOISE)
+    (listed,) = projects(root).values()
+    ((path, reason),) = listed.items()
+    assert path == WHEEL_NAME and reason is not None and reason.startswith("error: corrupt archive")
+
+
+def test_sdist_paths_are_relative_to_its_top_folder_however_it_is_given(tmp_path: Path) -> None:
+    folder = tmp_path / "sdists"
+    folder.mkdir()
+    tarred = write_tar(folder / "spkg-2.1.tar.gz", SDIST_FILES)
+    zipped = write_zip(tmp_path / "spkg-2.1.zip", SDIST_FILES)
+    assert projects(folder) == {"spkg-2.1": SDIST_LISTING}  # an sdist in a folder root
+    assert projects(tarred, single=True) == {"spkg-2.1": SDIST_LISTING}
+    assert projects(zipped, single=True) == {"spkg-2.1": SDIST_LISTING}
+    # As a root without --single, the top folder is the one child, hence the one project.
+    assert projects(tarred) == {"spkg-2.1": SDIST_LISTING}
+    assert projects(zipped) == {"spkg-2.1": SDIST_LISTING}
+    outer = write_tar(tmp_path / "outer.tar", {"spkg-2.1.tar.gz": tarred.read_bytes()}, "w")
+    assert projects(outer) == {"spkg-2.1": SDIST_LISTING}
+
+
+def test_top_folder_rule_edges(tmp_path: Path) -> None:
+    # A member outside the top folder keeps its archive path.
+    odd = write_tar(tmp_path / "spkg-2.1.tar.gz", {**SDIST_FILES, "stray.py": "x = 1\n"})
+    assert projects(odd, single=True) == {"spkg-2.1": {**SDIST_LISTING, "stray.py": None}}
+    # A stem that is an identifier may name a package folder, which must keep its path.
+    package = {"mylib/__init__.py": "", "setup.py": ""}
+    for archive in (write_zip(tmp_path / "mylib.zip", package), write_tar(tmp_path / "mylib.tgz", package)):
+        assert projects(archive, single=True) == {"mylib": {"mylib/__init__.py": None, "setup.py": None}}
+    # A top folder not named like the archive is kept.
+    other = write_tar(tmp_path / "spkg-2.2.tar.gz", prefixed("elsewhere", {"a.py": ""}))
+    assert projects(other, single=True) == {"spkg-2.2": {"elsewhere/a.py": None}}
+
+
+def test_tar_member_can_be_read_again_while_the_stream_is_at_it(tmp_path: Path) -> None:
+    # A scan reads setup.py as a manifest, then again as a source: both reads happen before the
+    # iterator advances, and must give the same bytes.
+    sdist = write_tar(tmp_path / "spkg-2.1.tar.gz", SDIST_FILES)
+    (project,) = discover([sdist], library=LIB, single=True)
+    seen = {}
+    for entry in project.entries():
+        if entry.skip is None:
+            first = entry.read()
+            assert entry.read() == first
+            seen[entry.path] = first
+    assert seen == {"setup.py": _bytes(SDIST_FILES["spkg-2.1/setup.py"]),
+                    "spkg/__init__.py": b"import heronframe\n"}
+
+
+def test_every_sdist_member_is_read_by_a_scan(tmp_path: Path) -> None:
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\nrelease = "2.0"\n\n'
+                       '[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n')
+    root = tmp_path / "corpus"
+    root.mkdir()
+    files = {**SDIST_FILES, "spkg-2.1/setup.py": "from setuptools import setup\n"
+             "setup(name='spkg', install_requires=['heronframe<2'])\n"}
+    write_tar(root / "spkg-2.1.tar.gz", files)
+    write_zip(root / "spkg-2.1.zip", files)
+    runner = CliRunner()
+    out = tmp_path / "r.sqlite"
+    scanned = runner.invoke(app, ["scan", str(changes), str(root), "--out", str(out), "--jobs", "1"])
+    assert scanned.exit_code == 0, scanned.output
+    report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
+    assert report["totals"]["files"] == 6
+    assert report["totals"]["files_unparsed"] == 0, report["file_reasons"]
+    # setup.py was read twice, as a manifest and as a source, in the one pass over the tar.
+    assert {p["project"]: p["constraint"] for p in report["projects"]} == {
+        "spkg-2.1": "heronframe<2", "spkg-2.1@corpus": "heronframe<2"}

@@ -1,10 +1,14 @@
 from __future__ import annotations
 
 import ast
+import base64
 import io
+import json
 import os
+import random
 import sysconfig
 import tokenize
+import tracemalloc
 import warnings
 
 import nbformat
@@ -21,9 +25,12 @@ from impactscope.corpus.sources import (
     _transform,
     decode_python,
     looks_like_python2,
+    notebook_text,
     read_notebook,
     read_python,
+    without_outputs,
 )
+from impactscope.corpus.roots import MAX_FILE_SIZE
 
 
 def reference_decode(data: bytes) -> str:
@@ -410,3 +417,127 @@ def test_python2_check_never_raises_and_valid_code_is_false(text: str) -> None:
     except (SyntaxError, ValueError):
         return
     assert not result
+
+
+# ------------------------------------------------------- notebook size and outputs
+
+
+def plotted_notebook(code: list[str], image_bytes: int, version: int = 4) -> bytes:
+    """A notebook whose code cells each carry a PNG-like display output and a stream output
+    (output types per nbformat v4 / v3) of about `image_bytes` of base64 data."""
+    noise = random.Random(0).randbytes(image_bytes * 3 // 4)
+    picture = base64.b64encode(noise).decode()
+    if version == 3:
+        cells = [v3.new_code_cell(input=text, outputs=[
+            v3.new_output("display_data", output_png=picture),
+            v3.new_output("stream", output_text="done\n"),
+        ]) for text in code]
+        return notebook_bytes(v3.new_notebook(worksheets=[v3.new_worksheet(cells=cells)]), version=3)
+    cells = [v4.new_code_cell(text, outputs=[
+        v4.new_output("display_data", data={"image/png": picture, "text/plain": "<Figure>"}),
+        v4.new_output("stream", text="done\n"),
+    ]) for text in code]
+    cells.insert(1, v4.new_markdown_cell("![x](attachment:x.png)", attachments={"x.png": {"image/png": picture}}))
+    return notebook_bytes(v4.new_notebook(cells=cells))
+
+
+@pytest.mark.parametrize("version", [3, 4])
+def test_outputs_do_not_count_towards_the_size_limit(version: int) -> None:
+    code = ["import heronframe as hf\nt = hf.read_table('a')", "t.stack_rows(1)"]
+    data = plotted_notebook(code, MAX_FILE_SIZE, version)
+    assert len(data) > 2 * MAX_FILE_SIZE
+    assert notebook_text(data, "n.ipynb") == "\n".join(code)
+    assert [(c.index, c.code) for c in read_notebook(data, "n.ipynb").cells] == reference_code_cells(data)
+
+
+def test_code_over_the_size_limit_is_too_large() -> None:
+    big = "x = 1  # " + "#" * (MAX_FILE_SIZE // 2)
+    data = plotted_notebook([big, big], 1000)
+    for read in (notebook_text, read_notebook):
+        with pytest.raises(SourceError) as caught:
+            read(data, "n.ipynb")
+        assert caught.value.reason == "too large"
+        assert "n.ipynb" in caught.value.detail and str(MAX_FILE_SIZE) in caught.value.detail
+    just_under = plotted_notebook([big[: MAX_FILE_SIZE // 2 - 1]] * 2, 1000)  # two halves and a newline
+    assert len(notebook_text(just_under, "n.ipynb").encode()) == MAX_FILE_SIZE - 1
+    read_notebook(just_under, "n.ipynb")
+
+
+def test_without_outputs_cuts_outputs_and_attachments_only() -> None:
+    data = plotted_notebook(["a = 1", "b = 2"], 50_000)
+    lean = without_outputs(data)
+    assert len(lean) < 2_000
+    before, after = json.loads(data), json.loads(lean)
+    for cell in before["cells"]:
+        cell.pop("outputs", None) and cell.update(outputs=[])
+        cell.pop("attachments", None) and cell.update(attachments={})
+    assert after == before
+    plain = notebook_bytes(v4.new_notebook(cells=[v4.new_code_cell("a = 1")]))
+    assert without_outputs(plain) == plain  # empty outputs: nothing to cut
+
+
+# JSON strings that look like structure: brackets, quotes, escapes and the key names inside strings.
+tricky_text = st.lists(st.sampled_from(list('ab[]{}:,"\\\n é') + ['"outputs":', "outputs", '"attachments"'])).map("".join)
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(tricky_text, st.lists(tricky_text, max_size=3)), min_size=1, max_size=4))
+def test_without_outputs_keeps_every_other_value(cells: list[tuple[str, list[str]]]) -> None:
+    # Reference: the JSON grammar (RFC 8259) as the json module reads it.
+    document = {"metadata": {"note": "outputs"}, "nbformat": 4, "nbformat_minor": 5, "cells": [
+        {"cell_type": "code", "source": code, "metadata": {"outputs": texts},
+         "outputs": [{"output_type": "stream", "text": texts}]}
+        for code, texts in cells
+    ]}
+    data = json.dumps(document, ensure_ascii=False).encode()
+    for cell in document["cells"]:
+        cell["outputs"] = []
+        cell["metadata"]["outputs"] = []  # the key is cut wherever it is: it is never read
+    assert json.loads(without_outputs(data)) == document
+
+
+@pytest.mark.parametrize("data", [b'{"cells": [{"outputs": [1, 2}', b'{"outputs": ', b'{"outputs": [[[', b'{"outputs"'])
+def test_without_outputs_leaves_broken_json_to_the_parser(data: bytes) -> None:
+    assert without_outputs(data) == data
+    with pytest.raises(SourceError, match="invalid notebook"):
+        notebook_text(data, "n.ipynb")
+
+
+def test_reading_a_plotted_notebook_never_holds_its_outputs() -> None:
+    code = [f"import heronframe as hf\nt{i} = hf.read_table('{i}')\n" + "t.stack_rows()\n" * 200 for i in range(8)]
+    data = plotted_notebook(code, 1_500_000)  # 8 images of 1.5 MB: 12 MB of outputs
+    tracemalloc.start()
+    try:
+        lean = without_outputs(data)
+        text = notebook_text(lean, "n.ipynb")
+        source = read_notebook(lean, "n.ipynb")
+        _, peak = tracemalloc.get_traced_memory()
+    finally:
+        tracemalloc.stop()
+    assert len(source.cells) == 8 and "stack_rows" in text
+    # The code is 27 kB; the limit leaves room for nbformat and IPython's transformer at work,
+    # and is far below a single image (1.5 MB).
+    assert peak < 1_000_000, peak
+
+
+def test_scan_decides_a_notebook_by_its_code(tmp_path) -> None:
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[types]\n"heronframe.Table" = "heronframe.Table"\n\n'
+                       '[[change]]\nid = "HF-1"\nmember = "heronframe.Table.stack_rows"\nkind = "removed"\n')
+    project = tmp_path / "corpus" / "analysis"
+    project.mkdir(parents=True)
+    uses = "import heronframe\nt = heronframe.Table()\nt.stack_rows()"
+    (project / "plots.ipynb").write_bytes(plotted_notebook([uses], MAX_FILE_SIZE))
+    (project / "huge.ipynb").write_bytes(plotted_notebook([uses + "\n#" + "x" * MAX_FILE_SIZE], 1000))
+    runner = CliRunner()
+    out = tmp_path / "r.sqlite"
+    scanned = runner.invoke(app, ["scan", str(changes), str(tmp_path / "corpus"), "--out", str(out), "--jobs", "1"])
+    assert scanned.exit_code == 0, scanned.output
+    report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
+    assert [(f["file"], f["cell"], f["line"]) for f in report["findings"]] == [("plots.ipynb", 0, 3)]
+    assert {"status": "skipped", "reason": "too large", "files": 1} in report["file_reasons"]
+    assert report["totals"]["files_parsed"] == 1

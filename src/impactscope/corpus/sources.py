@@ -144,57 +144,66 @@ _BULKY_KEYS = frozenset({"outputs", "attachments"})
 
 def _lean_object(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
     """A JSON object without what a scan never reads: an output (any object with an
-    `output_type`, nbformat v3 and v4) becomes empty, and `outputs` / `attachments` lists
-    become empty, as soon as each is parsed, so that at most one output's data is alive."""
+    `output_type`, nbformat v3 and v4) becomes empty, and so do `outputs` / `attachments`
+    values, as soon as each is parsed, so that at most one output's data is alive. (After
+    `without_outputs` there is little left to drop: this covers bytes it had to leave whole.)"""
     if any(key == "output_type" for key, _ in pairs):
         return {}
-    return {key: ([] if key in _BULKY_KEYS else value) for key, value in pairs}
+    return {key: (type(value)() if key in _BULKY_KEYS and isinstance(value, (list, dict)) else value)
+            for key, value in pairs}
 
 
 # A JSON string, or a character that opens, closes or separates (RFC 8259 grammar). Strings
 # are matched whole, so brackets inside them are never counted.
 _JSON_TOKEN = re.compile(rb'"[^"\\]*(?:\\.[^"\\]*)*"|[\[\]{}:]')
 _BULKY_JSON_KEYS = frozenset(b'"%s"' % key.encode() for key in _BULKY_KEYS)
+_QUOTE, _COLON = ord('"'), ord(":")
+_CLOSER_OF, _CLOSERS = {ord("["): ord("]"), ord("{"): ord("}")}, frozenset(b"]}")
 
 
 def without_outputs(data: bytes) -> bytes:
     """A notebook's bytes with the contents of every `outputs` and `attachments` array or
     object cut out, found by a scan of the raw bytes, so that neither a decoded copy of the
-    outputs nor their parsed objects ever exist. What is left reads the same with
-    `notebook_text` and `read_notebook`, and is what a caller should hold on to. The JSON
-    parser reads what is left (and reports any fault in it); should the scan find the
-    brackets unbalanced, `data` comes back whole for the parser to judge."""
+    outputs nor their parsed objects ever exist (tokens are looked at in place: a long string
+    is never copied). What is left reads the same with `notebook_text` and `read_notebook`,
+    and is what a caller should hold on to. The JSON parser reads what is left (and reports
+    any fault in it); should the scan find the brackets unbalanced, `data` comes back whole
+    for the parser to judge."""
     if not any(key in data for key in _BULKY_JSON_KEYS):
         return data
+    longest_key = max(map(len, _BULKY_JSON_KEYS))
     pieces: list[bytes] = []
     kept = 0  # data[kept:] is not in pieces yet
     tokens = _JSON_TOKEN.finditer(data)
-    previous: bytes = b""
+    key = False  # whether the last token was a string that names a bulky key
     for match in tokens:
-        token = match.group()
-        if token == b":" and previous in _BULKY_JSON_KEYS:
+        start, end = match.span()
+        first = data[start]
+        if first == _COLON and key:
             value = next(tokens, None)
             if value is None:
                 return data
-            if value.group() not in (b"[", b"{"):
-                previous = value.group()
+            opener = data[value.start()]
+            if opener not in _CLOSER_OF:
+                key = False
                 continue
-            depth = 1
+            expected = [_CLOSER_OF[opener]]  # the closing brackets still owed, innermost last
             for inner in tokens:
-                mark = inner.group()
-                if mark in (b"[", b"{"):
-                    depth += 1
-                elif mark in (b"]", b"}"):
-                    depth -= 1
-                    if depth == 0:
+                mark = data[inner.start()]
+                if mark in _CLOSER_OF:
+                    expected.append(_CLOSER_OF[mark])
+                elif mark in _CLOSERS:
+                    if mark != expected.pop():
+                        return data
+                    if not expected:
                         pieces.append(data[kept : value.end()])
                         kept = inner.start()
                         break
             else:
                 return data
-            previous = b""
+            key = False
             continue
-        previous = token
+        key = first == _QUOTE and end - start <= longest_key and data[start:end] in _BULKY_JSON_KEYS
     pieces.append(data[kept:])
     return b"".join(pieces)
 

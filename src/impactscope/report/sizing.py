@@ -91,7 +91,8 @@ def project_facts(
         exposure: str | None = None
         if name in resolved_projects:
             if changes.release is not None:
-                exposure = classify(declared, changes.release, environment).value
+                exposure = classify(declared, changes.release, environment, python=read.python,
+                                    release_python=changes.requires_python).value
             else:
                 exposure = "unconstrained"
         out[name] = {
