@@ -250,3 +250,59 @@ def test_load_from_disk(tmp_path: Path) -> None:
 def test_errors_are_value_errors() -> None:
     # DESIGN.md: errors subclass ValueError (the packaging style the design points to).
     assert issubclass(ChangeListError, ValueError)
+
+
+# ---------------------------------------------------------------------------- the library's modules
+@pytest.mark.parametrize(("name", "expected"), [
+    ("heronframe", "heronframe"),
+    # PEP 503 "Normalized Names": runs of -, _ and . become one -, lowercase; then - -> _.
+    ("Heron.Frame", "heron_frame"),
+    ("heron--frame_tools", "heron_frame_tools"),
+    ("HeronFrame", "heronframe"),
+])
+def test_the_top_module_defaults_to_the_normalised_name(name: str, expected: str) -> None:
+    member = f'[[change]]\nmember = "{expected}.Table"\nkind = "removed"\n'
+    cl = parse(f'[library]\nname = "{name}"\n' + member)
+    assert cl.import_name == expected and cl.top_modules == frozenset({expected})
+
+
+def test_a_member_outside_the_library_names_the_entry_and_the_fix() -> None:
+    message = error(second('id = "HF-2"\nmember = "datetime.datetime"\nkind = "removed"\n'), "pd.toml")
+    assert message.startswith("pd.toml: [[change]] #2 (id 'HF-2'): member 'datetime.datetime' is not under")
+    assert "(heronframe)" in message and "heronframe.datetime.datetime" in message
+    assert "[library] modules" in message
+
+
+def test_modules_lists_every_top_level_module() -> None:
+    text = '[library]\nname = "heronframe"\nmodules = ["heronframe", "heron_io"]\n' + FIRST + \
+        '[[change]]\nmember = "heron_io.read"\nkind = "removed"\n'
+    cl = parse(text)
+    assert cl.modules == ("heronframe", "heron_io") and cl.import_name == "heronframe"
+    assert cl.top_modules == frozenset({"heronframe", "heron_io"})
+    # The import name defaults to the first module listed.
+    only = parse('[library]\nname = "heron-frame-tools"\nmodules = ["hft"]\n[[change]]\nmember = "hft.x"\nkind = "removed"\n')
+    assert only.import_name == "hft"
+    assert "(heronframe, heron_io)" in error(text + '[[change]]\nmember = "numpy.x"\nkind = "removed"\n')
+
+
+@pytest.mark.parametrize("value", ['"heronframe"', "[]", '["heron.frame"]', "[1]"])
+def test_bad_modules(value: str) -> None:
+    message = error(f'[library]\nname = "heronframe"\nmodules = {value}\n' + FIRST)
+    assert "[library] modules" in message and 'e.g. modules = ["heronframe"]' in message
+
+
+def test_import_name_must_be_one_of_the_modules() -> None:
+    message = error('[library]\nname = "heronframe"\nmodules = ["heronframe"]\nimport_name = "hf"\n' + FIRST)
+    assert "import_name 'hf'" in message and "modules" in message
+
+
+def test_dynamic_flag() -> None:
+    cl = parse(second('member = "heronframe.datetime"\nkind = "removed"\ndynamic = true\n'))
+    assert [c.dynamic for c in cl.changes] == [False, True]
+    message = error(second('id = "HF-2"\nmember = "heronframe.datetime"\nkind = "removed"\ndynamic = "yes"\n'))
+    assert "#2" in message and "dynamic must be true or false" in message
+
+
+def test_label_names_the_file_and_the_entry() -> None:
+    cl = parse(HEAD + FIRST + '[[change]]\nid = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\n', "c.toml")
+    assert cl.label(cl.changes[1]) == "c.toml: [[change]] #2 (id 'HF-2')"

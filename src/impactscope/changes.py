@@ -35,10 +35,10 @@ class Kind(str, enum.Enum):
 
 _DOTTED = re.compile(r"[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-9_]*)*\Z")
 _IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
-_LIBRARY_KEYS = {"name", "release", "requires_python", "source", "import_name"}
+_LIBRARY_KEYS = {"name", "release", "requires_python", "source", "import_name", "modules"}
 _CHANGE_KEYS = {
     "id", "member", "kind", "replacement", "parameter", "new_parameter",
-    "position", "deprecated_in", "note",
+    "position", "deprecated_in", "note", "dynamic",
 }
 _TOP_KEYS = {"library", "types", "change"}
 
@@ -54,6 +54,7 @@ class Change:
     position: int | None = None
     deprecated_in: Version | None = None
     note: str = ""
+    dynamic: bool = False  # served at run time (a module __getattr__, ...): no surface need show it
 
     @property
     def name(self) -> str:
@@ -71,13 +72,23 @@ class ChangeList:
     source: Path | None = None
     types: Mapping[str, str] = field(default_factory=dict)
     digest: str = ""
+    modules: tuple[str, ...] = ()  # the library's top-level modules; () means (import_name,)
+    path: Path | None = field(default=None, compare=False)  # the file it was read from, for messages
 
     @property
     def top_modules(self) -> frozenset[str]:
         """Top-level import names a downstream file must mention to be affected."""
         tops = {c.member.split(".", 1)[0] for c in self.changes}
         tops.add(self.import_name)
+        tops.update(self.modules)
         return frozenset(tops)
+
+    def label(self, change: Change) -> str:
+        """How messages name an entry: `FILE: [[change]] #N (id 'X')`."""
+        index = next((i for i, c in enumerate(self.changes) if c is change), None)
+        where = str(self.path) if self.path is not None else "the change list"
+        number = f" #{index + 1}" if index is not None else ""
+        return f"{where}: [[change]]{number} (id {change.id!r})"
 
     def by_id(self, change_id: str) -> Change:
         for change in self.changes:
@@ -123,9 +134,16 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
             f"allowed are {', '.join(sorted(_LIBRARY_KEYS))}"
         )
     name = library["name"]
-    import_name = library.get("import_name", name.replace("-", "_"))
+    modules = _modules(library, where)
+    import_name = library.get("import_name", modules[0] if modules else normalise(name))
     if not isinstance(import_name, str) or not _IDENT.match(import_name):
         raise ChangeListError(f"{where}: [library] import_name {import_name!r} is not a Python identifier")
+    if modules and import_name not in modules:
+        raise ChangeListError(
+            f"{where}: [library] import_name {import_name!r} is not one of modules = {list(modules)}; "
+            "add it to modules or drop import_name"
+        )
+    tops = modules or (import_name,)
     release = _version(library.get("release"), f"{where}: [library] release")
     requires_python = None
     if "requires_python" in library:
@@ -149,7 +167,7 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
     changes: list[Change] = []
     seen: dict[str, int] = {}
     for index, entry in enumerate(entries):
-        change = _change(entry, index, where)
+        change = _change(entry, index, where, tops)
         if change.id in seen:
             raise ChangeListError(
                 f"{where}: [[change]] #{index + 1} (id {change.id!r}): duplicate id, also used by "
@@ -166,7 +184,29 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
         source=source,
         types=types,
         digest=hashlib.sha256(raw).hexdigest(),
+        modules=modules,
+        path=path,
     )
+
+
+def normalise(name: str) -> str:
+    """The import name a distribution name suggests: PEP 503 normalisation (runs of `-`, `_`
+    and `.` become one `-`, lowercase), then `-` -> `_` (common practice: `scikit-posthocs`
+    installs `scikit_posthocs`)."""
+    return re.sub(r"[-_.]+", "-", name).lower().replace("-", "_")
+
+
+def _modules(library: Mapping[str, Any], where: str) -> tuple[str, ...]:
+    value = library.get("modules")
+    if value is None:
+        return ()
+    if (not isinstance(value, list) or not value
+            or not all(isinstance(m, str) and _IDENT.match(m) for m in value)):
+        raise ChangeListError(
+            f'{where}: [library] modules must be a non-empty list of top-level module names, '
+            f'e.g. modules = ["heronframe"]; got {value!r}'
+        )
+    return tuple(dict.fromkeys(value))
 
 
 def _version(value: Any, what: str) -> Version | None:
@@ -192,7 +232,7 @@ def _types(table: Any, where: str) -> dict[str, str]:
     return out
 
 
-def _change(entry: Any, index: int, where: str) -> Change:
+def _change(entry: Any, index: int, where: str, tops: tuple[str, ...]) -> Change:
     label = f"{where}: [[change]] #{index + 1}"
     if not isinstance(entry, dict):
         raise ChangeListError(f"{label}: must be a table")
@@ -206,6 +246,13 @@ def _change(entry: Any, index: int, where: str) -> Change:
     member = entry.get("member")
     if not isinstance(member, str) or not _DOTTED.match(member):
         raise ChangeListError(f'{label}: member must be a fully dotted name, e.g. member = "heronframe.Table.stack_rows"')
+    if member.split(".", 1)[0] not in tops:
+        listed = ", ".join(tops)
+        raise ChangeListError(
+            f"{label}: member {member!r} is not under the library's top-level module{'s' if len(tops) > 1 else ''} "
+            f"({listed}); write its full dotted path from there (e.g. {tops[0]}.{member}), or list "
+            f"{member.split('.', 1)[0]!r} in [library] modules if the library installs it"
+        )
     kind_text = entry.get("kind")
     try:
         kind = Kind(kind_text)
@@ -243,6 +290,9 @@ def _change(entry: Any, index: int, where: str) -> Change:
             raise ChangeListError(f"{label}: position applies only to parameter-* and default-changed kinds")
         if isinstance(position, bool) or not isinstance(position, int) or position < 0:
             raise ChangeListError(f"{label}: position must be a whole number >= 0 (0-based, self excluded)")
+    dynamic = entry.get("dynamic", False)
+    if not isinstance(dynamic, bool):
+        raise ChangeListError(f"{label}: dynamic must be true or false (true: the member is served at run time)")
     return Change(
         id=change_id,
         member=member,
@@ -253,4 +303,5 @@ def _change(entry: Any, index: int, where: str) -> Change:
         position=position,
         deprecated_in=_version(entry.get("deprecated_in"), f"{label}: deprecated_in"),
         note=text("note") or "",
+        dynamic=dynamic,
     )

@@ -163,6 +163,7 @@ def library_model(changes: ChangeList, *, source: "os.PathLike[str] | str | None
     from pathlib import Path
 
     from impactscope.surface import build_surface, locate_installed
+    from impactscope.surface.check import check_members
 
     where: Path | None
     if installed is not None:
@@ -175,4 +176,6 @@ def library_model(changes: ChangeList, *, source: "os.PathLike[str] | str | None
         return TypesModel(changes)
     if not Path(where).exists():
         raise FileNotFoundError(2, "library source not found; fix [library] source or --library-source", str(where))
-    return SurfaceModel(build_surface(where, changes.import_name), changes)
+    surface = build_surface(where, changes.import_name)
+    check_members(changes, surface, where)  # a changed member the surface lacks is an input error
+    return SurfaceModel(surface, changes)

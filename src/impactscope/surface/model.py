@@ -278,6 +278,19 @@ class Surface:
         """Canonical classes and modules that have a member called `attr`, inherited included."""
         return self._owners.get(attr, frozenset())
 
+    def names_in(self, dotted: str) -> tuple[str, ...]:
+        """The attribute names known on a module or class (a class's inherited ones too), sorted;
+        () for anything else."""
+        target = self.canonical(dotted)
+        member = self.members.get(target)
+        if member is None:
+            return ()
+        if member.kind == "class":
+            return tuple(sorted(self._attrs.get(target, {})))
+        if member.kind == "module":
+            return tuple(sorted(self._children.get(target, {})))
+        return ()
+
     def public_names(self) -> frozenset[str]:
         """Every public dotted path: canonical members, re-exports, and class members through them."""
         return self._public
