@@ -211,8 +211,9 @@ def test_editing_the_library_source_voids_the_cache(corpus, tmp_path):
     _, roots = corpus
     library = tmp_path / "lib" / "heronframe"
     library.mkdir(parents=True)
-    (library / "__init__.py").write_text("from .ops import stack\n")
-    (library / "ops.py").write_text("def stack(tables):\n    return tables[0]\n")
+    # The library defines both changed members: a change list naming a member its source lacks is refused.
+    (library / "__init__.py").write_text("from .ops import stack, Table\n")
+    (library / "ops.py").write_text("class Table:\n    def stack_rows(self): ...\ndef stack(tables):\n    return tables[0]\n")
     changes = write_changes(tmp_path, CHANGES.replace('release = "3.0"', 'release = "3.0"\nsource = "lib/heronframe"'))
     out = tmp_path / "r.sqlite"
     run_scan(changes, roots[:1], out, jobs=1)
@@ -220,5 +221,5 @@ def test_editing_the_library_source_voids_the_cache(corpus, tmp_path):
     info = (library / "ops.py").stat()
     os.utime(library / "ops.py", ns=(info.st_atime_ns, info.st_mtime_ns + 1_000_000_000))
     assert run_scan(changes, roots[:1], out, jobs=1).reused == 9
-    (library / "ops.py").write_text("def stack(tables, axis=0):\n    return tables[0]\n")
+    (library / "ops.py").write_text("class Table:\n    def stack_rows(self): ...\ndef stack(tables, axis=0):\n    return tables[0]\n")
     assert run_scan(changes, roots[:1], out, jobs=1).reused == 0

@@ -100,14 +100,22 @@ def prepare_library(changes: ChangeList, out: Path, digest: str | None = None) -
     if not digest:
         digest = source_digest(changes.source, changes.import_name)
     cache = surface_file(out, digest)
+    from impactscope.surface.check import check_members
+
     try:
         # Written by an atomic rename, so a file that is there is whole.
-        return ScanLibrary(changes, cache.read_text(encoding="utf-8"), digest, str(cache))
+        cached = ScanLibrary(changes, cache.read_text(encoding="utf-8"), digest, str(cache))
     except (OSError, UnicodeDecodeError):
         pass
+    else:
+        # The change list may differ from the one the file was built for: check it (exit 2 on a
+        # typo). `query` reads the surface from the JSON once; it is then kept for this process.
+        check_members(changes, cached.query.model._surface, changes.source)  # type: ignore[attr-defined]
+        return cached
     from impactscope.surface import build_surface
 
     built = build_surface(changes.source, changes.import_name)
+    check_members(changes, built, changes.source)
     text = json.dumps(built.to_json(), separators=(",", ":"))
     _write_atomically(cache, text)
     for stale in out.parent.glob(f"{glob.escape(out.name)}{SURFACE_SUFFIX}*.json"):
