@@ -99,3 +99,27 @@ def test_library_model_runs_the_check(source, tmp_path) -> None:
         library_model(load_change_list(path), source=source)
     path.write_text(path.read_text().replace("apend", "append"))
     assert library_model(load_change_list(path), source=source).canonical("heronframe.Frame.append") == "heronframe.frame.Frame.append"
+
+
+def test_scan_exits_2_on_a_typo_and_names_the_fix(source, tmp_path) -> None:
+    # DESIGN.md "Command line": exit code 2 for bad input, one clear message, no traceback. Twice:
+    # first with the surface built, then with the surface file a good scan left beside the results.
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    corpus = write_tree(tmp_path / "corpus", {"p1/a.py": "import heronframe as hf\nhf.Frame().append(1)\n"})
+    good, bad = tmp_path / "good.toml", tmp_path / "bad.toml"
+    text = '[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.Frame.append"\nkind = "removed"\n'
+    good.write_text(text)
+    bad.write_text(text.replace(".append", ".apend"))
+    out = tmp_path / "r.sqlite"
+    runner = CliRunner()
+    for changes in (bad, good, bad):
+        result = runner.invoke(app, ["scan", str(changes), str(corpus), "--out", str(out), "--jobs", "1",
+                                     "--library-source", str(source)])
+        if changes is good:
+            assert result.exit_code == 0, result.output
+            continue
+        assert result.exit_code == 2, result.output
+        assert "did you mean 'heronframe.Frame.append'?" in result.output and "Traceback" not in result.output
