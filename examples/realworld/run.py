@@ -16,6 +16,7 @@ archives in place instead of the unpacked folders. Scans run with `--jobs 1` unl
 from __future__ import annotations
 
 import argparse
+import ast
 import csv
 import io
 import json
@@ -194,6 +195,122 @@ def cmd_scan(corpus: Corpus, work: Path, jobs: int, archives: bool, only: str | 
     timing_file.write_text(json.dumps(timings, indent=1))
 
 
+# ------------------------------------------------------------------ verify
+
+
+@dataclass(frozen=True)
+class Surface:
+    """What a package's source defines, read with ast: enough to see a member come and go."""
+
+    names: dict[str, frozenset[str]]  # module -> names it binds at top level (and its __getattr__ answers)
+    stars: dict[str, tuple[str, ...]]  # module -> modules it star-imports
+    classes: dict[str, tuple[frozenset[str], tuple[str, ...]]]  # simple name -> (members, base simple names)
+    functions: dict[str, frozenset[str]]  # simple name -> parameter names, deprecated keyword names too
+
+    def binds(self, module: str, name: str, seen: frozenset[str] = frozenset()) -> bool:
+        if module in seen or module not in self.names:
+            return False
+        return name in self.names[module] or any(self.binds(m, name, seen | {module}) for m in self.stars[module])
+
+
+def _absolute(module: str, node: ast.ImportFrom, is_package: bool) -> str:
+    if not node.level:
+        return node.module or ""
+    base = module.split(".")[: len(module.split(".")) - node.level + (1 if is_package else 0)]
+    return ".".join(base + ([node.module] if node.module else []))
+
+
+def read_surface(package: Path) -> Surface:
+    names: dict[str, set[str]] = {}
+    stars: dict[str, list[str]] = {}
+    classes: dict[str, tuple[set[str], list[str]]] = {}
+    functions: dict[str, set[str]] = {}
+    for path in package.rglob("*.py"):
+        rel = path.relative_to(package.parent).with_suffix("")
+        if "tests" in rel.parts:
+            continue
+        is_package = rel.name == "__init__"
+        module = ".".join(rel.parts[:-1] if is_package else rel.parts)
+        bound, starred = names.setdefault(module, set()), stars.setdefault(module, [])
+        try:
+            tree = ast.parse(path.read_bytes())
+        except SyntaxError:
+            continue
+        for node in tree.body:
+            if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
+                bound.add(node.name)
+            elif isinstance(node, ast.Assign):
+                bound.update(t.id for t in node.targets if isinstance(t, ast.Name))
+            elif isinstance(node, ast.Import):
+                bound.update((a.asname or a.name).split(".")[0] for a in node.names)
+            elif isinstance(node, ast.ImportFrom):
+                for alias in node.names:
+                    if alias.name == "*":
+                        starred.append(_absolute(module, node, is_package))
+                    else:
+                        bound.add(alias.asname or alias.name)
+            if isinstance(node, ast.FunctionDef) and node.name == "__getattr__":
+                # PEP 562 module __getattr__: the names it compares against still resolve.
+                bound.update(c.value for c in ast.walk(node) if isinstance(c, ast.Constant) and isinstance(c.value, str))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ClassDef):
+                members, bases = classes.setdefault(node.name, (set(), []))
+                bases.extend(b.id if isinstance(b, ast.Name) else b.attr for b in node.bases
+                             if isinstance(b, (ast.Name, ast.Attribute)))
+                for item in node.body:
+                    if isinstance(item, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                        members.add(item.name)
+                    elif isinstance(item, ast.Assign):
+                        members.update(t.id for t in item.targets if isinstance(t, ast.Name))
+            if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                a = node.args
+                params = functions.setdefault(node.name, set())
+                params.update(x.arg for x in a.posonlyargs + a.args + a.kwonlyargs)
+                # A keyword still accepted through a renaming decorator (pandas' deprecate_kwarg).
+                for deco in node.decorator_list:
+                    if isinstance(deco, ast.Call):
+                        params.update(k.value.value for k in deco.keywords
+                                      if k.arg == "old_arg_name" and isinstance(k.value, ast.Constant))
+    return Surface({k: frozenset(v) for k, v in names.items()}, {k: tuple(v) for k, v in stars.items()},
+                   {k: (frozenset(m), tuple(b)) for k, (m, b) in classes.items()},
+                   {k: frozenset(v) for k, v in functions.items()})
+
+
+def _class_has(surface: Surface, cls: str, name: str, seen: frozenset[str] = frozenset()) -> bool:
+    if cls in seen or cls not in surface.classes:
+        return False
+    members, bases = surface.classes[cls]
+    return name in members or any(_class_has(surface, b, name, seen | {cls}) for b in bases)
+
+
+def member_present(surface: Surface, change: dict) -> bool:
+    parts = change["member"].split(".")
+    if change["kind"] in ("parameter-removed", "parameter-renamed", "default-changed"):
+        return change["parameter"] in surface.functions.get(parts[-1], frozenset())
+    dotted = ".".join(parts)
+    if dotted in surface.names:
+        return True
+    parent = ".".join(parts[:-1])
+    if parent in surface.names:
+        return surface.binds(parent, parts[-1])
+    return len(parts) > 2 and _class_has(surface, parts[-2], parts[-1])
+
+
+def cmd_verify(corpus: Corpus, work: Path) -> int:
+    """Each change's member is in the old release's source and gone from the new one's."""
+    bad = 0
+    for lib in corpus.libraries:
+        old = read_surface(library_source(work, lib, "old"))
+        new = read_surface(library_source(work, lib, "new"))
+        for change in changes_of(lib):
+            before, after = member_present(old, change), member_present(new, change)
+            ok = before and not after
+            bad += not ok
+            print(f"{lib.name:9} {change['id']:26} {lib.old.version}: {'yes' if before else 'NO '}  "
+                  f"{lib.new.version}: {'yes' if after else 'no '}  {'' if ok else '<- check by hand'}")
+    return 1 if bad else 0
+
+
 # ------------------------------------------------------------------ candidates
 
 
@@ -248,7 +365,7 @@ def cmd_candidates(corpus: Corpus, work: Path) -> None:
 
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
-    parser.add_argument("step", choices=("fetch", "unpack", "scan", "candidates", "score", "all"))
+    parser.add_argument("step", choices=("fetch", "unpack", "verify", "scan", "candidates", "score", "all"))
     parser.add_argument("--work", type=Path, required=True, help="folder for downloads and results (not the repository)")
     parser.add_argument("--jobs", type=int, default=1)
     parser.add_argument("--archives", action="store_true", help="scan the downloaded archives in place")
@@ -261,6 +378,8 @@ def main() -> int:
         cmd_fetch(corpus, work)
     if args.step in ("unpack", "all"):
         cmd_unpack(corpus, work)
+    if args.step == "verify":
+        return cmd_verify(corpus, work)
     if args.step in ("scan", "all"):
         cmd_scan(corpus, work, args.jobs, args.archives, args.library, args.tool_src)
     if args.step in ("candidates", "all"):
