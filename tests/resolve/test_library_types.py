@@ -28,7 +28,7 @@ LIBRARY = {
     "heronframe/__init__.py": """
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
-        from heronframe.io import read_table
+        from heronframe.io import read_table, pick
         from heronframe import util
     """,
     "heronframe/core/__init__.py": "",
@@ -79,11 +79,21 @@ LIBRARY = {
                 return iter(())
     """,
     "heronframe/io.py": """
+        from typing import overload, Literal
         from heronframe.core.frame import Table
+        from heronframe.core.column import Column
 
 
         def read_table(path) -> Table:
             return Table()
+
+
+        @overload
+        def pick(path, single: Literal[True]) -> Column: ...
+        @overload
+        def pick(path, single: Literal[False] = ...) -> Table: ...
+        def pick(path, single=False):
+            return Column() if single else Table()
     """,
     "heronframe/_checks.py": """
         __all__ = ["assert_same"]
@@ -122,6 +132,11 @@ kind = "removed"
 id = "C-PAIRS"
 member = "heronframe.Column.iter_pairs"
 kind = "removed"
+
+[[change]]
+id = "DESC"
+member = "heronframe.core.base.Shaped.describe"
+kind = "behaviour-changed"
 
 [[change]]
 id = "CHECKS"
@@ -341,3 +356,22 @@ def test_attributes_of_project_classes_annotated_with_library_types(query: Query
     assert at(hits, 10, "T-STACK") == "resolved"
     assert at(hits, 11, "C-PAIRS") == "resolved"
     assert at(hits, 12, "T-STACK") == "resolved"
+
+
+def test_overloads_that_differ_leave_the_class_open(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        x = hf.pick("p")
+        x.merge_all(1)
+        x.describe()
+        x.iter_pairs()
+        x.transpose().stack_rows(2)
+    """
+    hits = found(query, code)
+    # PEP 484 overloads: `pick` returns a Column or a Table. Each class's change is one reading.
+    assert at(hits, 3, "T-MERGE") == "inferred" and at(hits, 3, "C-MERGE") == "inferred"
+    # Both classes inherit `describe` from Shaped: whichever it is, the change applies.
+    assert at(hits, 4, "DESC") == "resolved"
+    assert at(hits, 5, "C-PAIRS") == "inferred"
+    # Only a Table has `transpose`, which returns a Table.
+    assert at(hits, 6, "T-STACK") == "resolved"

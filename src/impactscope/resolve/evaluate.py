@@ -20,6 +20,7 @@ from impactscope.resolve.values import (
     Foreign,
     Inst,
     Lib,
+    OneOf,
     ProjMod,
     Super,
     Tup,
@@ -44,8 +45,6 @@ _BUILTIN_RESULTS = frozenset(
         "object", "memoryview", "slice",
     )
 )
-# Member kinds whose attribute access yields a value (typed by the library), not a callable.
-_VALUE_KINDS = frozenset({"property", "constant", "unknown"})
 _PROPERTY_DECORATORS = frozenset({"builtins.property", "functools.cached_property"})
 _FIRST_PARAM_METHODS = frozenset({"method", "property"})
 # How many calls deep return values are inferred: deeper chains give "unknown" rather than
@@ -89,6 +88,7 @@ class Ref:
     # Library imports of the `try` whose `except ImportError:` handler holds this reference: the
     # handler runs only when one of them fails, so on a release that keeps them all it never runs.
     guard: tuple[str, ...] = ()
+    among: tuple[str, ...] = ()  # with `attr`: the receiver is an instance of one of these classes
 
 
 class ProjectView(Protocol):
@@ -815,6 +815,7 @@ class ModuleEvaluator:
             typed = self.q.model.returns(f"{receiver.cls}.__getitem__")
             if typed is not None:
                 return Inst(typed)
+            return self._instance_of(self.q.model.returns_all(f"{receiver.cls}.__getitem__"))
         if isinstance(receiver, Tup) and len(node.slice) == 1 and isinstance(node.slice[0].slice, cst.Index):
             key = node.slice[0].slice.value
             if isinstance(key, cst.Integer) and int(key.value, 0) < len(receiver.items):
@@ -844,7 +845,10 @@ class ModuleEvaluator:
             bound = value.bound if isinstance(value, Lib) else True
             receiver_text = how if isinstance(value, Lib) else f"<{named}>"
             refs.append(self._ref(node.attr, context, name=name, receiver=receiver_text, bound=bound))
-        if attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver)):
+        if attr in self.q.names and isinstance(receiver, OneOf) and not receiver.member:
+            shown = "|".join(receiver.classes)
+            refs.append(self._ref(node.attr, context, attr=attr, receiver=f"<{shown}>", among=receiver.classes))
+        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver)):
             # The receiver is not proven to be anything in particular: the name alone decides.
             refs.append(self._ref(node.attr, context, attr=attr, receiver="?"))
         if refs:
@@ -868,11 +872,17 @@ class ModuleEvaluator:
             return Lib(f"{receiver.name}.{attr}", bound=receiver.bound), receiver.name
         if isinstance(receiver, Inst):
             dotted = f"{receiver.cls}.{attr}"
-            if self.q.model.kind(dotted) in _VALUE_KINDS:
-                typed = self.q.model.returns(dotted)
-                if typed is not None:
-                    return Inst(typed), receiver.cls
+            typed = self.q.model.attribute_type(dotted)
+            if typed is not None:
+                return Inst(typed), receiver.cls
             return Lib(dotted, bound=True), f"<{receiver.cls}>"
+        if isinstance(receiver, OneOf):
+            if receiver.member:
+                return UNKNOWN, "?"
+            kinds = {self.q.model.attribute_type(f"{cls}.{attr}") for cls in receiver.classes}
+            if len(kinds) == 1 and None not in kinds:
+                return Inst(kinds.pop()), ""  # type: ignore[arg-type]
+            return OneOf(receiver.classes, attr), ""
         if isinstance(receiver, ProjMod):
             sub = f"{receiver.name}.{attr}"
             if self._is_project_module(sub):
@@ -977,12 +987,23 @@ class ModuleEvaluator:
                 return Inst(returned)
             if self.q.model.is_class(func.name):
                 return Inst(func.name)
-            return UNKNOWN
+            return self._instance_of(self.q.model.returns_all(func.name))
+        if isinstance(func, OneOf) and func.member:
+            outcomes: list[str] = []
+            for cls in func.classes:
+                outcomes.extend(self.q.model.returns_all(f"{cls}.{func.member}"))
+            return self._instance_of(tuple(dict.fromkeys(outcomes)))
         if isinstance(func, UserClass):
             return UserInst(func)
         if isinstance(func, UserFunc):
             return self.returns_of(func)
         return UNKNOWN
+
+    @staticmethod
+    def _instance_of(classes: tuple[str, ...]) -> Value:
+        if not classes:
+            return UNKNOWN
+        return Inst(classes[0]) if len(classes) == 1 else OneOf(classes)
 
     def _call_user(self, func: UserFunc, scope: Scope) -> Value:
         """A call from module level runs the body with the bindings of that moment (the Language

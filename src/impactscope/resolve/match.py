@@ -21,7 +21,13 @@ def judge(ref: Ref, query: Query) -> list[tuple[CompiledChange, Confidence]]:
     fallback = bool(ref.guard) and not any(query.match(name) for name in ref.guard)
     out: list[tuple[CompiledChange, Confidence]] = []
     for cc in candidates:
-        if ref.name is None:
+        if ref.among:
+            # One of several library classes: proven when every one of them has this change.
+            hits = sum(1 for cls in ref.among if query.owns(cls, cc))
+            if not hits:
+                continue
+            base = Confidence.RESOLVED if hits == len(ref.among) else Confidence.INFERRED
+        elif ref.name is None:
             # A module's function reached through an unknown receiver is some object's method.
             specific = cc.parent_is_class and query.is_specific(cc)
             base = Confidence.INFERRED if specific else Confidence.POSSIBLE
@@ -74,6 +80,8 @@ def pattern(ref: Ref, cc: CompiledChange, query: Query) -> str:
         return f"@{shown}{args}"
     if ref.context == "annotation":
         return f"annotation: {shown}"
+    if shown is None and ref.among:
+        return "<" + "|".join(query.display(c) for c in ref.among) + f">.{ref.attr}{args}"
     if shown is None:
         return f"?.{ref.attr}{args}"
     leaf = shown.rpartition(".")[2]

@@ -27,6 +27,10 @@ class LibraryModel(Protocol):
 
     def kind(self, dotted: str) -> str | None: ...
 
+    def returns_all(self, dotted: str) -> tuple[str, ...]: ...
+
+    def attribute_type(self, dotted: str) -> str | None: ...
+
     @property
     def knows_kinds(self) -> bool: ...
 
@@ -68,6 +72,13 @@ class TypesModel:
     def mro(self, cls: str) -> tuple[str, ...]:
         return (cls,) if self.is_class(cls) else ()
 
+    def returns_all(self, dotted: str) -> tuple[str, ...]:
+        found = self.returns(dotted)
+        return () if found is None else (found,)
+
+    def attribute_type(self, dotted: str) -> str | None:
+        return None  # `[types]` says what calls return, not what attributes hold
+
     def kind(self, dotted: str) -> str | None:
         """"class" or "module" where the change list says so; None for the rest (not known)."""
         if self.is_class(dotted):
@@ -105,11 +116,25 @@ class SurfaceModel:
         declared = self._types.returns(dotted)
         if declared is not None:
             return self.canonical(declared)
-        canonical = self.canonical(dotted)
-        declared = self._types.returns(canonical)
+        declared = self._types.returns(self.canonical(dotted))
         if declared is not None:
             return self.canonical(declared)
-        return self._surface.returns(canonical)  # type: ignore[attr-defined]
+        # The path as reached, not its canonical form: `Self` is the receiver's class.
+        return self._surface.returns(dotted)  # type: ignore[attr-defined]
+
+    def returns_all(self, dotted: str) -> tuple[str, ...]:
+        declared = self._types.returns(dotted) or self._types.returns(self.canonical(dotted))
+        if declared is not None:
+            return (self.canonical(declared),)
+        return tuple(self._surface.returns_all(dotted))  # type: ignore[attr-defined]
+
+    def attribute_type(self, dotted: str) -> str | None:
+        return self._surface.attribute_type(dotted)  # type: ignore[attr-defined]
+
+    @property
+    def surface(self) -> object:
+        """The library surface this model reads (an `impactscope.surface.model.Surface`)."""
+        return self._surface
 
     def is_class(self, dotted: str) -> bool:
         return bool(self._surface.is_class(self.canonical(dotted))) or self._types.is_class(dotted)  # type: ignore[attr-defined]

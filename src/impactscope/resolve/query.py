@@ -107,6 +107,10 @@ class Query:
             unique.setdefault(id(cc), cc)
         return list(unique.values())
 
+    def owns(self, cls: str, cc: CompiledChange) -> bool:
+        """Whether `cls.<member's name>` is the change's member: the class or an ancestor owns it."""
+        return any(cc in self._by_owner.get((c, cc.change.name), ()) for c in self.model.mro(cls) or (cls,))
+
     def by_name(self, attr: str) -> list[CompiledChange]:
         return self._by_name.get(attr, [])
 

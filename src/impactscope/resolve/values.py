@@ -27,6 +27,15 @@ class Inst:
 
 
 @dataclass(frozen=True)
+class OneOf:
+    """An instance of one of several library classes (a call whose overloads or union return
+    differ): it is the library's, but which class's member an attribute is stays open."""
+
+    classes: tuple[str, ...]
+    member: str = ""  # set for `obj.member` read off such an instance: calling it is known
+
+
+@dataclass(frozen=True)
 class Foreign:
     """Known not to be the library: a literal, another package, a builtin. `name` for modules."""
 
@@ -116,11 +125,11 @@ class _Unknown:
 
 UNKNOWN = _Unknown()
 
-Value = Union[Lib, Inst, Foreign, ProjMod, UserFunc, UserClass, UserInst, Super, Tup, _Unknown]
+Value = Union[Lib, Inst, OneOf, Foreign, ProjMod, UserFunc, UserClass, UserInst, Super, Tup, _Unknown]
 
 
 def is_library(value: object) -> bool:
-    return isinstance(value, (Lib, Inst)) or (
+    return isinstance(value, (Lib, Inst, OneOf)) or (
         isinstance(value, (UserClass, UserInst)) and bool(_cls(value).all_lib_bases())
     )
 

@@ -110,7 +110,7 @@ def prepare_library(changes: ChangeList, out: Path, digest: str | None = None) -
     else:
         # The change list may differ from the one the file was built for: check it (exit 2 on a
         # typo). `query` reads the surface from the JSON once; it is then kept for this process.
-        check_members(changes, cached.query.model._surface, changes.source)  # type: ignore[attr-defined]
+        check_members(changes, cached.query.model.surface, changes.source)  # type: ignore[attr-defined,arg-type]
         return cached
     from impactscope.surface import build_surface
 
