@@ -17,6 +17,7 @@ from impactscope.corpus.roots import (
     CorpusError,
     Entry,
     EntryError,
+    Limits,
     Project,
     archive_stem,
     check_roots,
@@ -63,8 +64,8 @@ def write_tree(base: Path, files: Files) -> Path:
     return base
 
 
-def write_zip(path: Path, files: Files) -> Path:
-    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as archive:
+def write_zip(path: Path, files: Files, method: int = zipfile.ZIP_DEFLATED) -> Path:
+    with zipfile.ZipFile(path, "w", method) as archive:
         for name, content in files.items():
             archive.writestr(name, _bytes(content))
     return path
@@ -104,8 +105,11 @@ def listing(project: Project) -> dict[str, str | None]:
     return result
 
 
-def projects(*roots: os.PathLike[str] | str, single: bool = False) -> dict[str, dict[str, str | None]]:
-    return {p.name: listing(p) for p in discover(list(roots), single=single, library=LIB)}
+def projects(
+    *roots: os.PathLike[str] | str, single: bool = False, limits: Limits = Limits()
+) -> dict[str, dict[str, str | None]]:
+    found = discover(list(roots), single=single, library=LIB, limits=limits)
+    return {p.name: listing(p) for p in found}
 
 
 def snapshot(base: Path) -> list[tuple[str, int]]:
@@ -398,7 +402,8 @@ def test_too_large(tmp_path: Path) -> None:
     files = {"big.py": b"#" * (MAX_FILE_SIZE + 1), "edge.py": b"#" * MAX_FILE_SIZE,
              "big.csv": b"," * (MAX_FILE_SIZE + 1), "big.ipynb": b" " * (MAX_FILE_SIZE + 1)}
     expected = {"big.py": "too large", "edge.py": None, "big.csv": "not source", "big.ipynb": None}
-    got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files),
+    # Stored, not deflated: a run of one byte deflates past the compression ratio bound.
+    got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files, zipfile.ZIP_STORED),
                    write_tar(tmp_path / "t.tar", files, "w"), single=True)
     assert got == {"f": expected, "z": expected, "t": expected}
 
@@ -441,10 +446,10 @@ def test_symlinks_in_folders(tmp_path: Path) -> None:
     (root / "linked").symlink_to(outside)
     found = {p.name: p for p in discover([root], library=LIB)}
     assert sorted(found) == ["linked", "p"]
-    assert listing(found["linked"]) == {"linked": "link outside root"}
+    assert listing(found["linked"]) == {"linked": "link outside the corpus"}
     got = {e.path: e for e in found["p"].entries()}
     assert sorted(got) == ["alias.py", "dangling.py", "out.py", "outdir", "real/a.py"]
-    assert got["out.py"].skip == "link outside root" and got["outdir"].skip == "link outside root"
+    assert got["out.py"].skip == "link outside the corpus" and got["outdir"].skip == "link outside the corpus"
     assert got["alias.py"].skip is None and got["alias.py"].read() == b"a = 1\n"
     assert got["dangling.py"].error == "broken link"
     with pytest.raises(EntryError):
@@ -485,8 +490,8 @@ def test_tar_links(tmp_path: Path) -> None:
     path = tmp_path / "links.tar"
     path.write_bytes(buffer.getvalue())
     assert projects(path, single=True) == {"links": {
-        "pkg/a.py": None, "pkg/b.py": "archive link", "pkg/c.py": "link outside root",
-        "pkg/d.py": "archive link", "pkg/e.py": "link outside root"}}
+        "pkg/a.py": None, "pkg/b.py": "archive link", "pkg/c.py": "link outside the corpus",
+        "pkg/d.py": "archive link", "pkg/e.py": "link outside the corpus"}}
 
 
 def test_zip_symlink_member(tmp_path: Path) -> None:
@@ -498,7 +503,7 @@ def test_zip_symlink_member(tmp_path: Path) -> None:
             info.external_attr = (0o120777 << 16)  # S_IFLNK, as Info-ZIP stores links
             archive.writestr(info, target)
     assert projects(path, single=True) == {"links": {"a.py": None, "in.py": "archive link",
-                                                     "out.py": "link outside root"}}
+                                                     "out.py": "link outside the corpus"}}
 
 
 # ------------------------------------------------------------------ tar streaming contract
@@ -555,15 +560,13 @@ def test_projects_survive_pickling(tmp_path: Path) -> None:
         assert mine == theirs
 
 
-def test_nested_zip_over_the_memory_limit(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    import impactscope.corpus.roots as roots
-
+def test_nested_zip_over_the_memory_limit(tmp_path: Path) -> None:
     inner = io.BytesIO()
     with zipfile.ZipFile(inner, "w") as archive:
         archive.writestr("a.py", "x = 1\n")
-    monkeypatch.setattr(roots, "MAX_NESTED_ARCHIVE_SIZE", 10)
     root = write_zip(tmp_path / "outer.zip", {"big.zip": inner.getvalue()})
-    assert projects(root) == {"big": {"big.zip": "too large"}}
+    assert projects(root, limits=Limits(archive_bytes=10)) == {"big": {"big.zip": "archive too large"}}
+    assert projects(root) == {"big": {"a.py": None}}
 
 
 def test_encrypted_zip_member(tmp_path: Path) -> None:
@@ -581,10 +584,12 @@ def test_encrypted_zip_member(tmp_path: Path) -> None:
 
 
 @pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs FIFOs")
-def test_special_files_are_left_out(tmp_path: Path) -> None:
+def test_special_files_are_counted_never_opened(tmp_path: Path) -> None:
     root = write_tree(tmp_path / "p", {"a.py": ""})
     os.mkfifo(root / "pipe.py")  # opening it would block
-    assert projects(root, single=True) == {"p": {"a.py": None}}
+    (root / "pipe-link.py").symlink_to(root / "pipe.py")
+    assert projects(root, single=True) == {"p": {"a.py": None, "pipe.py": "special file",
+                                                 "pipe-link.py": "special file"}}
 
 
 def test_classify_with_siblings() -> None:
