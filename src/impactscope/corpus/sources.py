@@ -9,9 +9,9 @@ here imports, compiles or runs the code being read.
 A notebook's bytes are mostly outputs (plots as base64 images), which say
 nothing about its code. So the JSON parser drops every output, and cell
 attachments, as soon as each is parsed, and keeps only the cells' text; and
-the size limit that `corpus.roots` applies to files applies to a notebook's
-code instead: a notebook whose code cells hold more than MAX_FILE_SIZE bytes
-is refused as "too large".
+besides the bound on a notebook's bytes that `corpus.roots` applies while
+reading, its code has a bound of its own (`Limits.notebook_code_bytes`): a
+notebook whose code cells hold more is refused as "notebook code too large".
 """
 
 from __future__ import annotations
@@ -25,7 +25,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Literal
 
-from impactscope.corpus.roots import MAX_FILE_SIZE
+from impactscope.corpus.limits import Limits
 
 if TYPE_CHECKING:  # IPython is slow to import; only notebooks need it.
     from IPython.core.inputtransformer2 import TransformerManager
@@ -35,6 +35,7 @@ __all__ = [
     "PYTHON_CELL_MAGICS",
     "Source",
     "SourceError",
+    "SKIP_REASONS",
     "decode_python",
     "looks_like_python2",
     "read_notebook",
@@ -50,19 +51,29 @@ PYTHON_CELL_MAGICS = frozenset(
 )
 
 
+_DEFAULT_LIMITS = Limits()
+# Reasons that skip a file (a bound reached), where the others leave it unparsed.
+SKIP_REASONS = frozenset({_DEFAULT_LIMITS.reason("notebook_code_bytes")})
+
+
 class SourceError(ValueError):
     """A file whose text cannot be had: undecodable bytes, an unreadable notebook, or a
     notebook with too much code.
 
-    `reason` is a short, stable key for totals ("encoding", "invalid notebook" or "too
-    large"; the last is a reason to skip the file, as `corpus.roots.classify` gives it
-    for other files); `detail` says where and why, for people.
+    `reason` is a short, stable key for totals ("encoding", "invalid notebook" or "notebook
+    code too large"; the last is a reason to skip the file, as `corpus.roots.classify`
+    gives "too large" for other files: see `skipped`); `detail` says where and why, for people.
     """
 
     def __init__(self, reason: str, detail: str) -> None:
         super().__init__(reason, detail)
         self.reason = reason
         self.detail = detail
+
+    @property
+    def skipped(self) -> bool:
+        """Whether the file is skipped (a bound reached) rather than unparsed."""
+        return self.reason in SKIP_REASONS
 
     def __str__(self) -> str:
         return f"{self.reason}: {self.detail}"
@@ -217,21 +228,22 @@ def _notebook_json(data: bytes, path: str) -> str:
         ) from None
 
 
-def _check_code_size(size: int, path: str) -> None:
-    if size > MAX_FILE_SIZE:
+def _check_code_size(size: int, path: str, limits: Limits) -> None:
+    if size > limits.notebook_code_bytes:
         raise SourceError(
-            "too large",
-            f"{path}: its code cells hold {size} bytes, over the limit of {MAX_FILE_SIZE}",
+            limits.reason("notebook_code_bytes"),
+            f"{path}: its code cells hold {size} bytes, over the limit of {limits.notebook_code_bytes}"
+            " (notebook_code_bytes)",
         )
 
 
-def notebook_text(data: bytes, path: str) -> str:
+def notebook_text(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -> str:
     """The raw code-cell text of a notebook (v3 or v4), untransformed: cheap enough to decide
     whether the notebook is worth reading fully. IPython syntax only turns text into strings,
     so every identifier of the transformed code is in this text too.
 
-    Raises SourceError("too large") when the code cells hold more than MAX_FILE_SIZE bytes
-    (UTF-8), whatever the size of the outputs.
+    Raises SourceError("notebook code too large") when the code cells hold more than
+    `limits.notebook_code_bytes` bytes (UTF-8), whatever the size of the outputs.
     """
     text = _notebook_json(data, path)
     try:
@@ -250,11 +262,11 @@ def notebook_text(data: bytes, path: str) -> str:
             source = cell.get("source", cell.get("input", ""))
             parts.append("".join(map(str, source)) if isinstance(source, list) else str(source))
     code = "\n".join(parts)
-    _check_code_size(len(code.encode("utf-8", "surrogatepass")), path)
+    _check_code_size(len(code.encode("utf-8", "surrogatepass")), path, limits)
     return code
 
 
-def read_notebook(data: bytes, path: str) -> Source:
+def read_notebook(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -> Source:
     """Read a Jupyter notebook's code cells as Python.
 
     The notebook is read and upgraded to v4 exactly as `nbformat.reads(text,
@@ -263,7 +275,7 @@ def read_notebook(data: bytes, path: str) -> Source:
     do not matter here; and minus outputs and attachments, which are dropped
     while the JSON is parsed. Cells of a notebook whose kernel language is set
     and is not Python are all skipped ("non-python kernel"). Raises
-    SourceError("too large") as `notebook_text` does.
+    SourceError("notebook code too large") as `notebook_text` does.
     """
     import nbformat  # noqa: PLC0415 - only notebooks need it
     import nbformat.reader  # noqa: PLC0415
@@ -298,7 +310,7 @@ def read_notebook(data: bytes, path: str) -> Source:
             continue
         sources.append((index, source))
     # The same measure as notebook_text's: the code cells joined by newlines.
-    _check_code_size(sum(len(code.encode("utf-8", "surrogatepass")) + 1 for _, code in sources) - 1, path)
+    _check_code_size(sum(len(code.encode("utf-8", "surrogatepass")) + 1 for _, code in sources) - 1, path, limits)
     for index, source in sources:
         if foreign:
             skipped.append((index, "non-python kernel"))
