@@ -110,6 +110,47 @@ def test_root_that_is_not_an_archive(tmp_path: Path, changes: Path) -> None:
     one_error_line(invoke("scan", changes, odd, "--out", tmp_path / "r.sqlite"), "notes.txt")
 
 
+def test_out_in_a_missing_folder(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    out = tmp_path / "missing" / "dir" / "r.sqlite"
+    line = one_error_line(invoke("scan", changes, corpus, "--out", out), "--out", str(out.parent), "does not exist")
+    assert "create it" in line
+    assert not out.parent.exists()  # refused before any work, nothing made on the way
+
+
+def test_out_whose_folder_is_a_file(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    blocker = tmp_path / "afile"
+    blocker.write_text("x", encoding="utf-8")
+    one_error_line(invoke("scan", changes, corpus, "--out", blocker / "r.sqlite"), "afile", "not a folder")
+
+
+def test_empty_root(tmp_path: Path, changes: Path) -> None:
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    out = tmp_path / "r.sqlite"
+    line = one_error_line(invoke("scan", changes, empty, "--out", out), str(empty), "no projects", "is empty")
+    assert "--single" in line
+    assert not out.exists()
+
+
+def test_root_with_no_projects(tmp_path: Path, changes: Path) -> None:
+    root = tmp_path / "hidden-only"
+    (root / ".git").mkdir(parents=True)
+    (root / ".env").write_text("X=1\n", encoding="utf-8")
+    line = one_error_line(invoke("scan", changes, root, "--out", tmp_path / "r.sqlite"), str(root), "no projects")
+    assert "2 item(s) that are not projects" in line
+
+
+def test_root_with_no_projects_keeps_an_earlier_results_file(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    """A wrong root must not prune the projects of an earlier scan into the same --out."""
+    out = tmp_path / "r.sqlite"
+    assert invoke("scan", changes, corpus, "--out", out, "--jobs", "1").exit_code == 0
+    before = out.read_bytes()
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    one_error_line(invoke("scan", changes, empty, "--out", out), "no projects")
+    assert out.read_bytes() == before
+
+
 def test_report_on_missing_file(tmp_path: Path) -> None:
     one_error_line(invoke("report", tmp_path / "nothing.sqlite"), "nothing.sqlite")
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import re
 from dataclasses import dataclass, field
@@ -22,10 +23,12 @@ from impactscope.resolve.faults import ANALYSIS_ERROR, describe
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
+from impactscope.scan.guard import too_deep
 from impactscope.scan.prefilter import Plan, Prefilter
 from impactscope.scan.slicing import narrow
 
 NO_CANDIDATE = "no candidate"
+TOO_DEEP = "too deeply nested"
 
 
 @dataclass(frozen=True)
@@ -123,6 +126,23 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             except Exception as exc:  # noqa: BLE001 - a narrowing bug costs this file only
                 faults[path] = describe(exc, stage="narrowing")
                 keep.discard(path)
+    for path in sorted(sources):
+        if path in faults:
+            continue
+        try:
+            deep = _without_deep_cells(sources[path])
+        except Exception as exc:  # noqa: BLE001 - the guard is part of the analysis of this file
+            faults[path] = describe(exc, stage="nesting guard")
+            keep.discard(path)
+            continue
+        if deep is None:
+            prior = outcomes[path]
+            outcomes[path] = FileOutcome(path, "unparsed", TOO_DEEP, "nested deeper than Python's parser allows",
+                                         prior.digest, prior.kind)
+            del sources[path]
+            keep.discard(path)
+        else:
+            sources[path] = deep
     # A file that failed before the resolver is no module of the project for the others either.
     resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults})
     for path in sorted(keep):
@@ -182,6 +202,21 @@ def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
     except Exception:  # noqa: BLE001 - what was listed before the listing failed is kept
         pass
     return result
+
+
+def _without_deep_cells(source: Source) -> Source | None:
+    """`source` without the cells nested too deeply to parse safely (they are counted as skipped),
+    or None for a module file that is (libcst's native parser would crash the process on it)."""
+    deep = [cell for cell in source.cells if too_deep(cell.code)]
+    if not deep:
+        return source
+    if source.kind == "module":
+        return None
+    return dataclasses.replace(
+        source,
+        cells=tuple(cell for cell in source.cells if all(cell is not d for d in deep)),
+        skipped_cells=(*source.skipped_cells, *((cell.index, TOO_DEEP) for cell in deep)),
+    )
 
 
 def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool]:

@@ -282,13 +282,14 @@ def _nonempty(found: Iterator[Project], roots: Sequence[str], ignored: list[tupl
     first = next(found, None)
     if first is None:
         where = ", ".join(roots)
+        what = "the root" if len(roots) == 1 else "the roots"
         if ignored:
             reasons = sorted({reason for _, reason in ignored})
-            held = f"holds {len(ignored)} item(s) that are not projects ({'; '.join(reasons)})"
+            held = f"{'holds' if len(roots) == 1 else 'hold'} {len(ignored)} item(s) that are not projects ({'; '.join(reasons)})"
         else:
-            held = "is empty"
+            held = "is empty" if len(roots) == 1 else "are empty"
         raise ScanOptionError(
-            f"{where}: no projects to scan: the root {held}; pass a folder or archive whose children are "
+            f"{where}: no projects to scan: {what} {held}; pass a folder or archive whose children are "
             "projects, or add --single to scan a root as one project"
         )
     return itertools.chain((first,), found)
