@@ -1,11 +1,14 @@
 from __future__ import annotations
 
+import dataclasses
 import io
 import json
 import os
 import pickle
 import random
+import struct
 import tarfile
+import warnings
 import zipfile
 from collections.abc import Iterator, Mapping
 from pathlib import Path
@@ -755,3 +758,251 @@ def test_every_sdist_member_is_read_by_a_scan(tmp_path: Path) -> None:
     # setup.py was read twice, as a manifest and as a source, in the one pass over the tar.
     assert {p["project"]: p["constraint"] for p in report["projects"]} == {
         "spkg-2.1": "heronframe<2", "spkg-2.1@corpus": "heronframe<2"}
+
+
+# ------------------------------------------------------------------ hostile input: names
+
+
+def zip_members(path: Path, members: list[tuple[str, bytes]]) -> Path:
+    """A zip with members in this order, duplicates kept (zipfile warns, and writes them)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        with zipfile.ZipFile(path, "w") as archive:
+            for name, data in members:
+                archive.writestr(zipfile.ZipInfo(name), data)
+    return path
+
+
+def tar_members(path: Path, members: list[tuple[str, bytes]], mode: str = "w") -> Path:
+    with tarfile.open(path, mode, encoding="utf-8", errors="surrogateescape") as archive:
+        for name, data in members:
+            info = tarfile.TarInfo(name)
+            info.size = len(data)
+            archive.addfile(info, io.BytesIO(data))
+    return path
+
+
+def contents(project: Project) -> dict[str, tuple[bytes | None, str]]:
+    return {e.path: (None if e.skip or e.error else e.read(), e.note) for e in project.entries()}
+
+
+# Names that normalise alike: the same name twice, `./` in front, a backslash for a slash.
+ALIKE = [("pkg/a.py", b"first = 1\n"), ("pkg/a.py", b"second = 2\n"), ("./pkg/a.py", b"third = 3\n"),
+         ("pkg\\a.py", b"fourth = 4\n"), ("pkg/a~2.py", b"real = 5\n")]
+
+
+@pytest.mark.parametrize("kind", ["zip", "tar", "tar.gz"])
+def test_names_that_normalise_alike_are_all_kept(tmp_path: Path, kind: str) -> None:
+    path = tmp_path / f"dups.{kind}"
+    if kind == "zip":
+        zip_members(path, ALIKE)
+    else:
+        tar_members(path, ALIKE, "w:gz" if kind == "tar.gz" else "w")
+    (project,) = discover([path], single=True, library=LIB)
+    got = contents(project)
+    # Every member is there, under a path of its own, with its own bytes; the first in archive
+    # order keeps the path.
+    assert sorted(data for data, _ in got.values()) == sorted(data for _, data in ALIKE)
+    assert got["pkg/a.py"] == (b"first = 1\n", "")
+    assert {data for path, (data, _) in got.items() if path != "pkg/a.py"} == {
+        b"second = 2\n", b"third = 3\n", b"fourth = 4\n", b"real = 5\n"}
+    suffixed = {path: note for path, (_, note) in got.items() if note}
+    if kind == "zip":  # listed in full first: the member really named a~2.py keeps its name
+        assert got["pkg/a~2.py"] == (b"real = 5\n", "")
+        assert sorted(suffixed) == ["pkg/a~3.py", "pkg/a~4.py", "pkg/a~5.py"]
+    else:  # streamed: a~2.py was handed out before the member of that name came
+        assert sorted(suffixed) == ["pkg/a~2.py", "pkg/a~2~2.py", "pkg/a~3.py", "pkg/a~4.py"]
+    assert all("'pkg/a.py'" in note or "'pkg/a~2.py'" in note for note in suffixed.values())
+    # Stable: the same archive lists the same way again.
+    assert contents(next(discover([path], single=True, library=LIB))) == got
+
+
+def test_suffixes_are_stable_and_free() -> None:
+    from impactscope.corpus.roots import _free_path
+
+    assert _free_path("a.py", {"a.py"}) == "a~2.py"
+    assert _free_path("d/a.py", {"d/a.py", "d/a~2.py"}) == "d/a~3.py"
+    assert _free_path("Makefile", {"Makefile"}) == "Makefile~2"
+    assert _free_path(".env", {".env"}) == ".env~2"
+    assert _free_path("x.tar.gz", {"x.tar.gz"}) == "x.tar~2.gz"
+
+
+@pytest.mark.skipif(os.fsencode("\udcff") != b"\xff", reason="needs bytes file names (POSIX)")
+def test_undecodable_names_are_shown_escaped_and_never_alike(tmp_path: Path) -> None:
+    root = tmp_path / "p"
+    root.mkdir()
+    for raw in (b"a\xff.py", b"a\xfe.py"):
+        with open(os.path.join(os.fsencode(root), raw), "wb") as handle:
+            handle.write(raw)
+    tarred = tar_members(tmp_path / "t.tar", [("a\udcff.py", b"1"), ("a\udcfe.py", b"2")])
+    for found in (root, tarred):
+        (project,) = discover([found], single=True, library=LIB)
+        got = {e.path: e.read() for e in project.entries()}  # tar: read while the stream is there
+        assert got == {"a\\xff.py": b"a\xff.py" if found == root else b"1",
+                       "a\\xfe.py": b"a\xfe.py" if found == root else b"2"}
+        json.dumps(sorted(got)).encode("utf-8")  # reports can write them
+
+
+def test_a_project_folder_that_is_also_a_file_member(tmp_path: Path) -> None:
+    # A top-level file and members under the same name: one folder project, nothing dropped.
+    members = [("a.py", b"x = 1\n"), ("a.py/b.py", b"y = 2\n"), ("c/d.py", b"")]
+    expected = {"a.py": {"a.py": None, "b.py": None}, "c": {"d.py": None}}
+    assert projects(zip_members(tmp_path / "r.zip", members)) == expected
+    assert projects(tar_members(tmp_path / "r.tar", members)) == expected
+
+
+@pytest.mark.parametrize("members", [
+    # The project folder appears again as a member of its own, after another project's members.
+    [("proj/a.py", "f"), ("other/b.py", "f"), ("proj", "d")],
+    [("proj/a.py", "f"), ("other/b.py", "f"), ("proj/c.py", "f")],
+    [("proj/a.py", "f"), (".hidden", "f"), ("proj/c.py", "f"), ("other/b.py", "f"), ("./proj/", "d")],
+    [(".", "d"), ("./proj", "d"), ("./proj/a.py", "f"), ("other/b.py", "f"), ("./proj/c.py", "f")],
+])
+def test_a_tar_root_never_makes_a_phantom_project(tmp_path: Path, members: list[tuple[str, str]]) -> None:
+    path = tmp_path / "root.tar.gz"
+    with tarfile.open(path, "w:gz") as archive:
+        for name, kind in members:
+            info = tarfile.TarInfo(name)
+            if kind == "d":
+                info.type = tarfile.DIRTYPE
+                archive.addfile(info)
+            else:
+                info.size = 2
+                archive.addfile(info, io.BytesIO(b"x\n"))
+    files = {name.removeprefix("./") for name, kind in members if kind == "f" and not name.startswith(".h")}
+    ignored: list[tuple[str, str]] = []
+    found = {p.name: listing(p) for p in discover([path], library=LIB, ignored=ignored)}
+    assert set(found) == {"proj", "other"}  # no proj@root
+    assert {f"{name}/{file}" for name, listed in found.items() for file in listed} == files
+    assert all(reason == "hidden" for _, reason in ignored)
+
+
+def test_scattered_tar_projects_are_held_within_the_archive_bound(tmp_path: Path) -> None:
+    members = [("p/a.py", b"a" * 100), ("q/x.py", b""), ("p/b.py", b"b" * 100), ("p/c.py", b"c" * 10)]
+    path = tar_members(tmp_path / "r.tar", members)
+    # q streams at its place; p, scattered, comes once its last member has passed.
+    assert [(p.name, listing(p)) for p in discover([path], library=LIB, limits=Limits(archive_bytes=150))] == [
+        ("q", {"x.py": None}), ("p", {"a.py": None, "b.py": "archive too large", "c.py": None})]
+
+
+# ------------------------------------------------------------------ hostile input: limits
+
+
+def lying_zip(path: Path, name: str, declared: int, real: int) -> Path:
+    """A zip whose one deflated member says it unpacks to `declared` bytes but holds `real` zeros."""
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as archive:
+        archive.writestr(name, bytes(real))
+    data = bytearray(buffer.getvalue())
+    local, central = data.find(b"PK\x03\x04"), data.find(b"PK\x01\x02")
+    # The uncompressed size fields of the local and central headers (APPNOTE.TXT 4.3.7, 4.3.12).
+    struct.pack_into("<I", data, local + 22, declared)
+    struct.pack_into("<I", data, central + 24, declared)
+    path.write_bytes(bytes(data))
+    return path
+
+
+def test_a_zip_member_that_lies_about_its_size(tmp_path: Path) -> None:
+    # Declared small: zipfile stops at the declared size and the CRC check fails.
+    (entry,) = next(discover([lying_zip(tmp_path / "s.zip", "a.py", 100, 5_000_000)], single=True,
+                             library=LIB)).entries()
+    assert entry.skip is None
+    with pytest.raises(EntryError, match="corrupt archive"):
+        entry.read()
+    # Declared huge (the 2 GB of the issue): refused before reading.
+    (entry,) = next(discover([lying_zip(tmp_path / "h.zip", "n.ipynb", 3_000_000_000, 5_000_000)],
+                             single=True, library=LIB)).entries()
+    assert entry.skip == "notebook too large"
+    # Declared within the size bound, but at a ratio no real member has: refused before reading.
+    (entry,) = next(discover([lying_zip(tmp_path / "r.zip", "n.ipynb", 50_000_000, 5_000_000)],
+                             single=True, library=LIB)).entries()
+    assert entry.skip == "compression ratio" and "50000000" in entry.note
+    # Declared truthfully within every bound but read under a tighter one: stopped while reading.
+    (entry,) = next(discover([lying_zip(tmp_path / "t.zip", "n.ipynb", 5_000_000, 5_000_000)],
+                             single=True, library=LIB, limits=Limits(ratio=10_000))).entries()
+    assert entry.skip is None and len(entry.read()) == 5_000_000
+    small = Limits(ratio=10_000)
+    (entry,) = next(discover([tmp_path / "t.zip"], single=True, library=LIB,
+                             limits=dataclasses.replace(small, notebook_bytes=4_000_000))).entries()
+    assert entry.skip == "notebook too large"
+
+
+def test_a_compressed_tar_past_the_ratio_stops_there(tmp_path: Path) -> None:
+    bomb = [("a.py", b"x = 1\n"), ("zeros.bin", bytes(8 << 20)), ("b.py", b"y = 2\n")]
+    project = tar_members(tmp_path / "bomb.tar.gz", bomb, "w:gz")
+    # zeros.bin's header is read before its data: the stream stops while passing over the data.
+    assert projects(project, single=True) == {
+        "bomb": {"a.py": None, "zeros.bin": "not source", "bomb.tar.gz": "compression ratio"}}
+    assert projects(project, single=True, limits=Limits(ratio=10_000)) == {
+        "bomb": {"a.py": None, "zeros.bin": "not source", "b.py": None}}
+    root = tar_members(tmp_path / "root.tar.gz", [(f"p/{n}", d) for n, d in bomb], "w:gz")
+    ignored: list[tuple[str, str]] = []
+    assert {p.name: listing(p) for p in discover([root], library=LIB, ignored=ignored)} == {
+        "p": {"a.py": None, "zeros.bin": "not source", "root.tar.gz": "compression ratio"}}
+
+
+def test_too_many_members(tmp_path: Path) -> None:
+    members = [(f"p/m{i:02}.py", b"") for i in range(12)]
+    limits = Limits(members=5)
+    for path in (zip_members(tmp_path / "z.zip", members), tar_members(tmp_path / "t.tgz", members, "w:gz")):
+        (project,) = discover([path], single=True, library=LIB, limits=limits)
+        listed = {e.path: (e.skip, e.note) for e in project.entries()}
+        assert len(listed) == 6
+        assert listed[path.name][0] == "too many members" and "5" in listed[path.name][1]
+        ignored: list[tuple[str, str]] = []
+        found = {p.name: listing(p) for p in discover([path], library=LIB, limits=limits, ignored=ignored)}
+        if path.suffix == ".zip":  # cut before the projects are formed: the root says so
+            assert len(found["p"]) == 5
+            assert [reason.startswith("too many members") for _, reason in ignored] == [True]
+        else:  # met while streaming project p: p says so
+            assert len(found["p"]) == 6 and found["p"]["t.tgz"] == "too many members"
+            assert ignored == []
+
+
+def test_a_zip_central_directory_is_never_parsed_past_the_bound(tmp_path: Path) -> None:
+    # zipfile builds one ZipInfo per record; the cut hands it the first `members` records only.
+    path = zip_members(tmp_path / "many.zip", [(f"f{i}.py", b"x = 1\n") for i in range(70_000)])
+    (project,) = discover([path], single=True, library=LIB, limits=Limits(members=70_000 - 1))
+    entries = list(project.entries())
+    assert len(entries) == 70_000 and entries[-1].skip == "too many members"
+    assert "70000 the archive declares" in entries[-1].note  # a zip64 count: over 65535 members
+    assert entries[0].read() == b"x = 1\n" and entries[-2].read() == b"x = 1\n"
+
+
+def test_nesting_depth(tmp_path: Path) -> None:
+    inner = tar_bytes({"a.py": "x = 1\n"})
+    root = write_zip(tmp_path / "outer.zip", {"inner.tar.gz": inner})
+    assert projects(root) == {"inner": {"a.py": None}}
+    assert projects(root, limits=Limits(depth=1)) == {"inner": {"inner.tar.gz": "nested too deep"}}
+    # An archive inside a project is a file, whatever the depth allows.
+    assert projects(write_zip(tmp_path / "deep.zip", {"p/inner.tar.gz": inner})) == {
+        "p": {"inner.tar.gz": "not source"}}
+
+
+def test_projects_carry_their_limits(tmp_path: Path) -> None:
+    root = write_tree(tmp_path / "c", {"p/a.py": ""})
+    limits = Limits(file_bytes=10)
+    assert [p.limits for p in discover([root], library=LIB, limits=limits)] == [limits]
+    assert [p.limits for p in discover([root], library=LIB)] == [Limits()]
+
+
+def test_a_file_that_grows_after_listing_is_cut_while_reading(tmp_path: Path) -> None:
+    root = write_tree(tmp_path / "p", {"a.py": "x = 1\n"})
+    (project,) = discover([root], single=True, library=LIB, limits=Limits(file_bytes=100))
+    (entry,) = project.entries()
+    (root / "a.py").write_bytes(b"#" * 1000)
+    with pytest.raises(EntryError) as caught:
+        entry.read()
+    assert caught.value.reason == "too large"
+
+
+@pytest.mark.skipif(not hasattr(os, "symlink"), reason="needs symlinks")
+def test_links_to_other_projects_and_loops(tmp_path: Path) -> None:
+    root = write_tree(tmp_path / "corpus", {"p/a.py": "x = 1\n", "q/b.py": "y = 2\n"})
+    (root / "p" / "to_q.py").symlink_to(root / "q" / "b.py")
+    (root / "p" / "self").symlink_to(root / "p")  # a folder loop: not walked
+    (root / "p" / "l1.py").symlink_to(root / "p" / "l2.py")
+    (root / "p" / "l2.py").symlink_to(root / "p" / "l1.py")
+    got = projects(root)
+    assert got["p"] == {"a.py": None, "to_q.py": "link outside the project",
+                        "l1.py": "error: broken link", "l2.py": "error: broken link"}

@@ -197,19 +197,31 @@ class Project:
         return _unique(self._list())
 
 
-def _unique(entries: Iterable[Entry]) -> Iterator[Entry]:
-    """`entries` with each path that was already listed given a free `~N` suffix and a note."""
+def _unique(entries: Iterable[Entry], reserved: Collection[str] = frozenset()) -> Iterator[Entry]:
+    """`entries` with each path that was already listed given a free `~N` suffix and a note.
+    A suffixed path avoids the `reserved` ones too (the paths of a listing known in full, so
+    that a file really named `a~2.py` keeps its name)."""
     taken: set[str] = set()
     for entry in entries:
         if entry.path in taken:
-            path = _free_path(entry.path, taken)
+            path = _free_path(entry.path, _Either(taken, reserved))
             note = f"a file listed earlier has the same path {entry.path!r}; this one is listed as {path!r}"
             entry = dataclasses.replace(entry, path=path, note=_also(entry.note, note))
         taken.add(entry.path)
         yield entry
 
 
-def _free_path(path: str, taken: Collection[str]) -> str:
+class _Either:
+    """Membership in either of two collections, without joining them."""
+
+    def __init__(self, first: Collection[str], second: Collection[str]) -> None:
+        self.first, self.second = first, second
+
+    def __contains__(self, item: object) -> bool:
+        return item in self.first or item in self.second
+
+
+def _free_path(path: str, taken: _Either | Collection[str]) -> str:
     """`path` with `~N` (N = 2, 3, ...) before its extension, the first that is not taken."""
     folder, slash, name = path.rpartition("/")
     dot = name.rfind(".")
@@ -425,6 +437,7 @@ def _classified(
     """Entries in path order, each readable one given its skip reason: the classification's,
     else `late`'s (a reason and a note known without reading, such as a declared ratio)."""
     ordered = sorted(entries, key=lambda entry: entry.path)
+    ordered = list(_unique(ordered, reserved={entry.path for entry in ordered}))
     readable = [entry for entry in ordered if entry.skip is None and entry.error is None]
     layout = _Layout.of((entry.path for entry in readable), library)
     for entry in ordered:
