@@ -414,6 +414,78 @@ def judge_occurrence(occ: Occurrence, change: dict, library: str, facts: FileFac
 # ------------------------------------------------------------------ the pass
 
 
+SCOPES = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.Module)
+
+
+def _scope_bindings(scope: ast.AST, name: str) -> list[str] | None:
+    """How `name` is bound in this scope, not looking into nested scopes; None when it is global/nonlocal there."""
+    kinds: list[str] = []
+    if isinstance(scope, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+        a = scope.args
+        if name in {x.arg for x in a.posonlyargs + a.args + a.kwonlyargs} | (
+                {a.vararg.arg} if a.vararg else set()) | ({a.kwarg.arg} if a.kwarg else set()):
+            kinds.append("unknown")
+    pending = list(ast.iter_child_nodes(scope)) if not isinstance(scope, ast.Lambda) else [scope.body]
+    while pending:
+        node = pending.pop()
+        if isinstance(node, (ast.Global, ast.Nonlocal)) and name in node.names:
+            return None
+        if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
+            if node.name == name:
+                kinds.append("unknown")
+            pending.extend(node.decorator_list)
+            continue  # a nested scope binds its own names
+        if isinstance(node, ast.Lambda):
+            continue
+        if isinstance(node, (ast.Assign, ast.AnnAssign, ast.AugAssign, ast.NamedExpr, ast.For, ast.AsyncFor,
+                             ast.With, ast.AsyncWith, ast.Import, ast.ImportFrom, ast.ExceptHandler,
+                             ast.Delete, ast.MatchAs, ast.MatchStar)):
+            shallow = _shallow_copy(node)
+            kinds.extend(FileFacts.of(ast.Module(body=[shallow] if isinstance(shallow, ast.stmt) else
+                                                 [ast.Expr(shallow)], type_ignores=[])).bindings.get(name, []))
+            if isinstance(node, ast.Delete) and any(isinstance(t, ast.Name) and t.id == name for t in node.targets):
+                kinds.append("unknown")
+            if isinstance(node, (ast.MatchAs, ast.MatchStar)) and node.name == name:
+                kinds.append("unknown")
+        pending.extend(ast.iter_child_nodes(node))
+    return kinds
+
+
+def _shallow_copy(node: ast.AST) -> ast.AST:
+    """The statement without its nested body, so only its own targets count."""
+    if isinstance(node, (ast.For, ast.AsyncFor)):
+        return ast.For(target=node.target, iter=ast.Constant(0), body=[ast.Pass()], orelse=[], lineno=0)
+    if isinstance(node, (ast.With, ast.AsyncWith)):
+        return ast.With(items=node.items, body=[ast.Pass()], lineno=0)
+    if isinstance(node, ast.ExceptHandler):
+        return ast.Try(body=[ast.Pass()], handlers=[ast.ExceptHandler(type=None, name=node.name, body=[ast.Pass()])],
+                       orelse=[], finalbody=[])
+    return node
+
+
+def list_in_scope(tree: ast.Module, parents: dict[ast.AST, ast.AST], name_node: ast.Name) -> bool:
+    """The Language Reference's scoping (4.2.2): the nearest enclosing function scope that binds the
+    name decides (class bodies are skipped); the name is a list if every binding there is a list."""
+    scope = parents.get(name_node)
+    while scope is not None and not isinstance(scope, SCOPES):
+        if isinstance(scope, (ast.ListComp, ast.SetComp, ast.DictComp, ast.GeneratorExp)) and any(
+                isinstance(n, ast.Name) and n.id == name_node.id for g in scope.generators for n in ast.walk(g.target)):
+            return False  # a comprehension's own variable
+        scope = parents.get(scope)
+    while scope is not None:
+        kinds = _scope_bindings(scope, name_node.id)
+        if kinds is None:
+            scope = tree  # declared global: the module decides
+            kinds = _scope_bindings(tree, name_node.id) or []
+            return bool(kinds) and all(k == "list" for k in kinds)
+        if kinds:
+            return all(k == "list" for k in kinds)
+        scope = parents.get(scope)
+        while scope is not None and not isinstance(scope, SCOPES):
+            scope = parents.get(scope)
+    return False
+
+
 def attribute_lists(sources: list[Source]) -> set[str]:
     """Attribute names that every assignment in the project binds to a list (for `self.rows.append`)."""
     kinds: dict[str, set[str]] = defaultdict(set)
@@ -444,8 +516,11 @@ def attribute_lists(sources: list[Source]) -> set[str]:
             if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id == "setattr":
                 if len(node.args) >= 2 and isinstance(node.args[1], ast.Constant):
                     kinds[str(node.args[1].value)].add("unknown")
-            if isinstance(node, ast.keyword) and node.arg:
-                kinds[node.arg].add("unknown")  # keyword arguments can set attributes (dataclasses, **kw)
+            if isinstance(node, ast.Call) and (_dotted(node.func) or ["?"])[-1][:1].isupper():
+                # keyword arguments of a constructor can set attributes (dataclasses, attrs, namedtuples)
+                for kw in node.keywords:
+                    if kw.arg:
+                        kinds[kw.arg].add("unknown")
     return {name for name, seen in kinds.items() if seen == {"list"}}
 
 
@@ -458,6 +533,16 @@ def _in_class_body(tree: ast.Module, node: ast.AST) -> bool:
         ids = {id(stmt) for cls in ast.walk(tree) if isinstance(cls, ast.ClassDef) for stmt in cls.body}
         _class_body_cache[id(tree)] = ids
     return id(node) in ids
+
+
+_parents_cache: dict[int, dict[ast.AST, ast.AST]] = {}
+
+
+def parents_of(src: Source) -> dict[ast.AST, ast.AST]:
+    key = id(src.tree)
+    if key not in _parents_cache:
+        _parents_cache[key] = _parents(src.tree)  # type: ignore[arg-type]
+    return _parents_cache[key]
 
 
 def call_line(src: Source, keyword: ast.keyword) -> int | None:
@@ -522,6 +607,11 @@ def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict
                         verdict = Verdict("todo", "")
                     else:
                         verdict = judge_occurrence(occ, change, lib.name, facts)
+                        if (verdict.verdict == "todo" and occ.role == "attr" and change["member"].endswith(".append")
+                                and isinstance(occ.node, ast.Attribute) and isinstance(occ.node.value, ast.Name)
+                                and list_in_scope(src.tree, parents_of(src), occ.node.value)):
+                            verdict = Verdict("false", f"[list] `{occ.node.value.id}` is bound only to lists in the "
+                                                       "scope that decides it")
                         if (verdict.verdict == "todo" and occ.role == "attr" and change["member"].endswith(".append")
                                 and isinstance(occ.node, ast.Attribute) and isinstance(occ.node.value, ast.Attribute)
                                 and occ.node.value.attr in list_attrs):
