@@ -959,14 +959,43 @@ def test_too_many_members(tmp_path: Path) -> None:
             assert ignored == []
 
 
-def test_a_zip_central_directory_is_never_parsed_past_the_bound(tmp_path: Path) -> None:
+def zip64_ended(path: Path) -> Path:
+    """Rewrite a small zip's end records in zip64 form, as writers do past 65535 members
+    (APPNOTE.TXT 4.3.14 and 4.3.15: the zip64 record and its locator before the classic one,
+    whose counts then say 0xFFFF)."""
+    data = path.read_bytes()
+    at = data.rfind(b"PK\x05\x06")
+    _, _, _, _, count, size, offset, _ = struct.unpack_from("<4s4H2LH", data, at)
+    end64 = struct.pack("<4sQ2H2L4Q", b"PK\x06\x06", 44, 45, 45, 0, 0, count, count, size, offset)
+    locator = struct.pack("<4sLQL", b"PK\x06\x07", 0, at, 1)
+    end = struct.pack("<4s4H2LH", b"PK\x05\x06", 0, 0, 0xFFFF, 0xFFFF, 0xFFFFFFFF, 0xFFFFFFFF, 0)
+    path.write_bytes(data[:at] + end64 + locator + end)
+    return path
+
+
+@pytest.mark.parametrize("ending", ["classic", "zip64"])
+def test_a_zip_central_directory_is_never_parsed_past_the_bound(tmp_path: Path, ending: str) -> None:
     # zipfile builds one ZipInfo per record; the cut hands it the first `members` records only.
-    path = zip_members(tmp_path / "many.zip", [(f"f{i}.py", b"x = 1\n") for i in range(70_000)])
-    (project,) = discover([path], single=True, library=LIB, limits=Limits(members=70_000 - 1))
+    path = zip_members(tmp_path / "many.zip", [(f"f{i:03}.py", f"x = {i}\n".encode()) for i in range(300)])
+    if ending == "zip64":
+        path = zip64_ended(path)
+        with zipfile.ZipFile(path) as archive:  # reference: zipfile reads the rewritten archive whole
+            assert len(archive.infolist()) == 300
+    (project,) = discover([path], single=True, library=LIB, limits=Limits(members=299))
     entries = list(project.entries())
-    assert len(entries) == 70_000 and entries[-1].skip == "too many members"
-    assert "70000 the archive declares" in entries[-1].note  # a zip64 count: over 65535 members
-    assert entries[0].read() == b"x = 1\n" and entries[-2].read() == b"x = 1\n"
+    assert len(entries) == 300 and entries[-1].skip == "too many members"
+    assert "first 299 members of the 300 the archive declares" in entries[-1].note
+    assert entries[0].read() == b"x = 0\n" and entries[-2].read() == b"x = 298\n"
+    # A launcher in front of the archive (a self-extracting zip) moves every offset alike.
+    launched = tmp_path / "launched.zip"
+    launched.write_bytes(b"#!launcher\n" * 100 + path.read_bytes())
+    (project,) = discover([launched], single=True, library=LIB, limits=Limits(members=10))
+    entries = list(project.entries())
+    assert len(entries) == 11 and entries[9].read() == b"x = 9\n"
+    # The central directory's bytes count too: long names use up a member's share sooner.
+    long = zip_members(tmp_path / "long.zip", [(f"{'d' * 2000}/f{i}.py", b"") for i in range(20)])
+    (project,) = discover([long], single=True, library=LIB, limits=Limits(members=15))
+    assert len(list(project.entries())) < 15
 
 
 def test_nesting_depth(tmp_path: Path) -> None:
@@ -1006,3 +1035,30 @@ def test_links_to_other_projects_and_loops(tmp_path: Path) -> None:
     got = projects(root)
     assert got["p"] == {"a.py": None, "to_q.py": "link outside the project",
                         "l1.py": "error: broken link", "l2.py": "error: broken link"}
+
+
+def test_a_scan_accounts_for_every_member_of_names_that_normalise_alike(tmp_path: Path) -> None:
+    # End to end: the results file keys files by (project, path), so two equal paths used to
+    # abort the scan with a UNIQUE-constraint error.
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n')
+    root = tmp_path / "corpus"
+    root.mkdir()
+    uses = b"import heronframe\nheronframe.stack()\n"
+    zip_members(root / "zipped.zip", ALIKE + [("pkg/use.py", uses), ("pkg/use.py", uses)])
+    tar_members(root / "tarred.tar.gz", ALIKE + [("pkg/use.py", uses), ("./pkg/use.py", uses)], "w:gz")
+    tar_members(tmp_path / "root.tar", [(f"proj/{n}", d) for n, d in ALIKE] + [("other/x.py", b""), ("proj/use.py", uses)])
+    runner = CliRunner()
+    out = tmp_path / "r.sqlite"
+    scanned = runner.invoke(app, ["scan", str(changes), str(root), str(tmp_path / "root.tar"), "--out", str(out), "--jobs", "1"])
+    assert scanned.exit_code == 0, scanned.output
+    report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
+    assert report["totals"]["projects"] == 4  # zipped, tarred, proj, other: no phantom
+    assert report["totals"]["files"] == 7 + 7 + 6 + 1
+    sites = sorted((f["project"], f["file"]) for f in report["findings"])
+    assert sites == [("proj", "use.py"), ("tarred", "pkg/use.py"), ("tarred", "pkg/use~2.py"),
+                     ("zipped", "pkg/use.py"), ("zipped", "pkg/use~2.py")]
