@@ -14,6 +14,8 @@ from collections.abc import Iterator, Mapping
 from pathlib import Path
 
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from impactscope.corpus.roots import (
     MAX_FILE_SIZE,
@@ -27,6 +29,7 @@ from impactscope.corpus.roots import (
     classify,
     discover,
 )
+from impactscope.corpus.roots import _member_parts
 
 LIB = "heronframe"
 NOISE = random.Random(0).randbytes(300)  # not any archive format (fixed seed: no gzip magic)
@@ -1062,3 +1065,131 @@ def test_a_scan_accounts_for_every_member_of_names_that_normalise_alike(tmp_path
     sites = sorted((f["project"], f["file"]) for f in report["findings"])
     assert sites == [("proj", "use.py"), ("tarred", "pkg/use.py"), ("tarred", "pkg/use~2.py"),
                      ("zipped", "pkg/use.py"), ("zipped", "pkg/use~2.py")]
+
+
+# ------------------------------------------------------------------ hostile input: fuzzing
+
+# Member names from the parts hostile archives use: dot segments, backslashes, drive letters,
+# empty segments (leading or doubled slashes), hidden folders, names that differ only by them.
+_SEGMENT = st.sampled_from(["a.py", "b.ipynb", "pkg", "__init__.py", ".", "..", "", ".git", "venv",
+                            "x\\y.py", "C:", "é.py", "a~2.py", "inner.zip", "inner.tar.gz", LIB])
+_NAME = st.one_of(st.lists(_SEGMENT, min_size=1, max_size=4).map("/".join), st.text(max_size=12))
+_KIND = st.sampled_from(["file", "file", "file", "dir", "link", "fifo"])
+_DATA = st.sampled_from([b"", b"import heronframe\nheronframe.stack()\n", b"\xff\xfe", b"{}"])
+_TARGET = st.sampled_from(["a.py", "../../etc/passwd", "/abs", "pkg/a.py", ""])
+_MEMBERS = st.lists(st.tuples(_NAME, _KIND, _DATA, _TARGET), max_size=12)
+_FORMAT = st.sampled_from(["zip", "tar", "tar.gz", "tar.bz2", "tar.xz"])
+
+
+def _archive_bytes(members: list[tuple[str, str, bytes, str]], form: str, inner: bytes | None) -> bytes:
+    """An archive of `members`; a member named like an archive holds `inner` (one level down)."""
+    buffer = io.BytesIO()
+    if form == "zip":
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", UserWarning)  # duplicate names, on purpose
+            with zipfile.ZipFile(buffer, "w") as archive:
+                for name, kind, data, target in members:
+                    if kind == "dir":
+                        archive.writestr(zipfile.ZipInfo(name.rstrip("/") + "/"), b"")
+                        continue
+                    info = zipfile.ZipInfo(name)
+                    if kind == "link":
+                        info.external_attr = 0o120777 << 16  # S_IFLNK, as Info-ZIP stores links
+                        data = target.encode()
+                    elif inner is not None and archive_stem(name) is not None:
+                        data = inner
+                    archive.writestr(info, data)
+        return buffer.getvalue()
+    mode = "w" if form == "tar" else f"w:{form.rpartition('.')[2]}"
+    with tarfile.open(fileobj=buffer, mode=mode) as archive:
+        for name, kind, data, target in members:
+            info = tarfile.TarInfo(name)
+            if kind in ("dir", "link", "fifo"):
+                info.type = {"dir": tarfile.DIRTYPE, "link": tarfile.SYMTYPE, "fifo": tarfile.FIFOTYPE}[kind]
+                info.linkname = target
+                archive.addfile(info)
+                continue
+            if inner is not None and archive_stem(name) is not None:
+                data = inner
+            info.size = len(data)
+            archive.addfile(info, io.BytesIO(data))
+    return buffer.getvalue()
+
+
+def _reference_members(path: Path) -> list[bool]:
+    """Whether each member, in archive order, is a directory, as the standard library sees it."""
+    if path.suffix == ".zip":
+        with zipfile.ZipFile(path) as archive:
+            return [info.filename.endswith("/") for info in archive.infolist()]  # is_dir fails on ''
+    with tarfile.open(path) as archive:
+        return [info.isdir() for info in archive.getmembers()]
+
+
+def _drain(found: Iterator[Project]) -> dict[str, list[Entry]]:
+    """Every project's entries, each read while it is current, as a scan does."""
+    listed: dict[str, list[Entry]] = {}
+    for project in found:
+        entries = []
+        for entry in project.entries():
+            try:
+                assert isinstance(entry.read(), bytes)
+            except EntryError:
+                pass
+            entries.append(entry)
+        paths = [entry.path for entry in entries]
+        assert len(paths) == len(set(paths)), paths  # paths unique within a project
+        assert project.name not in listed
+        listed[project.name] = entries
+    return listed
+
+
+@settings(max_examples=120, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
+@given(members=_MEMBERS, inner=st.none() | _MEMBERS, form=_FORMAT, inner_form=_FORMAT,
+       cap=st.integers(min_value=1, max_value=15))
+def test_fuzzed_archives_are_read_whole_and_every_member_is_accounted(
+    tmp_path_factory: pytest.TempPathFactory,
+    members: list[tuple[str, str, bytes, str]],
+    inner: list[tuple[str, str, bytes, str]] | None,
+    form: str,
+    inner_form: str,
+    cap: int,
+) -> None:
+    base = tmp_path_factory.mktemp("fuzz")
+    nested = None if inner is None else _archive_bytes(inner, inner_form, None)
+    path = base / f"case.{form}"
+    path.write_bytes(_archive_bytes(members, form, nested))
+    limits = Limits(members=cap)
+    is_dir = _reference_members(path)
+    # As one project: each file member of the first `cap` is one entry, and one more entry
+    # stands for the members past the bound.
+    (listed,) = _drain(discover([path], single=True, library=LIB, limits=limits)).values()
+    expected = is_dir[:cap].count(False) + (len(is_dir) > cap)
+    assert len(listed) == expected, [(e.path, e.skip, e.error) for e in listed]
+    # As a root of projects: nothing crashes, names and paths stay unique, nothing is lost.
+    ignored: list[tuple[str, str]] = []
+    projects_found = _drain(discover([path], library=LIB, limits=limits, ignored=ignored))
+    accounted = sum(map(len, projects_found.values())) + len(ignored)
+    tops = sum(1 for name, kind, _, _ in members[:cap]
+               if kind != "dir" and archive_stem(name) is not None and _member_parts(name) == (name,))
+    assert accounted >= is_dir[:cap].count(False) - tops
+
+
+@settings(max_examples=150, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
+@given(members=_MEMBERS, form=_FORMAT, data=st.data(), single=st.booleans())
+def test_fuzzed_damaged_archives_never_raise(
+    tmp_path_factory: pytest.TempPathFactory,
+    members: list[tuple[str, str, bytes, str]],
+    form: str,
+    data: st.DataObject,
+    single: bool,
+) -> None:
+    raw = bytearray(_archive_bytes(members, form, _archive_bytes(members[:3], "zip", None)))
+    cut = data.draw(st.integers(min_value=0, max_value=len(raw)), label="cut")
+    flips = data.draw(st.lists(st.tuples(st.integers(0, max(len(raw) - 1, 0)), st.integers(0, 255)), max_size=6))
+    for at, value in flips:
+        if raw:
+            raw[at] = value
+    path = tmp_path_factory.mktemp("damaged") / f"case.{form}"
+    path.write_bytes(bytes(raw[:cut] if data.draw(st.booleans(), label="truncate") else raw))
+    ignored: list[tuple[str, str]] = []
+    _drain(discover([path], single=single, library=LIB, ignored=ignored, limits=Limits(members=8)))

@@ -602,7 +602,7 @@ def _member_entry(member: _Member, prefix: tuple[str, ...]) -> Entry:
         raw = member.name.replace("\\", "/")
         head = "".join(f"{part}/" for part in prefix)
         path = raw[len(head) :] if head and raw.startswith(head) else raw
-        return _skipped(_display(path or raw), member.size, member.stamp, "unsafe path")
+        return _skipped(_display(path or raw or "(unnamed member)"), member.size, member.stamp, "unsafe path")
     # Outside the project's folder, or the folder's own name given to a file: keep it whole.
     if parts[: len(prefix)] != prefix or len(parts) == len(prefix):
         prefix = ()
@@ -808,6 +808,11 @@ def _open_zip(source: _ZipSource, limits: Limits) -> zipfile.ZipFile:
         raise
 
 
+def _zip_dir(info: zipfile.ZipInfo) -> bool:
+    # ZipInfo.is_dir fails (IndexError) on a member with an empty name.
+    return info.filename.endswith("/")
+
+
 def _cut_of(archive: zipfile.ZipFile) -> _Cut | None:
     return archive.cut if isinstance(archive, _CappedZip) else None
 
@@ -849,7 +854,7 @@ def _zip_members(
     archive: zipfile.ZipFile, source: _ZipSource, infos: Iterable[zipfile.ZipInfo], limits: Limits
 ) -> Iterator[tuple[zipfile.ZipInfo, _Member]]:
     for info in infos:
-        if not info.is_dir():
+        if not _zip_dir(info):
             yield info, _zip_member(archive, source, info, limits)
 
 
@@ -1001,13 +1006,14 @@ class _TarStream:
         return self._ahead
 
     def _next(self) -> tarfile.TarInfo | _End | None:
-        if self.taken >= self.limits.members:
-            detail = f"listed the first {self.taken} members; the rest were not read"
-            return _End(self.limits.reason("members"), detail, True)
         try:
-            return self.archive.next()
+            item = self.archive.next()
         except (LimitExceeded, *_ARCHIVE_ERRORS) as exc:
             return _End.of(exc)
+        if item is not None and self.taken >= self.limits.members:
+            detail = f"listed the first {self.taken} members; the rest were not read"
+            return _End(self.limits.reason("members"), detail, True)
+        return item
 
     def take(self) -> None:
         if isinstance(self.peek(), tarfile.TarInfo):
@@ -1347,10 +1353,10 @@ def _zip_root(
         for info in archive.infolist():
             head = _member_head(info.filename)
             if head is None:
-                if not (info.is_dir() and _member_parts(info.filename) == ()):  # "./" is harmless
+                if not (_zip_dir(info) and _member_parts(info.filename) == ()):  # "./" is harmless
                     ignored.append((f"{location}!{info.filename}", "unsafe path"))
             elif head.startswith("."):
-                if not info.is_dir():
+                if not _zip_dir(info):
                     ignored.append((f"{location}!{info.filename}", "hidden"))
             else:
                 groups.setdefault(head, []).append(info)
@@ -1377,7 +1383,7 @@ def _zip_root_project(
     library: str,
     limits: Limits,
 ) -> Project | None:
-    if len(infos) == 1 and not infos[0].is_dir() and _member_parts(infos[0].filename) == (head,):
+    if len(infos) == 1 and not _zip_dir(infos[0]) and _member_parts(infos[0].filename) == (head,):
         stem = archive_stem(head)
         if stem is not None:
             entries = functools.partial(_zip_nested, shared, infos[0], library, limits)
