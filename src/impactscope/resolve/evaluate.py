@@ -332,8 +332,12 @@ class ModuleEvaluator:
             return value
         if isinstance(node, cst.MatchClass):
             cls = self.expr(node.cls, scope)
-            for p in (*node.patterns, *node.kwds):
-                self.pattern(p.pattern, scope)
+            # Positional sub-patterns are MatchSequenceElement (`.value`), keyword ones
+            # MatchKeywordElement (`.pattern`), as libcst spells them.
+            for element in node.patterns:
+                self.pattern(element.value, scope)
+            for keyword in node.kwds:
+                self.pattern(keyword.pattern, scope)
             if isinstance(cls, Lib):
                 return Inst(cls.name)
             if isinstance(cls, UserClass):
@@ -353,6 +357,8 @@ class ModuleEvaluator:
         for child in node.children:
             if isinstance(child, cst.MatchPattern):
                 self.pattern(child, scope)
+            elif isinstance(child, cst.MatchSequenceElement):  # `case [a, b]:` binds a and b
+                self.pattern(child.value, scope)
             elif hasattr(child, "pattern") and isinstance(getattr(child, "pattern"), cst.MatchPattern):
                 self.pattern(child.pattern, scope)  # type: ignore[attr-defined]
             elif hasattr(child, "key") and isinstance(getattr(child, "key"), cst.BaseExpression):
@@ -779,7 +785,18 @@ class ModuleEvaluator:
             return Foreign("literal")
         if isinstance(node, cst.Tuple) and not any(isinstance(el, cst.StarredElement) for el in node.elements):
             return Tup(tuple(self.expr(el.value, scope) for el in node.elements))
-        if isinstance(node, (cst.ConcatenatedString, cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
+        if isinstance(node, cst.ConcatenatedString):
+            # A chain `'a' 'b' 'c' ...` nests one node per part: walked in a loop, not recursively,
+            # or a long one (pydoc_data/topics.py has hundreds of parts) exhausts the stack.
+            part: cst.BaseExpression = node
+            while isinstance(part, cst.ConcatenatedString):
+                if isinstance(part.left, cst.FormattedString):
+                    self.generic(part.left, scope)
+                part = part.right
+            if isinstance(part, cst.FormattedString):
+                self.generic(part, scope)
+            return Foreign("literal")
+        if isinstance(node, (cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
             self.generic(node, scope)
             return Foreign("literal")
         if isinstance(node, (cst.ListComp, cst.SetComp, cst.DictComp, cst.GeneratorExp)):
