@@ -255,7 +255,7 @@ def notebook_text(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -
         raise SourceError("invalid notebook", f"{path}: the top level is not a JSON object")
     cells = document.get("cells")
     if cells is None:  # nbformat v3 keeps cells in worksheets, code under "input"
-        cells = [c for w in document.get("worksheets") or [] if isinstance(w, dict) for c in w.get("cells") or []]
+        cells = [c for w in _list(document.get("worksheets")) if isinstance(w, dict) for c in _list(w.get("cells"))]
     parts: list[str] = []
     for cell in cells if isinstance(cells, list) else []:
         if isinstance(cell, dict) and cell.get("cell_type") == "code":
@@ -264,6 +264,11 @@ def notebook_text(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -
     code = "\n".join(parts)
     _check_code_size(len(code.encode("utf-8", "surrogatepass")), path, limits)
     return code
+
+
+def _list(value: object) -> list[Any]:
+    """`value` if it is a JSON array, else no items (files in the wild break the schema)."""
+    return value if isinstance(value, list) else []
 
 
 def read_notebook(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -> Source:
