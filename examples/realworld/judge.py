@@ -288,6 +288,28 @@ def _other_module(kind: str, library: str) -> bool:
 # ------------------------------------------------------------------ rules
 
 
+IMPORT_GUARDS = {"ImportError", "ModuleNotFoundError", "Exception", "BaseException"}
+
+
+def guarded_lines(tree: ast.Module) -> set[int]:
+    """Lines inside a `try:` body whose handlers catch a failed import (a bare except, ImportError,
+    ModuleNotFoundError, Exception): an import there may fall back instead of breaking."""
+    lines: set[int] = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Try):
+            caught = set()
+            for handler in node.handlers:
+                if handler.type is None:
+                    caught.add("Exception")
+                else:
+                    types = handler.type.elts if isinstance(handler.type, ast.Tuple) else [handler.type]
+                    caught.update((_dotted(t) or ["?"])[-1] for t in types)
+            if caught & IMPORT_GUARDS:
+                for stmt in node.body:
+                    lines.update(range(stmt.lineno, (stmt.end_lineno or stmt.lineno) + 1))
+    return lines
+
+
 def _dotted(node: ast.AST) -> list[str] | None:
     """`a.b.c` as ["a", "b", "c"]; None for anything that is not a plain dotted name."""
     parts = []
@@ -587,9 +609,12 @@ def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict
             facts.project_from_library = from_library
         for src in sources:
             facts = facts_of.get(src.file) if src.tree is not None else None
+            guarded = guarded_lines(src.tree) if src.tree is not None else set()
             removed_names = names_from_removed(src, changes, facts_of.get(src.file))
             for (line, change_id), reason in removed_names.items():
                 key = (dist.name, src.file, src.cell, line, change_id)
+                if line in guarded and reason.startswith("[import]"):
+                    continue  # left to a person, as above
                 if key not in out:
                     out[key] = (Verdict("true", reason), src.line(line).strip())
             for change in changes:
@@ -617,6 +642,8 @@ def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict
                                 and occ.node.value.attr in list_attrs):
                             verdict = Verdict("false", f"[list-attr] every assignment to `.{occ.node.value.attr}` "
                                                        "in this project is a list")
+                    if verdict.verdict == "true" and occ.role == "import" and occ.line in guarded:
+                        verdict = Verdict("todo", "")  # a guarded import: a person checks the fallback
                     line = occ.line
                     if change["kind"] in PARAMETER_KINDS and occ.role == "keyword":
                         # A parameter's site is its call, on the line that spells the called name.
