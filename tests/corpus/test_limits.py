@@ -93,3 +93,14 @@ def test_ratio_guard_counts_bytes_out_against_bytes_in() -> None:
 
 def test_describe_names_the_bound() -> None:
     assert Limits(members=7).describe("members", 9) == "too many members: 9 seen, limit members = 7"
+
+
+def test_settings_as_a_command_line_gives_them() -> None:
+    assert Limits().updated(["members=5", "file-bytes = 4_000_000"]) == Limits(members=5, file_bytes=4_000_000)
+    assert Limits(ratio=7).updated([]) == Limits(ratio=7)
+    with pytest.raises(LimitsError, match=r"'member=5': expected NAME=VALUE with NAME one of file_bytes, "):
+        Limits().updated(["member=5"])
+    with pytest.raises(LimitsError, match=r"'ratio=lots': 'lots' is not a whole number"):
+        Limits().updated(["ratio=lots"])
+    with pytest.raises(LimitsError, match=r"limit depth = 0"):
+        Limits().updated(["depth=0"])

@@ -1,5 +1,7 @@
 """The corpus: roots of downstream projects, their files, and the Python text in them."""
 
+from .files import FileRefused, read_regular, refusal
+from .limits import Limits, LimitsError
 from .roots import CorpusError, Entry, EntryError, Project, check_roots, classify, discover
 from .sources import (
     CodeCell,
@@ -16,6 +18,9 @@ __all__ = [
     "CorpusError",
     "Entry",
     "EntryError",
+    "FileRefused",
+    "Limits",
+    "LimitsError",
     "Project",
     "Source",
     "SourceError",
@@ -26,4 +31,6 @@ __all__ = [
     "looks_like_python2",
     "read_notebook",
     "read_python",
+    "read_regular",
+    "refusal",
 ]

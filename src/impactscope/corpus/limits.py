@@ -1,6 +1,9 @@
 """How much of a corpus is read: the bounds that keep a hostile archive, folder or notebook cheap.
 
-A `Limits` value holds every bound; `discover` takes one and hands it to each project it finds.
+A `Limits` value holds every bound; `discover` takes one and hands it to each project it finds
+(`Project.limits`), so that the readers of a project's files apply the same bounds.
+`Limits().updated(["members=500000", "ratio=300"])` applies NAME=VALUE settings as a command
+line or a configuration file would give them.
 A bound that is reached is never an exception out of the corpus layer: the file (or the rest of
 the archive) becomes an entry skipped with the bound's own reason, and the scan goes on.
 
@@ -28,7 +31,7 @@ from __future__ import annotations
 
 import dataclasses
 import io
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import IO
 
@@ -83,6 +86,24 @@ class Limits:
                 raise LimitsError(
                     f"limit {item.name} = {value!r}: must be a whole number of at least 1"
                 )
+
+    def updated(self, settings: Iterable[str]) -> Limits:
+        """These limits with `NAME=VALUE` settings applied (as a command line gives them:
+        `members=500000`, `file_bytes=4_000_000`). Raises LimitsError naming the bad setting."""
+        names = [item.name for item in dataclasses.fields(self)]
+        changes: dict[str, int] = {}
+        for setting in settings:
+            name, equals, value = setting.partition("=")
+            name = name.strip().replace("-", "_")
+            if not equals or name not in names:
+                raise LimitsError(
+                    f"limit {setting!r}: expected NAME=VALUE with NAME one of {', '.join(names)}"
+                )
+            try:
+                changes[name] = int(value.strip())
+            except ValueError:
+                raise LimitsError(f"limit {setting!r}: {value.strip()!r} is not a whole number") from None
+        return dataclasses.replace(self, **changes)
 
     def reason(self, name: str) -> str:
         """The skip reason of limit `name`."""
