@@ -26,7 +26,8 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from run import MODES, HERE, Corpus, Library, candidate_word, changes_of, library_source, load_corpus, results_path, sources_of
+from run import (MODES, HERE, Corpus, Library, Surface, candidate_word, changes_of, library_source, load_corpus,
+                 read_surface, results_path, sources_of)
 
 PARAMETER_KINDS = ("parameter-removed", "parameter-renamed", "default-changed")
 # Calls whose result is a list (or a deque: it has .append too, and is not the library's).
@@ -321,6 +322,18 @@ def _dotted(node: ast.AST) -> list[str] | None:
     return [node.id, *reversed(parts)]
 
 
+def _import_path(node: ast.AST, parent: ast.AST | None, word: str) -> str | None:
+    """The dotted path an import spells up to the word (`from a.b import c` -> a.b.c)."""
+    if isinstance(node, ast.ImportFrom):
+        return node.module if not node.level else None
+    if isinstance(node, ast.alias) and isinstance(parent, ast.Import):
+        parts = node.name.split(".")
+        return ".".join(parts[: parts.index(word) + 1]) if word in parts else node.name
+    if isinstance(node, ast.alias) and isinstance(parent, ast.ImportFrom) and not parent.level:
+        return f"{parent.module}.{node.name}"
+    return None
+
+
 def _import_covers(node: ast.AST, parent: ast.AST | None, member: str) -> bool | None:
     """Does this import statement name the member (or something under it)?"""
     if isinstance(node, ast.ImportFrom):
@@ -343,7 +356,15 @@ def _import_covers(node: ast.AST, parent: ast.AST | None, member: str) -> bool |
     return None
 
 
-def judge_occurrence(occ: Occurrence, change: dict, library: str, facts: FileFacts) -> Verdict:
+def still_there(new: Surface, path: str) -> bool:
+    """The dotted path names a module, or a name a module binds, in the new release's source."""
+    if path in new.names:
+        return True
+    parent, _, name = path.rpartition(".")
+    return parent in new.names and new.binds(parent, name)
+
+
+def judge_occurrence(occ: Occurrence, change: dict, library: str, facts: FileFacts, new: Surface) -> Verdict:
     member: str = change["member"]
     word = candidate_word(change)
     parameter_change = change["kind"] in PARAMETER_KINDS
@@ -362,7 +383,11 @@ def judge_occurrence(occ: Occurrence, change: dict, library: str, facts: FileFac
         if covers is True:
             return Verdict("true", "[import] the import statement names the removed member or module")
         if covers is False and not parameter_change:
-            return Verdict("false", "[import] an import of something else that happens to have this name")
+            spelled = _import_path(node, parent, word)
+            if spelled is None or not (spelled == library or spelled.startswith(library + ".")):
+                return Verdict("false", "[import] an import from another package that happens to use this name")
+            if still_there(new, spelled):
+                return Verdict("false", f"[import] imports {spelled}, which the new release still has")
         return Verdict("todo", "")
     if parameter_change:
         if occ.role == "param":
@@ -406,7 +431,10 @@ def judge_occurrence(occ: Occurrence, change: dict, library: str, facts: FileFac
                 if full == member or full.startswith(member + "."):
                     return Verdict("true", f"[module-attr] `{text}.{word}` spells {full}; `{root}` is bound only "
                                            f"by `import {library}`")
-                return Verdict("false", f"[module-attr] `{text}.{word}` spells {full}, not {member}")
+                if still_there(new, full):
+                    return Verdict("false", f"[module-attr] `{text}.{word}` spells {full}, which the new release "
+                                            "still has")
+                return Verdict("todo", "")  # another path to the member, perhaps: a person follows it
         if module_member and isinstance(receiver, ast.Attribute) and not facts.stores_library(library) \
                 and receiver.attr != library.split(".")[-1] and not member.startswith(f"{library}.{receiver.attr}"):
             return Verdict("false", f"[attr-chain] `{text}` is an attribute chain, and this file never stores "
@@ -588,6 +616,7 @@ def _modules_of(work: Path, lib: Library) -> set[str]:
 def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict, str]]:
     """Scripted verdicts for every grep candidate (and context text), keyed by site."""
     changes = changes_of(lib)
+    new = read_surface(library_source(work, lib, "new"))
     modules = {m for m in _modules_of(work, lib)}
     for change in changes:
         change["_module"] = change["member"] in modules
@@ -631,7 +660,7 @@ def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict
                     if facts is None or occ.role == "other":
                         verdict = Verdict("todo", "")
                     else:
-                        verdict = judge_occurrence(occ, change, lib.name, facts)
+                        verdict = judge_occurrence(occ, change, lib.name, facts, new)
                         if (verdict.verdict == "todo" and occ.role == "attr" and change["member"].endswith(".append")
                                 and isinstance(occ.node, ast.Attribute) and isinstance(occ.node.value, ast.Name)
                                 and list_in_scope(src.tree, parents_of(src), occ.node.value)):
