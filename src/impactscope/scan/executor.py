@@ -216,19 +216,18 @@ def run_pool(
     exhausted = False
     finished = False
 
-    def next_task() -> _Task | None:
+    def plan() -> _Task | None:
         nonlocal exhausted
+        batch = None if exhausted else next(work, None)
+        exhausted = batch is None
+        return None if batch is None else _Task(batch)
+
+    def next_task() -> _Task | None:
         if again:
             return again.popleft()
         if planned:
             return planned.popleft()
-        while not exhausted:
-            batch = next(work, None)
-            if batch is None:
-                exhausted = True
-                break
-            return _Task(batch)
-        return None
+        return plan()
 
     try:
         while True:
@@ -237,13 +236,18 @@ def run_pool(
                 task = next_task()
                 if task is None:
                     break
-                if not picklable_batch(task.batch):
-                    # Cannot travel (e.g. holds an open archive): scan it here.
+                worker = pool.idle()
+                try:
+                    worker.conn.send(task.batch)  # pickled whole before a byte is written
+                except OSError:
+                    # It died idle (a signal from outside): no project of this batch is to blame.
+                    pool.replace(worker)
+                    again.appendleft(task)
+                    continue
+                except Exception:  # noqa: BLE001 - cannot travel (e.g. holds an open archive)
                     inline.append(task.batch)
                     continue
-                worker = pool.idle()
                 worker.task = task
-                worker.conn.send(task.batch)
             for batch in inline:
                 yield from scan_batch(batch, library.query, prefilter, fingerprint)
             busy = pool.busy()
@@ -253,7 +257,7 @@ def run_pool(
                 break
             if not exhausted and len(planned) < jobs:
                 # Plan ahead while the workers run (listing a project is I/O done here).
-                task = next_task()
+                task = plan()
                 if task is not None:
                     planned.append(task)
             ready = multiprocessing.connection.wait(
