@@ -375,3 +375,27 @@ def test_overloads_that_differ_leave_the_class_open(query: Query) -> None:
     assert at(hits, 5, "C-PAIRS") == "inferred"
     # Only a Table has `transpose`, which returns a Table.
     assert at(hits, 6, "T-STACK") == "resolved"
+
+
+def test_parameters_receive_defaults_and_the_arguments_of_calls(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        def collect(rows, acc=hf.Column()):
+            acc.iter_pairs()
+        def gather(year, table):
+            return table.stack_rows(year)
+        def run():
+            return gather(2020, hf.read_table("p"))
+        class Job:
+            def step(self, t):
+                t.stack_rows(1)
+        Job().step(hf.Table())
+        def other(x):
+            x.iter_pairs()
+        other([1, 2])
+    """
+    hits = found(query, code)
+    assert at(hits, 3, "C-PAIRS") == "resolved"  # the default is a Column
+    assert at(hits, 5, "T-STACK") == "resolved"  # `run` passes a Table
+    assert at(hits, 10, "T-STACK") == "resolved"  # a method: `self` is bound by the call
+    assert at(hits, 13, "C-PAIRS") == "inferred"  # a list is no proof of anything

@@ -28,6 +28,7 @@ from impactscope.resolve.values import (
     UserFunc,
     UserInst,
     Value,
+    is_library,
     join,
 )
 
@@ -615,9 +616,10 @@ class ModuleEvaluator:
             elif isinstance(value, Lib):
                 wrapped_by_library = True
         params = node.params
+        defaults: dict[str, Value] = {}
         for p in (*params.posonly_params, *params.params, *params.kwonly_params):
             if p.default is not None:
-                self.expr(p.default, scope)
+                defaults[p.name.value] = self.expr(p.default, scope)
         declared: dict[str, Value] = {}
         starred = {id(params.star_arg), id(params.star_kwarg)}
         for p in _all_params(params):
@@ -632,10 +634,9 @@ class ModuleEvaluator:
             returns_decl = None
         func = UserFunc(
             node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind, cell=self.cell,
-            home=self, top=self.top,
+            home=self, top=self.top, declared=declared, returns_decl=returns_decl,
+            passed={k: v for k, v in defaults.items() if is_library(v)},
         )
-        func.declared = declared  # type: ignore[attr-defined]
-        func.returns_decl = returns_decl  # type: ignore[attr-defined]
         scope.function_home().pending.append(func)
         self.bind(scope, node.name.value, UNKNOWN if wrapped_by_library else func)
 
@@ -672,10 +673,10 @@ class ModuleEvaluator:
     def _run_body(self, func: UserFunc) -> Value:
         assert isinstance(func.node, cst.FunctionDef)
         fscope = Scope("function", func.scope, owner=func.owner)  # type: ignore[arg-type]
-        declared: dict[str, Value] = getattr(func, "declared", {})
+        declared = func.declared
         positional = [*func.node.params.posonly_params, *func.node.params.params]
         for i, p in enumerate(_all_params(func.node.params)):
-            value: Value = declared.get(p.name.value, UNKNOWN)
+            value: Value = declared.get(p.name.value) or func.passed.get(p.name.value, UNKNOWN)
             if i == 0 and p in positional and func.owner is not None:
                 if func.kind in _FIRST_PARAM_METHODS:
                     value = UserInst(func.owner)
@@ -687,7 +688,7 @@ class ModuleEvaluator:
         result: Value = UNKNOWN
         for r in fscope.returns:
             result = join(result, r)
-        decl = getattr(func, "returns_decl", None)
+        decl = func.returns_decl
         if result is UNKNOWN and decl is not None:
             result = decl
         elif isinstance(result, Tup) and isinstance(decl, Tup) and len(result.items) == len(decl.items):
@@ -940,8 +941,9 @@ class ModuleEvaluator:
             for ref in last[1]:
                 ref.call = shape
         self._last = None
-        for arg in node.args:
-            self.expr(arg.value, scope)
+        values = [self.expr(arg.value, scope) for arg in node.args]
+        if isinstance(func, UserFunc) and isinstance(func.node, cst.FunctionDef):
+            _note_arguments(func, node, values)
         if isinstance(func, Foreign) and func.name in ("importlib.import_module", "builtins.__import__"):
             return self._dynamic_import(node, func.name)
         if isinstance(func, Foreign) and func.name == "builtins.type" and len(node.args) == 1 and not node.args[0].star:
@@ -1087,6 +1089,35 @@ def _unpacked(s: cst.Assign) -> Sequence[cst.BaseElement] | None:
         if any(isinstance(el.value, cst.StarredElement) or isinstance(el, cst.StarredElement) for el in t.elements):
             return None
     return elements
+
+
+def _note_arguments(func: UserFunc, node: cst.Call, values: Sequence[Value]) -> None:
+    """Remember the library values a call passes to a project function's parameters, so its body
+    sees them (a call through an instance or class attribute binds the first parameter itself)."""
+    assert isinstance(func.node, cst.FunctionDef)
+    params = func.node.params
+    positional = [p.name.value for p in (*params.posonly_params, *params.params)]
+    if func.owner is not None and func.kind in ("method", "classmethod") and isinstance(node.func, cst.Attribute):
+        positional = positional[1:]
+    named = {p.name.value for p in (*params.params, *params.kwonly_params)}
+    index = 0
+    for arg, value in zip(node.args, values):
+        if arg.star:
+            if arg.star == "*":
+                index = len(positional)  # what follows a `*args` cannot be placed
+            continue
+        if arg.keyword is not None:
+            name: str | None = arg.keyword.value if arg.keyword.value in named else None
+        else:
+            name = positional[index] if index < len(positional) else None
+            index += 1
+        if name is not None and is_library(value) and func.passed.get(name) != value:
+            func.passed[name] = join(func.passed.get(name, UNKNOWN), value)
+            if func.state == "done" and func.reruns < 1:
+                # Its body was read before this call: read it once more, at the end of its scope.
+                func.reruns += 1
+                func.state = "pending"
+                func.scope.function_home().pending.append(func)  # type: ignore[attr-defined]
 
 
 def _library_imports(body: cst.BaseSuite, query: Query) -> tuple[str, ...]:

@@ -63,6 +63,12 @@ class UserFunc:
     state: str = "pending"  # pending | running | done (done: its references are recorded)
     top_runs: int = 0  # recorded runs for calls from module level, each with that moment's bindings
     returns: "Value" = None  # type: ignore[assignment]  # None until a first reading infers it
+    declared: dict[str, "Value"] = field(default_factory=dict)  # parameters' annotated types
+    returns_decl: "Value | None" = None  # the return annotation's type
+    # What parameters are known to receive: defaults and the arguments of calls read so far,
+    # joined (a library value wins, as in `join`: the use breaks for the calls that pass one).
+    passed: dict[str, "Value"] = field(default_factory=dict)
+    reruns: int = 0  # recorded runs again because a later call passed a library value
 
 
 @dataclass(eq=False)
