@@ -399,3 +399,20 @@ def test_parameters_receive_defaults_and_the_arguments_of_calls(query: Query) ->
     assert at(hits, 5, "T-STACK") == "resolved"  # `run` passes a Table
     assert at(hits, 10, "T-STACK") == "resolved"  # a method: `self` is bound by the call
     assert at(hits, 13, "C-PAIRS") == "inferred"  # a list is no proof of anything
+
+
+def test_without_the_source_another_path_to_a_changed_name_is_a_guess() -> None:
+    from impactscope.resolve.query import Query as Q
+
+    changes = parse_change_list(CHANGES, Path("changes.toml"))
+    plain = Q(changes, library_model(changes))
+    code = """
+        import heronframe as hf
+        hf.util.more.checks.assert_same(1, 2)
+        hf.core.frame.Table.stack_rows(t)
+        hf.Table.stack_rows(t)
+    """
+    hits = found(plain, code)
+    # Without the source, `heronframe.core.frame.Table` may be `heronframe.Table` re-exported.
+    assert at(hits, 3, "T-STACK") == "inferred"
+    assert at(hits, 4, "T-STACK") == "resolved"

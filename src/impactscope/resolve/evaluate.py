@@ -866,12 +866,17 @@ class ModuleEvaluator:
         if attr in self.q.names and isinstance(receiver, OneOf) and not receiver.member:
             shown = "|".join(receiver.classes)
             refs.append(self._ref(node.attr, context, attr=attr, receiver=f"<{shown}>", among=receiver.classes))
-        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver)):
+        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)):
             # The receiver is not proven to be anything in particular: the name alone decides.
             refs.append(self._ref(node.attr, context, attr=attr, receiver="?"))
         if refs:
             self._last = (node, refs)
         return value
+
+    def _unlinked(self, value: Value) -> bool:
+        """Without the library's source a path it re-exports under another name
+        (`lib.sub.f` for `lib.f`) cannot be told from another member: the name alone decides."""
+        return isinstance(value, Lib) and not self.q.model.knows_kinds and not self.q.match(value.name)
 
     def _untyped(self, receiver: Value) -> bool:
         """A library value whose own type is not known: an attribute reached through an instance
