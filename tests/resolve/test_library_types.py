@@ -28,7 +28,7 @@ LIBRARY = {
     "heronframe/__init__.py": """
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
-        from heronframe.io import read_table, pick
+        from heronframe.io import read_table, pick, load
         from heronframe import util
     """,
     "heronframe/core/__init__.py": "",
@@ -94,6 +94,14 @@ LIBRARY = {
         def pick(path, single: Literal[False] = ...) -> Table: ...
         def pick(path, single=False):
             return Column() if single else Table()
+
+
+        @overload
+        def load(path, many: Literal[True]) -> dict: ...
+        @overload
+        def load(path, many: Literal[False] = ...) -> Table: ...
+        def load(path, many=False):
+            return {} if many else Table()
     """,
     "heronframe/_checks.py": """
         __all__ = ["assert_same"]
@@ -416,3 +424,12 @@ def test_without_the_source_another_path_to_a_changed_name_is_a_guess() -> None:
     # Without the source, `heronframe.core.frame.Table` may be `heronframe.Table` re-exported.
     assert at(hits, 3, "T-STACK") == "inferred"
     assert at(hits, 4, "T-STACK") == "resolved"
+
+
+def test_an_outcome_that_is_not_the_librarys_leaves_the_receiver_open(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        hf.load("p").stack_rows(1)
+    """
+    # PEP 484 overloads: `load` gives a dict or a Table; a dict has no stack_rows to break.
+    assert at(found(query, code), 2, "T-STACK") == "inferred"

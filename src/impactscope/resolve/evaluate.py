@@ -33,6 +33,8 @@ from impactscope.resolve.values import (
 )
 
 _BUILTINS = frozenset(dir(builtins))
+# Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
+_NOT_LIBRARY = "?"
 # Built-in callables whose result is a built-in object whatever the arguments (the Python Library
 # Reference, "Built-in Functions" and "Built-in Types"). Not `abs`, `round`, `sum`, `min`, `max`,
 # `next`, `getattr`, `iter`, `copy`: they hand back what an argument's own methods return.
@@ -1011,7 +1013,12 @@ class ModuleEvaluator:
                 return Inst(returned)
             if self.q.model.is_class(func.name):
                 return Inst(func.name)
-            return self._instance_of(self.q.model.returns_all(func.name))
+            outcomes = self.q.model.returns_all(func.name)
+            if len(outcomes) == 1:
+                # One library class among outcomes that do not agree: the others are not the
+                # library's (`read_excel` gives a DataFrame, or a dict of them).
+                return OneOf((outcomes[0], _NOT_LIBRARY))
+            return self._instance_of(outcomes)
         if isinstance(func, OneOf) and func.member:
             outcomes: list[str] = []
             for cls in func.classes:
