@@ -306,3 +306,13 @@ def test_dynamic_flag() -> None:
 def test_label_names_the_file_and_the_entry() -> None:
     cl = parse(HEAD + FIRST + '[[change]]\nid = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\n', "c.toml")
     assert cl.label(cl.changes[1]) == "c.toml: [[change]] #2 (id 'HF-2')"
+
+
+def test_certainty_key() -> None:
+    # DESIGN.md "Findings and the JSON report": a change may carry certainty = "high"|"medium"|"low";
+    # drafts write it, hand-written entries leave it out.
+    cl = parse(second('member = "heronframe.stack"\nkind = "removed"\ncertainty = "low"\n'))
+    assert [c.certainty for c in cl.changes] == [None, "low"]
+    assert [c.uncertain for c in cl.changes] == [False, True]
+    message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\ncertainty = "sure"\n'))
+    assert "#2" in message and "certainty 'sure'" in message and "'high', 'medium', 'low'" in message

@@ -38,8 +38,9 @@ _IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 _LIBRARY_KEYS = {"name", "release", "requires_python", "source", "import_name", "modules"}
 _CHANGE_KEYS = {
     "id", "member", "kind", "replacement", "parameter", "new_parameter",
-    "position", "deprecated_in", "note", "dynamic",
+    "position", "deprecated_in", "note", "dynamic", "certainty",
 }
+CERTAINTIES = ("high", "medium", "low")  # how sure a drafted entry is; reports show "low" apart
 _TOP_KEYS = {"library", "types", "change"}
 
 
@@ -55,6 +56,12 @@ class Change:
     deprecated_in: Version | None = None
     note: str = ""
     dynamic: bool = False  # served at run time (a module __getattr__, ...): no surface need show it
+    certainty: str | None = None  # "high" | "medium" | "low", as a draft wrote it; None: written by hand
+
+    @property
+    def uncertain(self) -> bool:
+        """A low-certainty entry: reports count its projects apart from the others."""
+        return self.certainty == "low"
 
     @property
     def name(self) -> str:
@@ -293,6 +300,12 @@ def _change(entry: Any, index: int, where: str, tops: tuple[str, ...]) -> Change
     dynamic = entry.get("dynamic", False)
     if not isinstance(dynamic, bool):
         raise ChangeListError(f"{label}: dynamic must be true or false (true: the member is served at run time)")
+    certainty = entry.get("certainty")
+    if certainty is not None and certainty not in CERTAINTIES:
+        raise ChangeListError(
+            f"{label}: certainty {certainty!r} is not one of {', '.join(repr(c) for c in CERTAINTIES)}; "
+            "drafts write it, a hand-written entry may leave it out"
+        )
     return Change(
         id=change_id,
         member=member,
@@ -304,4 +317,5 @@ def _change(entry: Any, index: int, where: str, tops: tuple[str, ...]) -> Change
         deprecated_in=_version(entry.get("deprecated_in"), f"{label}: deprecated_in"),
         note=text("note") or "",
         dynamic=dynamic,
+        certainty=certainty,
     )

@@ -173,18 +173,22 @@ def compare(
     release: Optional[str] = typer.Option(None, "--release", help="The new version number (PEP 440)."),
     library: Optional[str] = typer.Option(None, "--library", help="Import name, when a folder holds several packages."),
     output: Optional[Path] = typer.Option(None, "--output", help="Write the draft change list here."),
+    include_private: bool = typer.Option(False, "--include-private", help="Also private names, tests, examples and benchmarks."),
 ) -> None:
     """Draft a change list from two versions of the library's source."""
-    from impactscope.surface import SurfaceError, build_surface, draft_changes
+    from impactscope.surface import SurfaceError
+    from impactscope.surface.drafting import draft_compare
 
-    def draft() -> str:
+    def draft():
         for path in (old, new):
             if not path.exists():
                 raise SurfaceError(f"{path}: no such file or folder; pass the library's package folder")
-        text = draft_changes(build_surface(old, library), build_surface(new, library), release)
-        return _with_source(text, old, output)
+        return draft_compare(old, new, library, release, include_private=include_private)
 
-    _emit(_guarded(draft), output)
+    done = _guarded(draft)
+    _emit(_with_source(done.text, old, output), output)
+    if output is not None:
+        typer.echo(f"wrote {output}: {done.summary}")
 
 
 @app.command()
@@ -193,19 +197,21 @@ def harvest(
     release: Optional[str] = typer.Option(None, "--release", help="The version that will drop them (PEP 440)."),
     library: Optional[str] = typer.Option(None, "--library", help="Import name, when SOURCE holds several packages."),
     output: Optional[Path] = typer.Option(None, "--output", help="Write the draft change list here."),
+    include_private: bool = typer.Option(False, "--include-private", help="Also private names, tests, examples and benchmarks."),
 ) -> None:
     """Draft a change list from the deprecation warnings the library already emits."""
-    from impactscope.surface import SurfaceError, build_surface, harvest_deprecations
-    from impactscope.surface.harvest import render_draft
+    from impactscope.surface import SurfaceError
+    from impactscope.surface.drafting import draft_harvest
 
-    def draft() -> str:
+    def draft():
         if not source.exists():
             raise SurfaceError(f"{source}: no such file or folder; pass the library's package folder")
-        name = build_surface(source, library).library
-        text = render_draft(harvest_deprecations(source, library), name, release)
-        return _with_source(text, source, output)
+        return draft_harvest(source, library, release, include_private=include_private)
 
-    _emit(_guarded(draft), output)
+    done = _guarded(draft)
+    _emit(_with_source(done.text, source, output), output)
+    if output is not None:
+        typer.echo(f"wrote {output}: {done.summary}")
 
 
 def _with_source(draft: str, source: Path, output: Optional[Path]) -> str:

@@ -114,11 +114,16 @@ def test_pep702_through_the_librarys_own_compat_module(tmp_path):
     assert s.member("lib.Old").deprecated == "use New"
 
 
-def test_module_getattr_marks_the_module_dynamic():
-    # PEP 562: a module-level __getattr__ can answer any name, so the module is recorded as dynamic.
+def test_module_getattr_marks_the_module_dynamic(tmp_path):
+    # PEP 562: a module-level __getattr__ can answer any name, so the module is recorded as dynamic;
+    # one that only raises (heronframe 3.0: "stack was removed") answers none, so it is not.
     new = build_surface(NEW)
-    assert new.dynamic == frozenset({"heronframe"})
+    assert new.dynamic == frozenset()
     assert new.member("heronframe.stack") is None
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": "def __getattr__(name):\n    import importlib\n    return importlib.import_module('lib.' + name)\n",
+    })
+    assert build_surface(root).dynamic == frozenset({"lib"})
 
 
 def test_json_round_trip_and_table(old):
@@ -335,7 +340,8 @@ def test_runtime_names_and_getattr_are_dynamic(tmp_path):
         "__init__.py": "",
         "g.py": "for _n in ('a', 'b'):\n    globals()[_n] = _n\n",
         "s.py": "import sys\nsetattr(sys.modules[__name__], 'x', 1)\n",
-        "lazy.py": "def __getattr__(name):\n    raise AttributeError(name)\n",
+        "lazy.py": "def __getattr__(name):\n    return name\n",
+        "gone.py": "def __getattr__(name):\n    raise AttributeError(name)\n",  # serves nothing
         "plain.py": "def f(): return globals()\n",
     })
     s = build_surface(root)

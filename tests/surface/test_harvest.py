@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 
 from impactscope.surface import harvest_deprecations
-from impactscope.surface.harvest import render_draft
+from impactscope.surface.harvest import harvest, render_draft
 
 from .helpers import OLD, write_tree
 
@@ -52,8 +52,9 @@ def test_unittest_deprecated_aliases_are_found(unittest_harvest):
 def test_unittest_draft_loads(unittest_harvest):
     text = render_draft(unittest_harvest, "unittest")
     data = tomllib.loads(text)
-    assert all(set(c) <= {"id", "member", "kind", "replacement", "parameter", "position", "note"} for c in data["change"])
-    assert "the kind is a guess" in text
+    keys = {"id", "member", "kind", "replacement", "parameter", "new_parameter", "position", "note", "certainty"}
+    assert all(set(c) <= keys for c in data["change"])
+    assert "what the deprecation becomes is a guess" in text
 
 
 def test_heronframe_old_deprecations():
@@ -213,6 +214,153 @@ def test_conditional_helpers_and_run_time_messages_are_flagged(tmp_path):
                     _deprecated_call(how)
             """,
     })
-    found = {c.member: c for c in harvest_deprecations(root)}
-    assert found["lib.Box.__eq__"].certainty == "low" and "only under a condition" in found["lib.Box.__eq__"].why
-    assert found["lib.Box.pack"].note == "lib.Box.pack is deprecated (the message is built at run time: {how})"
+    found = harvest(root)
+    by_member = {c.member: c for c in found.changes}
+    # A warning about some values of an argument is not a removal: listed for review, not drafted.
+    assert "lib.Box.__eq__" not in by_member
+    assert [u.member for u in found.unread] == ["lib.Box.__eq__"] and "isinstance(other, list)" in found.unread[0].condition
+    pack = by_member["lib.Box.pack"]
+    assert pack.note == "lib.Box.pack is deprecated (the message is built at run time: {how})"
+    assert "message built at run time" in pack.evidence
+    text = render_draft(found.changes, "lib", unread=found.unread)
+    assert "# Left out: 1 deprecation warnings under a condition" in text and "#   lib.Box.__eq__ (line" in text
+
+
+# The helpers below are written after the shapes real libraries use (common practice): a decorator
+# that warns when more positional arguments are passed than it allows, one that warns when an old
+# keyword is passed and hands its value on under a new name (or drops it), and a method that
+# warns when a parameter is not left at its "no default" sentinel.
+HELPERS = {
+    "__init__.py": """
+        from ._decorators import deprecate_kwarg, deprecate_nonkeyword_arguments
+        from ._libs import no_default
+        import warnings
+
+        class Frame:
+            @deprecate_nonkeyword_arguments(version=None, allowed_args=["self", "labels"])
+            def drop(self, labels=None, axis=0, index=None):
+                ...
+
+            @deprecate_kwarg(old_arg_name="line_terminator", new_arg_name="lineterminator")
+            def to_csv(self, path=None, lineterminator=None):
+                ...
+
+            @deprecate_kwarg(old_arg_name="errors", new_arg_name=None)
+            def where(self, cond, other=None):
+                ...
+
+            def slice_locs(self, start=None, end=None, kind=no_default):
+                self._deprecated_arg(kind, "kind", "slice_locs")
+
+            def _deprecated_arg(self, value, name, methodname):
+                if value is not no_default:
+                    warnings.warn(f"'{name}' argument in {methodname} is deprecated", FutureWarning)
+
+            def cov(self, numeric_only=no_default):
+                if numeric_only is no_default:
+                    warnings.warn("The default value of numeric_only will be False", FutureWarning)
+
+            def get_loc(self, key, method=None):
+                if method is None:
+                    return key
+                warnings.warn("Passing method to get_loc is deprecated, use get_indexer instead", FutureWarning)
+
+            def ravel(self):
+                warnings.warn("In a future version this will return a view", FutureWarning)
+
+            def iteritems(self):
+                warnings.warn("iteritems is deprecated and will be removed. Use .items instead.", FutureWarning)
+
+            def items(self):
+                ...
+
+            def later(self):
+                warnings.warn("later is deprecated and will be removed in 5.0", FutureWarning)
+        """,
+    "_libs.py": "no_default = object()\n",
+    "_decorators.py": """
+        import warnings
+        from functools import wraps
+
+        def deprecate_nonkeyword_arguments(version, allowed_args=None, stacklevel=2):
+            def decorate(func):
+                num_allow_args = len(allowed_args)
+                msg = f"all arguments of {func.__qualname__} except {allowed_args} will be keyword-only"
+
+                @wraps(func)
+                def wrapper(*args, **kwargs):
+                    if len(args) > num_allow_args:
+                        warnings.warn(msg, FutureWarning, stacklevel=stacklevel)
+                    return func(*args, **kwargs)
+                return wrapper
+            return decorate
+
+        def deprecate_kwarg(old_arg_name, new_arg_name, stacklevel=2):
+            def _deprecate_kwarg(func):
+                @wraps(func)
+                def wrapper(*args, **kwargs):
+                    old_arg_value = kwargs.pop(old_arg_name, None)
+                    if old_arg_value is not None:
+                        if new_arg_name is None:
+                            warnings.warn(f"the {old_arg_name!r} keyword is deprecated", FutureWarning)
+                            kwargs[old_arg_name] = old_arg_value
+                            return func(*args, **kwargs)
+                        warnings.warn(f"{old_arg_name} is deprecated, use {new_arg_name}", FutureWarning)
+                        kwargs[new_arg_name] = old_arg_value
+                    return func(*args, **kwargs)
+                return wrapper
+            return _deprecate_kwarg
+        """,
+}
+
+
+@pytest.fixture(scope="module")
+def helpers_harvest(tmp_path_factory):
+    root = write_tree(tmp_path_factory.mktemp("helpers") / "lib", HELPERS)
+    return harvest(root, release="4.0")
+
+
+def test_a_helper_is_read_from_how_it_is_called(helpers_harvest):
+    got = {(c.member, c.kind, c.parameter): c for c in helpers_harvest.changes}
+    drop = got[("lib.Frame.drop", "parameter-removed", "axis")]  # positional use goes, from `axis` on
+    assert (drop.position, drop.announces) == (1, "keyword-only")
+    csv = got[("lib.Frame.to_csv", "parameter-renamed", "line_terminator")]
+    assert csv.new_parameter == "lineterminator"
+    assert ("lib.Frame.where", "parameter-removed", "errors") in got
+    locs = got[("lib.Frame.slice_locs", "parameter-removed", "kind")]  # the helper's `value` is the caller's `kind`
+    assert locs.position == 2
+    assert not any(m in ("lib.Frame.drop", "lib.Frame.to_csv", "lib.Frame.where", "lib.Frame.slice_locs")
+                   and k == "removed" for m, k, _ in got)  # none of them is drafted as a removal
+
+
+def test_what_a_condition_on_a_parameter_means(helpers_harvest):
+    got = {(c.member, c.kind, c.parameter): c for c in helpers_harvest.changes}
+    assert got[("lib.Frame.cov", "default-changed", "numeric_only")].announces == "default-changed"  # left at the sentinel
+    # `if method is None: return ...` guards the warning: it fires when `method` is passed.
+    assert ("lib.Frame.get_loc", "parameter-removed", "method") in got
+    ravel = got[("lib.Frame.ravel", "behaviour-changed", None)]
+    assert ravel.certainty == "low"
+
+
+def test_successor_from_the_message_and_a_later_removal(helpers_harvest):
+    got = {c.member: c for c in helpers_harvest.changes if c.kind == "removed"}
+    assert got["lib.Frame.iteritems"].replacement == "lib.Frame.items"
+    later = got["lib.Frame.later"]
+    assert later.certainty == "low" and "goes in 5.0, after 4.0" in later.why
+
+
+def test_private_names_and_scaffolding_only_when_asked(tmp_path):
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": "import warnings\ndef _old():\n    warnings.warn('x', DeprecationWarning)\n",
+        "conftest.py": "import warnings\ndef fixture():\n    warnings.warn('y', DeprecationWarning)\n",
+    })
+    assert harvest_deprecations(root) == []
+    assert {c.member for c in harvest_deprecations(root, include_private=True)} == {"lib._old", "lib.conftest.fixture"}
+
+
+def test_stub_modules_are_read_from_the_source_beside_them(tmp_path):
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": "import warnings\ndef old():\n    warnings.warn('old is deprecated', DeprecationWarning)\n",
+        "__init__.pyi": "def old() -> None: ...\n",
+    })
+    assert [c.member for c in harvest_deprecations(root)] == ["lib.old"]

@@ -80,6 +80,7 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
                 "id": change.id,
                 "member": change.member,
                 "kind": change.kind.value,
+                "certainty": change.certainty,  # as a draft wrote it; None when written by hand
                 "replacement": change.replacement,
                 "note": change.note,
                 "projects": counts,
@@ -90,6 +91,15 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
             }
         )
     affected = frame["project"].nunique() if not frame.empty else 0
+    # Low-certainty draft entries are counted apart, so that a guess does not swell the totals.
+    low = {c.id for c in changes.changes if c.uncertain}
+    apart = {
+        name: {
+            "changes": sum(1 for c in changes.changes if (c.id in low) == is_low),
+            "projects_affected": int(frame[frame["change"].isin(low) == is_low]["project"].nunique()) if not frame.empty else 0,
+        }
+        for name, is_low in (("low", True), ("other", False))
+    }
     meta = store.meta()
     return {
         "library": changes.library,
@@ -100,6 +110,7 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
             {"status": s, "reason": r, "files": n} for (s, r), n in sorted(reasons.items())
         ],
         "projects_affected": int(affected),
+        "by_certainty": apart,
         # What the roots held besides projects (hidden entries, stray files, unsafe archive paths).
         "not_projects": [
             {"path": path, "reason": reason} for path, reason in json.loads(meta.get("not_projects") or "[]")

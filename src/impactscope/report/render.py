@@ -81,10 +81,17 @@ def to_markdown(report: dict[str, Any]) -> str:
         "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
         "|---|---|---|---|---|---|---|",
     ]
-    for c in report["changes"]:
+    sure, low = _by_certainty(report)
+    for c in sure:
         lines.append(
             f"| {c['id']} | `{c['member']}` | {c['kind']} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c['sites']} |"
         )
+    if low:
+        lines += ["", f"## Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts", "",
+                  "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
+                  "|---|---|---|---|---|---|---|"]
+        lines += [f"| {c['id']} | `{c['member']}` | {c['kind']} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c['sites']} |"
+                  for c in low]
     legacy = _legacy_rows(report)
     if legacy:
         lines += ["", "## Python 2 files (token-level reading, all at possible)", "",
@@ -117,6 +124,17 @@ def to_markdown(report: dict[str, Any]) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _by_certainty(report: dict[str, Any]) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
+    """The changes, and apart from them those a draft marked `certainty = "low"`."""
+    low = [c for c in report["changes"] if c.get("certainty") == "low"]
+    return [c for c in report["changes"] if c.get("certainty") != "low"], low
+
+
+def _low_line(report: dict[str, Any]) -> str:
+    counts = (report.get("by_certainty") or {}).get("low") or {}
+    return f"{counts.get('changes', 0)} changes, {counts.get('projects_affected', 0)} projects hit at most"
+
+
 def _not_projects(report: dict[str, Any]) -> list[tuple[str, int]]:
     counts: dict[str, int] = {}
     for item in report.get("not_projects", []):
@@ -141,9 +159,18 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
     )
     for column in ("change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"):
         summary.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
-    for c in report["changes"]:
+    sure, low = _by_certainty(report)
+    for c in sure:
         summary.add_row(c["id"], c["member"], c["kind"], _bounds(c), _share(c), _exposed(c), str(c["sites"]))
     console.print(summary)
+    if low:
+        apart = Table(title=f"Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts",
+                      title_justify="left")
+        for column in ("change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"):
+            apart.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
+        for c in low:
+            apart.add_row(c["id"], c["member"], c["kind"], _bounds(c), _share(c), _exposed(c), str(c["sites"]))
+        console.print(apart)
     legacy = _legacy_rows(report)
     if legacy:
         table = Table(title="Python 2 files (token-level reading, all at possible)", title_justify="left")

@@ -13,7 +13,7 @@ import hashlib
 import io
 import os
 import tokenize
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -185,18 +185,23 @@ class ParsedModule:
     text: SourceText
 
 
-def iter_parsed(files: Iterable[ModuleFile], problems: list[Problem]) -> Iterator[ParsedModule]:
+def iter_parsed(files: Iterable[ModuleFile], problems: list[Problem],
+                wanted: Callable[[bytes], bool] | None = None) -> Iterator[ParsedModule]:
     """Parse modules one at a time; one that cannot be read is appended to `problems` instead.
 
     Yielding one tree at a time keeps memory flat: the collector would otherwise spend most of
-    the build walking millions of live AST nodes.
+    the build walking millions of live AST nodes. `wanted`, when given, sees each file's bytes
+    first; a file it turns down is not parsed (nor yielded).
     """
     for f in files:
         if f.path is None:
-            yield ParsedModule(f, ast.Module(body=[], type_ignores=[]), SourceText(b""))
+            if wanted is None:
+                yield ParsedModule(f, ast.Module(body=[], type_ignores=[]), SourceText(b""))
             continue
         try:
             data = f.path.read_bytes()
+            if wanted is not None and not wanted(data):
+                continue
             tree = ast.parse(data, filename=str(f.path))
         except SyntaxError as exc:
             problems.append(Problem(f.name, str(f.path), f"syntax error at line {exc.lineno}: {exc.msg}"))
@@ -275,6 +280,26 @@ def _strings(node: ast.expr | None) -> tuple[str, ...] | None:
         return None
     found = [_string(e) for e in items]
     return None if None in found else tuple(s for s in found if s is not None)
+
+
+def _doc_digest(node: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef | ast.Module) -> str:
+    """A digest of a definition's docstring with whitespace folded (re-indenting is not a change)."""
+    doc = ast.get_docstring(node, clean=False)
+    if not doc or not doc.strip():
+        return ""
+    return hashlib.blake2b(" ".join(doc.split()).encode(), digest_size=8).hexdigest()
+
+
+def _returns_value(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+    """Whether a function returns a value somewhere (nested definitions aside)."""
+    todo: list[ast.AST] = list(node.body)
+    while todo:
+        sub = todo.pop()
+        if isinstance(sub, ast.Return) and sub.value is not None and not _is_none(sub.value):
+            return True
+        if not isinstance(sub, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)):
+            todo.extend(ast.iter_child_nodes(sub))
+    return False
 
 
 def _raises(body: list[ast.stmt]) -> bool:
@@ -446,7 +471,7 @@ class _Raw:
 
     __slots__ = ("name", "kind", "module", "line", "params", "returns_ann", "self_class", "decorators",
                  "shape", "bases", "value_call", "value_ann", "dataclass", "fields", "namedtuple", "instance_attrs",
-                 "self_ann", "overloads", "wrappers", "getter", "typevar", "bound")
+                 "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc")
 
     def __init__(self, name: str, kind: str, module: str, line: int) -> None:
         self.name, self.kind, self.module, self.line = name, kind, module, line
@@ -455,6 +480,7 @@ class _Raw:
         self.self_class: str | None = None
         self.decorators: list[tuple[str, str | None]] = []
         self.shape = ""
+        self.doc = ""  # digest of the docstring
         self.bases: list[str] = []
         self.value_call: str | None = None
         self.value_ann: ast.expr | None = None
@@ -496,6 +522,7 @@ class _Reader:
         self._literals: dict[str, tuple[str, ...]] = {}  # module-level string collections (dict keys too)
         self._getattr_node: ast.FunctionDef | ast.AsyncFunctionDef | None = None
         raw[f.name] = _Raw(f.name, "module", f.name, 1 if f.path is not None else 0)
+        raw[f.name].doc = _doc_digest(parsed.tree)
         self.block(parsed.tree.body, frozenset(), False, None)
         self._scan_runtime_names(parsed.tree)
         if self._getattr_node is not None:
@@ -622,9 +649,11 @@ class _Reader:
             r.wrappers = [t for t in (dotted_name(func) for func, _ in decorators) if t and _last(t) not in known]
         r.decorators = self._deprecations(decorators)
         r.shape = self.text.body_shape(node)
+        r.doc = _doc_digest(node)
         (self._overloads.add if overload else self._overloads.discard)(path)
         if scope is None and name == "__getattr__":
-            self.getattr = True
+            # PEP 562: one that only raises (AttributeError with a message) serves no name.
+            self.getattr = _returns_value(node)
             self._getattr_node = node
             self.served_line = node.lineno
         if scope is not None and name == "__init__" and (node.args.posonlyargs or node.args.args):
@@ -682,6 +711,7 @@ class _Reader:
             for k in self._kids.get(path, ()) if k in self.raw
         )
         r.shape = hashlib.blake2b("\n".join(kids).encode(), digest_size=8).hexdigest() if kids else ""
+        r.doc = _doc_digest(node)
         return {name}
 
     def assign(self, targets: list[ast.expr], value: ast.expr | None, annotation: ast.expr | None, line: int,
@@ -1432,7 +1462,7 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
     for name in sorted(raw):
         r = raw[name]
         if r.kind == "module":
-            members[name] = Member(name, "module", None, None, (), link.deprecated(r), r.line, r.shape)
+            members[name] = Member(name, "module", None, None, (), link.deprecated(r), r.line, r.shape, doc=r.doc)
             continue
         kind = link.kind(name)
         bases = tuple(link.base_text(r.module, b) for b in r.bases) if r.kind == "class" else ()
@@ -1443,7 +1473,8 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
         members[name] = Member(name, kind, params, returns, bases, link.deprecated(r), r.line, r.shape,
                                returns_self=kind in _CALLABLE and bool(outcomes) and all(o == SELF for o in outcomes),
                                # Kept only when it says more than `returns` does, so the JSON stays small.
-                               returns_all=every if every != ((returns,) if returns else ()) and r.kind != "class" else ())
+                               returns_all=every if every != ((returns,) if returns else ()) and r.kind != "class" else (),
+                               doc=r.doc, annotation=ast.unparse(r.returns_ann) if r.returns_ann is not None else "")
 
     aliases: dict[str, str] = {}
     private: dict[str, str] = {}
@@ -1477,7 +1508,6 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
                   and not any(s.startswith("_") and not (s.startswith("__") and s.endswith("__")) for s in rest[1:]))
         (aliases if public else private)[path] = target
     for module, reader in readers.items():
-        names = link.static_all(module) if reader.served else None
         for name, target in reader.served.items():
             path = f"{module}.{name}"
             bind = link.namespace(module).get(name)
@@ -1490,7 +1520,8 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
             if found is None:
                 members[path] = Member(path, "dynamic", None, None, (), None, reader.served_line)
             else:
-                public = link.public_binding(reader, name, _Bind("alias", target or name, reader.served_line), names)
+                # Served names are public unless named private: __all__ leaves them out by design.
+                public = link.public_binding(reader, name, _Bind("alias", target or name, reader.served_line), None)
                 (aliases if public else private)[path] = found
     for name in failed:
         exports.setdefault(name, None)

@@ -8,30 +8,71 @@ a `warn_deprecated(what, instead)` function); a decorator or function that calls
 too, one level deep. Members that call or are wrapped by a helper are deprecated, as are
 class-level aliases made by one (`failUnless = _deprecate(assertTrue)`).
 
-What a deprecation will become is not in the source, so every entry's kind is a guess: `removed`,
-or `parameter-removed` when the warning only fires when a particular parameter is passed.
+What a warning announces is read from the condition it fires under, and for a helper from how
+each call site fills the helper's parameters:
+
+- no condition: the member goes (`removed`);
+- the count of positional arguments (`len(args) > n` in a wrapper): positional use goes, drafted
+  as the removal of the first positional slot that is not in the list of names the call site
+  passes (`parameter-removed` with its position);
+- a keyword looked up in `**kwargs` (`"x" in kwargs`, `kwargs.pop(name)`): that keyword goes; when
+  the wrapper stores the value under another name the call site gives (`kwargs[new] = ...`), it
+  is renamed (`parameter-removed` / `parameter-renamed`);
+- a parameter compared with its own default: passed (`x is not None`, `x is not no_default`)
+  means the parameter goes; left at its default (`x is no_default`) means the default changes
+  (`default-changed`);
+- any other condition (a value of a parameter, the state of the object): nothing is drafted; the
+  draft lists it in comments at its end, because a removal would misstate it.
+
+A message built at run time is kept as evidence, with its holes shown (`{name}`), never guessed
+from; a successor is taken only from the literal text of a message ("use X instead") and only
+when X is a public member of the library. A message that says the removal comes in a later
+release than the one the draft is for lowers the entry to `low`.
+
+Modules are read one at a time, in two passes (helpers first, then their uses), so memory stays
+bounded by the surface and one module's syntax tree.
 """
 
 from __future__ import annotations
 
 import ast
+import re
 import string
+from collections import Counter
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
-from .build import ParsedModule, discover_modules, dotted_name, parse_modules, surface_from_parsed
-from .compare import DraftChange, render_draft as _render
-from .model import Surface
+from packaging.version import InvalidVersion, Version
+
+from .build import ModuleFile, ParsedModule, discover_modules, dotted_name, iter_parsed, surface_from_parsed
+from .compare import Announcement, DraftChange, render_draft as _render
+from .model import Problem, Surface
+from .scope import Scope
 
 CATEGORIES = frozenset({"DeprecationWarning", "PendingDeprecationWarning", "FutureWarning"})
 _HINTS = ("deprecat", "warn")
-_GUESS = "the kind is a guess"
+_GUESS = "what the deprecation becomes is a guess"
+_NONE_LIKE = ("None", "False")
+# "use X instead", "in favor of X", "replaced by X", "renamed to X": common wording of deprecation messages.
+_LEAD = re.compile(r"\b(?:use|in favou?r of|replaced (?:by|with)|renamed to|moved to|is now|import (?:it|them) from)\b",
+                   re.IGNORECASE)
+_TOKEN = re.compile(r"[A-Za-z_.][\w.]*")
+# "in a future version this will return a view", "will be a logical operation": what changes is behaviour.
+_BEHAVIOUR = re.compile(r"\bwill (?:now |instead )?(?:return|change|behave|be a logical|default to|be treated|be interpreted|"
+                        r"include|exclude|match|keep|no longer|be the same|be consistent|always|retain|preserve)", re.IGNORECASE)
+_GOES = re.compile(r"\b(?:will be removed|removed in|be dropped|no longer be (?:available|supported))\b", re.IGNORECASE)
+_LATER = re.compile(r"\b(?:removed|dropped|deleted|gone|disallowed|raise|error)\b[^.]*?\b(?:in|by|from|with|after)\s+"
+                    r"(?:\w+\s+){0,2}v?(\d+\.\d+(?:\.\d+)?)", re.IGNORECASE)
 
 
 @dataclass(frozen=True)
 class HarvestedChange:
-    """A deprecation found in the library's source, as a draft change-list entry."""
+    """A deprecation found in the library's source, as a draft change-list entry.
+
+    `announces` is what the warning says will happen: "removed", "parameter-removed",
+    "parameter-renamed", "default-changed" or "keyword-only" (positional use goes).
+    """
 
     member: str  # the most natural public path
     kind: str
@@ -44,15 +85,52 @@ class HarvestedChange:
     replacement: str | None = None
     parameter: str | None = None
     position: int | None = None
+    new_parameter: str | None = None
+    announces: str = "removed"
+    evidence: tuple[str, ...] = ()
 
     def to_draft(self) -> DraftChange:
-        return DraftChange(self.member, self.kind, self.note, self.certainty, self.why,
-                           replacement=self.replacement, parameter=self.parameter, position=self.position)
+        return DraftChange(self.member, self.kind, self.note, self.certainty, self.why, replacement=self.replacement,
+                           parameter=self.parameter, new_parameter=self.new_parameter, position=self.position,
+                           evidence=self.evidence)
+
+    def announcement(self, surface: Surface) -> Announcement:
+        """For `compare`: what the old version said, keyed by the member's canonical name."""
+        return Announcement(surface.canonical(self.member), self.announces, self.note, self.replacement,
+                            self.parameter, self.new_parameter)
 
 
-def render_draft(changes: Iterable[HarvestedChange], library: str, release: str | None = None) -> str:
-    """The harvested deprecations as a change-list TOML draft."""
-    return _render((c.to_draft() for c in changes), library, release, origin="harvesting deprecation warnings")
+@dataclass(frozen=True)
+class Unread:
+    """A deprecation warning whose condition says nothing drafted entries can express."""
+
+    member: str
+    condition: str
+    line: int
+
+
+@dataclass(frozen=True)
+class Harvest:
+    """What harvest found: the entries, and the warnings it saw but did not draft."""
+
+    changes: tuple[HarvestedChange, ...]
+    unread: tuple[Unread, ...]
+    surface: Surface
+
+
+def render_draft(changes: Iterable[HarvestedChange], library: str, release: str | None = None,
+                 *, unread: Iterable[Unread] = ()) -> str:
+    """The harvested deprecations as a change-list TOML draft; unread warnings as closing comments."""
+    seen = list(unread)
+    text = _render((c.to_draft() for c in changes), library, release, origin="harvesting deprecation warnings",
+                   left_out={"deprecation warnings under a condition no entry can express (listed at the end)": len(seen)})
+    if not seen:
+        return text
+    lines = ["", "# Deprecation warnings under a condition no entry can express; drafting them as removals would",
+             "# overstate them. Check each by hand:"]
+    lines += [f"#   {u.member} (line {u.line}): warns when {' '.join(u.condition.split())[:160]}"
+              for u in sorted(seen, key=lambda u: (u.member, u.line))]
+    return text + "\n".join(lines) + "\n"
 
 
 # -- messages -------------------------------------------------------------------------------
@@ -67,6 +145,11 @@ class _Template:
     @property
     def literal(self) -> bool:
         return all(isinstance(p, str) for p in self.parts)
+
+    @property
+    def text(self) -> str:
+        """Only the literal parts (what a successor may be read from)."""
+        return "".join(p if isinstance(p, str) else " " for p in self.parts)
 
     def render(self, given: dict[str, ast.expr] | None = None) -> str:
         out = []
@@ -129,21 +212,194 @@ def _template(node: ast.expr | None) -> _Template | None:
                    else next((k.value for k in node.keywords if k.arg == key), None))
             parts.append(arg if arg is not None else "{" + field + "}")
         return _Template(tuple(parts))
-    if isinstance(node, ast.Name):
-        return _Template((node,))
     return _Template((node,))
 
 
-# -- the functions of a module --------------------------------------------------------------
+# -- what a warning's condition means ---------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Meaning:
+    """What a warning announces, in terms of the names around it.
+
+    kind: "member" (no condition), "positional" (positional arguments counted), "keyword"
+    (`key` is looked up in **kwargs: a string constant or the name of a helper parameter;
+    `rename` the helper parameter naming where the value goes), "passed" / "left-out" (the
+    parameter `key` compared with its default), or "other".
+    """
+
+    kind: str
+    key: str | ast.expr | None = None
+    rename: str | None = None
+    condition: str = ""
+
+
+def _frame_of(stack: tuple[ast.AST, ...]) -> ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda | None:
+    return next((f for f in reversed(stack) if isinstance(f, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda))), None)
+
+
+def _kw_sources(frame: ast.AST, var_kw: str | None) -> dict[str, ast.expr]:
+    """Locals read out of **kwargs in a function: `v = kwargs.pop(key, ...)` -> {v: key}."""
+    out: dict[str, ast.expr] = {}
+    if var_kw is None:
+        return out
+    for node in ast.walk(frame):
+        if isinstance(node, ast.Assign) and len(node.targets) == 1 and isinstance(node.targets[0], ast.Name):
+            key = _kw_key(node.value, var_kw)
+            if key is not None:
+                out[node.targets[0].id] = key
+    return out
+
+
+def _kw_key(node: ast.AST, var_kw: str) -> ast.expr | None:
+    """`kwargs.pop(key)`, `kwargs.get(key)`, `kwargs[key]` -> key."""
+    if (isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr in ("pop", "get")
+            and isinstance(node.func.value, ast.Name) and node.func.value.id == var_kw and node.args):
+        return node.args[0]
+    if isinstance(node, ast.Subscript) and isinstance(node.value, ast.Name) and node.value.id == var_kw:
+        return node.slice
+    return None
+
+
+def _renames(frame: ast.AST, var_kw: str | None, key: str | ast.expr | None) -> str | None:
+    """The name of the variable under which a wrapper stores a value back under another key:
+    `kwargs[new] = ...` (not `kwargs[old] = ...`, which puts it back where it was)."""
+    if var_kw is None:
+        return None
+    same = key.id if isinstance(key, ast.Name) else None
+    for node in ast.walk(frame):
+        if isinstance(node, ast.Assign):
+            for t in node.targets:
+                if (isinstance(t, ast.Subscript) and isinstance(t.value, ast.Name) and t.value.id == var_kw
+                        and isinstance(t.slice, ast.Name) and t.slice.id != same):
+                    return t.slice.id
+    return None
+
+
+def _meaning(conditions: tuple[ast.expr, ...], frame: ast.AST | None, defaults: dict[str, str | None],
+             helper: bool = False) -> _Meaning:
+    """What the conditions around a warning say it is about (see `_Meaning`). `defaults` maps the
+    parameters of the function the warning is in to their default's text (None: required); in a
+    `helper`, a parameter stands for a caller's argument, whose default it does not know."""
+    if not conditions:
+        return _Meaning("member")
+    shown = " and ".join(ast.unparse(c) for c in conditions)
+    args = getattr(frame, "args", None)
+    var_pos = args.vararg.arg if args is not None and args.vararg is not None else None
+    var_kw = args.kwarg.arg if args is not None and args.kwarg is not None else None
+    sources = _kw_sources(frame, var_kw) if frame is not None else {}
+    found: _Meaning | None = None
+    for test in conditions:
+        for node in _conjuncts(test):
+            m = _one(node, var_pos, var_kw, sources, defaults, helper)
+            if m is not None and (found is None or _RANK[m.kind] < _RANK[found.kind]):
+                found = m
+    if found is None:
+        return _Meaning("other", condition=shown)
+    rename = _renames(frame, var_kw, found.key) if found.kind == "keyword" and frame is not None else None
+    return _Meaning(found.kind, found.key, rename, shown)
+
+
+_RANK = {"positional": 0, "keyword": 1, "passed": 2, "left-out": 3}
+
+
+def _conjuncts(test: ast.expr) -> list[ast.expr]:
+    if isinstance(test, ast.BoolOp) and isinstance(test.op, ast.And):
+        return [n for v in test.values for n in _conjuncts(v)]
+    if (isinstance(test, ast.UnaryOp) and isinstance(test.op, ast.Not) and isinstance(test.operand, ast.BoolOp)
+            and isinstance(test.operand.op, ast.Or)):
+        return [n for v in test.operand.values for n in _conjuncts(ast.UnaryOp(ast.Not(), v))]  # De Morgan
+    return [test]
+
+
+def _one(node: ast.expr, var_pos: str | None, var_kw: str | None, sources: dict[str, ast.expr],
+         defaults: dict[str, str | None], helper: bool) -> _Meaning | None:
+    if isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.Not) and not isinstance(node.operand, ast.Name):
+        return _polarity(node, defaults, helper)  # the else branch of a test on arguments says nothing sure of them
+    for sub in ast.walk(node):
+        if (var_pos is not None and isinstance(sub, ast.Call) and isinstance(sub.func, ast.Name) and sub.func.id == "len"
+                and sub.args and isinstance(sub.args[0], ast.Name) and sub.args[0].id == var_pos):
+            return _Meaning("positional")
+    if var_kw is not None:
+        for sub in ast.walk(node):
+            if (isinstance(sub, ast.Compare) and len(sub.ops) == 1 and isinstance(sub.ops[0], (ast.In, ast.NotIn))
+                    and isinstance(sub.comparators[0], ast.Name) and sub.comparators[0].id == var_kw):
+                return _Meaning("keyword", _key(sub.left))
+            key = _kw_key(sub, var_kw)
+            if key is not None:
+                return _Meaning("keyword", _key(key))
+            if isinstance(sub, ast.Name) and sub.id in sources:
+                return _Meaning("keyword", _key(sources[sub.id]))
+    return _polarity(node, defaults, helper)
+
+
+def _key(node: ast.expr) -> str | ast.expr:
+    return node.value if isinstance(node, ast.Constant) and isinstance(node.value, str) else node
+
+
+def _polarity(node: ast.expr, defaults: dict[str, str | None], helper: bool = False) -> _Meaning | None:
+    """`p is not D` / `p` (passed) or `p is D` (left at its default D), for a parameter p with default D."""
+    if isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.Not):
+        inner = _polarity(node.operand, defaults, helper)
+        if inner is None:
+            return None
+        return _Meaning("left-out" if inner.kind == "passed" else "passed", inner.key)
+    if isinstance(node, ast.Name) and node.id in defaults and _falsy(defaults[node.id]):
+        return _Meaning("passed", node.id)
+    if not (isinstance(node, ast.Compare) and len(node.ops) == 1 and isinstance(node.left, ast.Name)
+            and node.left.id in defaults):
+        return None
+    name, op, right = node.left.id, node.ops[0], node.comparators[0]
+    default = defaults[name]
+    text = ast.unparse(right)
+    if default is None:
+        if not helper:
+            return None
+        # A helper's own parameter has no default; it stands for a caller's, which (by common
+        # practice) defaults to None or the sentinel it is compared with.
+        if text not in _NONE_LIKE[:1] and not _sentinel_text(text):
+            return None
+    elif not _same_default(text, default):
+        return None
+    if isinstance(op, (ast.IsNot, ast.NotEq)):
+        return _Meaning("passed", name)
+    if isinstance(op, (ast.Is, ast.Eq)):
+        return _Meaning("left-out", name)
+    return None
+
+
+def _falsy(default: str | None) -> bool:
+    return default is not None and (default in _NONE_LIKE or _sentinel_text(default))
+
+
+def _sentinel_text(text: str) -> bool:
+    from .compare import is_sentinel_name
+    return is_sentinel_name(text.rpartition(".")[2])
+
+
+def _same_default(text: str, default: str) -> bool:
+    """`no_default` and `lib.no_default` are one sentinel; `None` is None."""
+    if text == default:
+        return True
+    if _sentinel_text(text) and _sentinel_text(default):
+        return True
+    return text.rpartition(".")[2] == default.rpartition(".")[2] and "." in text + default
+
+
+# -- one module ------------------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
 class _Site:
-    """A call inside a function: the conditions it sits under and whether it is in a nested def."""
+    """A call inside a function: the conditions it sits under, the functions around it."""
 
     call: ast.Call
     conditions: tuple[ast.expr, ...]
-    nested: bool
+    stack: tuple[ast.AST, ...]  # enclosing function nodes, outermost first (the unit itself first)
+
+    @property
+    def nested(self) -> bool:
+        return len(self.stack) > 1
 
 
 @dataclass(frozen=True)
@@ -167,22 +423,53 @@ class _Unit:
         positional = [*a.posonlyargs, *a.args]
         return positional[0].arg if self.cls is not None and positional else None
 
+    def defaults(self) -> dict[str, str | None]:
+        """Parameter -> its default's source (None when required), self/cls left out."""
+        a = self.node.args
+        positional = [*a.posonlyargs, *a.args]
+        out: dict[str, str | None] = {x.arg: None for x in positional}
+        for x, d in zip(positional[len(positional) - len(a.defaults):], a.defaults):
+            out[x.arg] = ast.unparse(d)
+        for x, d in zip(a.kwonlyargs, a.kw_defaults):
+            out[x.arg] = None if d is None else ast.unparse(d)
+        if self.self_name is not None:
+            out.pop(self.self_name, None)
+        return out
 
-def _sites(body: Iterable[ast.AST], conditions: tuple[ast.expr, ...] = (), nested: bool = False) -> Iterator[_Site]:
+
+def _sites(body: Iterable[ast.AST], conditions: tuple[ast.expr, ...], stack: tuple[ast.AST, ...]) -> Iterator[_Site]:
     for node in body:
-        yield from _visit(node, conditions, nested)
+        yield from _visit(node, conditions, stack)
+        if isinstance(node, ast.If) and not node.orelse and _leaves(node.body):
+            # `if p is None: return ...` guards the rest: it runs only when the test is false.
+            conditions = (*conditions, ast.UnaryOp(ast.Not(), node.test))
 
 
-def _visit(node: ast.AST, conditions: tuple[ast.expr, ...], nested: bool) -> Iterator[_Site]:
+def _leaves(body: list[ast.stmt]) -> bool:
+    """Whether a block always leaves its function (ends in return or raise, also in every branch of a try)."""
+    if not body:
+        return False
+    last = body[-1]
+    if isinstance(last, (ast.Return, ast.Raise)):
+        return True
+    if isinstance(last, ast.If):
+        return _leaves(last.body) and _leaves(last.orelse)
+    if isinstance(last, ast.Try):
+        return _leaves(last.body) and all(_leaves(h.body) for h in last.handlers)
+    return False
+
+
+def _visit(node: ast.AST, conditions: tuple[ast.expr, ...], stack: tuple[ast.AST, ...]) -> Iterator[_Site]:
     if isinstance(node, ast.Call):
-        yield _Site(node, conditions, nested)
+        yield _Site(node, conditions, stack)
     if isinstance(node, ast.If):
-        yield from _visit(node.test, conditions, nested)
-        yield from _sites([*node.body, *node.orelse], (*conditions, node.test), nested)
+        yield from _visit(node.test, conditions, stack)
+        yield from _sites(node.body, (*conditions, node.test), stack)
+        yield from _sites(node.orelse, (*conditions, ast.UnaryOp(ast.Not(), node.test)), stack)
         return
     if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
-        nested = True
-    yield from _sites(ast.iter_child_nodes(node), conditions, nested)
+        stack = (*stack, node)
+    yield from _sites(ast.iter_child_nodes(node), conditions, stack)
 
 
 @dataclass(frozen=True)
@@ -192,26 +479,51 @@ class _Assignment:
     names: tuple[str, ...]
     call: ast.Call
     scope: str
-    module: str
     in_class: bool
     line: int
 
 
 class _Module:
-    """What harvest needs of one module: its functions, helper-made assignments and imports."""
+    """What harvest needs of one module: its functions, helper-made assignments and imports.
 
-    def __init__(self, parsed: ParsedModule) -> None:
+    Only functions whose source spells one of `needles` (`warn`, a helper's name) have their
+    calls collected: the others can hold no warning and call no helper.
+    """
+
+    def __init__(self, parsed: ParsedModule, needles: tuple[bytes, ...]) -> None:
         self.name = parsed.file.name
         self.units: list[_Unit] = []
         self.assignments: list[_Assignment] = []
         self.top_calls: list[ast.Call] = []
         self.imports: dict[str, str] = {}
+        self.literals: dict[str, tuple[str, ...]] = {}
+        self._lines = parsed.text.lines
         tree = parsed.tree
-        for st in tree.body:
-            self._import(st)
-        for node in ast.walk(tree):  # function-local `import warnings` too
-            self._import(node)
+        self._imports(tree.body)
+        # `from warnings import warn as _w`: the local name is what a call spells.
+        aliases = tuple(local.encode() for local, full in self.imports.items() if full in ("warnings", "warnings.warn"))
+        self._needles = needles + aliases
         self._block(tree.body, self.name, False)
+
+    def _imports(self, body: Iterable[ast.AST]) -> None:
+        """Imports at module level (also under if/try), or inside one function (`import warnings`)."""
+        for node in body:
+            if isinstance(node, (ast.Import, ast.ImportFrom)):
+                self._import(node)
+            elif isinstance(node, (ast.If, ast.Try, ast.With)) or type(node).__name__ == "TryStar":
+                self._imports(ast.iter_child_nodes(node))
+
+    def _spells(self, node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+        first = min([node.lineno, *(d.lineno for d in node.decorator_list)]) - 1
+        last = node.end_lineno or node.lineno
+        return any(needle in line for line in self._lines[first:last] for needle in self._needles)
+
+    def slim(self) -> _Module:
+        """Keep only what the second pass reads: functions that warn, call or are wrapped by
+        something (so the rest of the module's syntax tree can be freed)."""
+        self.units = [u for u in self.units if u.sites or u.node.decorator_list]
+        self._lines = []
+        return self
 
     def _import(self, node: ast.AST) -> None:
         if isinstance(node, ast.Import):
@@ -225,14 +537,26 @@ class _Module:
     def _block(self, body: list[ast.stmt], scope: str, in_class: bool) -> None:
         for st in body:
             if isinstance(st, (ast.FunctionDef, ast.AsyncFunctionDef)):
-                self.units.append(_Unit(f"{scope}.{st.name}", self.name, scope if in_class else None, st,
-                                        tuple(_sites(st.body))))
+                if self._spells(st):
+                    for node in ast.walk(st):
+                        if isinstance(node, (ast.Import, ast.ImportFrom)):
+                            self._import(node)
+                    sites = tuple(_sites(st.body, (), (st,)))
+                else:
+                    sites = ()
+                self.units.append(_Unit(f"{scope}.{st.name}", self.name, scope if in_class else None, st, sites))
             elif isinstance(st, ast.ClassDef):
                 self._block(st.body, f"{scope}.{st.name}", True)
             elif isinstance(st, ast.Assign) and isinstance(st.value, ast.Call):
                 names = tuple(t.id for t in st.targets if isinstance(t, ast.Name))
                 if names:
-                    self.assignments.append(_Assignment(names, st.value, scope, self.name, in_class, st.lineno))
+                    self.assignments.append(_Assignment(names, st.value, scope, in_class, st.lineno))
+            elif isinstance(st, ast.Assign) and not in_class and isinstance(st.value, (ast.List, ast.Tuple, ast.Set, ast.Dict)):
+                keys = st.value.keys if isinstance(st.value, ast.Dict) else st.value.elts
+                found = tuple(k.value for k in keys if isinstance(k, ast.Constant) and isinstance(k.value, str))
+                for t in st.targets:
+                    if isinstance(t, ast.Name) and found:
+                        self.literals[t.id] = found
             elif isinstance(st, ast.Expr) and isinstance(st.value, ast.Call) and not in_class:
                 self.top_calls.append(st.value)
             elif isinstance(st, ast.If):
@@ -254,35 +578,41 @@ class _Warning:
     template: _Template | None
 
 
+@dataclass(frozen=True)
+class _Helper:
+    """A deprecation helper, kept between the passes without its module's syntax tree."""
+
+    template: _Template | None
+    meaning: _Meaning
+    params: tuple[str, ...]  # positional parameter names, self excluded when a method
+    method: bool
+
+
+@dataclass(frozen=True)
+class _Relay:
+    """A call from a function that may turn out to relay a helper (decided once all helpers are known)."""
+
+    path: str
+    callee: str
+    call: ast.Call
+    conditions: tuple[ast.expr, ...]
+    params: tuple[str, ...]
+    method: bool
+    defaults: dict[str, str | None]
+
+
 class _Harvester:
-    def __init__(self, surface: Surface, parsed: Iterable[ParsedModule]) -> None:
+    def __init__(self, surface: Surface, scope: Scope, release: str | None) -> None:
         self.surface = surface
-        self.modules = [_Module(p) for p in parsed]
-        self.units = {u.path: (m, u) for m in self.modules for u in m.units}
-        self.warnings: dict[str, list[_Warning]] = {
-            path: list(self._warnings(m, u)) for path, (m, u) in self.units.items()
-        }
-        self.helpers: dict[str, _Template | None] = {}
-        self.conditional: set[str] = set()  # helpers that themselves warn only under a condition
-        for path, found in self.warnings.items():
-            if found and self._helper_like(self.units[path][1], found):
-                self.helpers[path] = found[0].template
-                if all(w.site.conditions for w in found):
-                    self.conditional.add(path)
-        # One level further: decorators and functions that call a helper are helpers too.
-        second: dict[str, _Template | None] = {}
-        for path, (m, u) in self.units.items():
-            if path in self.helpers or not self._hinted(u):
-                continue
-            for site in u.sites:
-                callee = self._callee(m, u.cls, u.self_name, site.call.func)
-                if callee in self.helpers:
-                    second[path] = self._through(self.helpers[callee], site.call, callee)
-                    if callee in self.conditional or site.conditions:
-                        self.conditional.add(path)
-                    break
-        self.helpers.update(second)
+        self.scope = scope
+        try:
+            self.release = Version(release) if release else None
+        except InvalidVersion:
+            self.release = None
+        self.helpers: dict[str, _Helper] = {}
+        self.relays: list[_Relay] = []
         self.out: dict[tuple[str, str, str | None], HarvestedChange] = {}
+        self.unread: dict[tuple[str, str], Unread] = {}
 
     # recognising warnings and helpers ---------------------------------------------------
 
@@ -316,14 +646,14 @@ class _Harvester:
         return any(b.rpartition(".")[2] in CATEGORIES for k in self.surface.mro(cls)
                    for b in self.surface.members[k].bases if b not in self.surface.members)
 
-    def _warnings(self, module: _Module, unit: _Unit) -> Iterator[_Warning]:
+    def _warnings(self, module: _Module, unit: _Unit) -> list[_Warning]:
+        found = []
         for site in unit.sites:
-            call = site.call
-            if not self._is_warn(module, call.func):
-                continue
-            found = self._deprecation(module, unit, call)
-            if found is not None:
-                yield _Warning(site, found)
+            if self._is_warn(module, site.call.func):
+                template = self._deprecation(module, unit, site.call)
+                if template is not None:
+                    found.append(_Warning(site, template))
+        return found
 
     def _deprecation(self, module: _Module, unit: _Unit | None, call: ast.Call) -> _Template | None:
         """The message template of a deprecation `warn(...)` call; None if it is another category.
@@ -340,17 +670,24 @@ class _Harvester:
 
     @staticmethod
     def _hinted(unit: _Unit) -> bool:
+        """Might relay a helper: its name says so, or it is private and makes a wrapper."""
         lowered = unit.node.name.lower()
-        return any(h in lowered for h in _HINTS) or any(s.nested for s in unit.sites)
+        return any(h in lowered for h in _HINTS) or (unit.node.name.startswith("_") and any(s.nested for s in unit.sites))
 
-    def _helper_like(self, unit: _Unit, found: list[_Warning]) -> bool:
-        """A helper warns with a message it is given, and looks like one (name, wrapper, or private and unconditional)."""
-        if all(w.template is not None and w.template.literal for w in found):
+    @staticmethod
+    def _helper_like(unit: _Unit, found: list[_Warning]) -> bool:
+        """A helper warns with a message it is given, and looks like one: its name says so, or it is
+        private and warns unconditionally or from a wrapper it makes."""
+        if not any(_given_message(w, unit) for w in found):
             return False
         lowered = unit.node.name.lower()
-        if any(h in lowered for h in _HINTS) or any(w.site.nested for w in found):
+        if any(h in lowered for h in _HINTS):
             return True
-        return unit.node.name.startswith("_") and any(not w.site.conditions for w in found)
+        if any(w.site.nested and _returns_wrapper(unit.node) for w in found):
+            return True  # a decorator: it hands back a function that warns
+        # A public function that warns inside a closure it keeps is a member that warns, not a helper.
+        return unit.node.name.startswith("_") and not unit.node.name.startswith("__") and (
+            any(w.site.nested for w in found) or any(not w.site.conditions for w in found))
 
     def _callee(self, module: _Module, cls: str | None, self_name: str | None, func: ast.expr) -> str | None:
         text = dotted_name(func)
@@ -363,12 +700,67 @@ class _Harvester:
             return self.surface.canonical(f"{cls}.{text}")
         return self.surface.canonical(f"{module.name}.{text}")
 
-    def _through(self, template: _Template | None, call: ast.Call, helper: str) -> _Template | None:
+    # pass 1: helpers ----------------------------------------------------------------------
+
+    def learn(self, module: _Module) -> None:
+        for unit in module.units:
+            found = self._warnings(module, unit)
+            if found and self._helper_like(unit, found):
+                first = sorted(found, key=lambda w: len(w.site.conditions))[0]
+                params = [x.arg for x in (*unit.node.args.posonlyargs, *unit.node.args.args)]
+                method = unit.self_name is not None
+                meaning = _meaning(first.site.conditions, _frame_of(first.site.stack), unit.defaults(), helper=True)
+                self.helpers[unit.path] = _Helper(first.template, meaning, tuple(params), method)
+            elif self._hinted(unit):
+                params = [x.arg for x in (*unit.node.args.posonlyargs, *unit.node.args.args)]
+                method = unit.self_name is not None
+                for site in unit.sites:
+                    callee = self._callee(module, unit.cls, unit.self_name, site.call.func)
+                    member = self.surface.members.get(callee or "")
+                    if member is not None and member.kind in ("function", "method", "staticmethod", "classmethod"):
+                        self.relays.append(_Relay(unit.path, callee or "", site.call, site.conditions,
+                                                  tuple(params), method, unit.defaults()))
+
+    def settle(self) -> None:
+        """One level further: functions that call a helper (a decorator factory around it) are helpers too."""
+        for relay in self.relays:
+            helper = self.helpers.get(relay.callee)
+            if relay.path in self.helpers or helper is None:
+                continue
+            given = self._given(helper, relay.call)
+            template = self._through(helper.template, given)
+            meaning = helper.meaning
+            if meaning.kind == "member" and relay.conditions:
+                meaning = _meaning(relay.conditions, None, relay.defaults, helper=True)
+            elif meaning.kind in ("passed", "left-out") and meaning.key is not None:
+                passed = given.get(str(meaning.key))
+                meaning = (_Meaning(meaning.kind, passed.id, None, meaning.condition)
+                           if isinstance(passed, ast.Name) and passed.id in relay.defaults
+                           else _Meaning("other", condition=meaning.condition))
+            elif meaning.kind == "keyword" and isinstance(meaning.key, ast.Name) and meaning.key.id in given:
+                # the relay passes its own parameter on: the key is now that parameter's
+                passed = given[meaning.key.id]
+                key: str | ast.expr = _key(passed)
+                rename = meaning.rename
+                if rename is not None and rename in given and isinstance(given[rename], ast.Name):
+                    rename = given[rename].id
+                meaning = _Meaning("keyword", key, rename, meaning.condition)
+            self.helpers[relay.path] = _Helper(template, meaning, relay.params, relay.method)
+        self.relays = []
+
+    @staticmethod
+    def _given(helper: _Helper, call: ast.Call) -> dict[str, ast.expr]:
+        """The helper's parameters as this call fills them (`self.helper(...)` passes self implicitly)."""
+        params = helper.params[1:] if helper.method and isinstance(call.func, ast.Attribute) else helper.params
+        given = dict(zip(params, call.args))
+        given.update({k.arg: k.value for k in call.keywords if k.arg})
+        return given
+
+    @staticmethod
+    def _through(template: _Template | None, given: dict[str, ast.expr]) -> _Template | None:
         """The helper's message with this call's arguments filled in."""
-        if template is None or helper not in self.units:
-            return template
-        unit = self.units[helper][1]
-        given = self._arguments(unit, call)
+        if template is None:
+            return None
         parts: list[str | ast.expr] = []
         for part in template.parts:
             if isinstance(part, str):
@@ -383,44 +775,28 @@ class _Harvester:
                 parts.append(part)
         return _Template(tuple(parts))
 
-    @staticmethod
-    def _arguments(unit: _Unit, call: ast.Call) -> dict[str, ast.expr]:
-        names = [x.arg for x in (*unit.node.args.posonlyargs, *unit.node.args.args)]
-        if unit.self_name is not None and isinstance(call.func, ast.Attribute):
-            names = names[1:]  # called as self.helper(...)
-        given = dict(zip(names, call.args))
-        given.update({k.arg: k.value for k in call.keywords if k.arg})
-        return given
+    # pass 2: entries ----------------------------------------------------------------------
 
-    # entries ----------------------------------------------------------------------------
+    def collect(self, module: _Module) -> None:
+        for unit in module.units:
+            self._unit(module, unit)
+        for assignment in module.assignments:
+            self._assignment(module, assignment)
+        for call in module.top_calls:
+            self._top_call(module, call)
 
-    def run(self) -> list[HarvestedChange]:
+    def decorated(self) -> None:
         for name, member in self.surface.members.items():
             if member.deprecated is not None:
                 self._add(name, name.rpartition(".")[0] if member.kind != "module" else name, member.line,
-                          "@deprecated (PEP 702)", member.deprecated or f"{name} is deprecated", "high",
-                          "decorated with PEP 702 @deprecated")
-        for module in self.modules:
-            for unit in module.units:
-                self._unit(module, unit)
-            for assignment in module.assignments:
-                self._assignment(module, assignment)
-            for call in module.top_calls:
-                self._top_call(module, call)
-        return sorted(self.out.values(), key=lambda c: (c.member, c.kind, c.parameter or ""))
+                          "@deprecated (PEP 702)", _Template((member.deprecated,)) if member.deprecated else None,
+                          "high", "decorated with PEP 702 @deprecated", fallback=f"{name} is deprecated")
 
-    def _add(self, canonical: str, module: str, line: int, mechanism: str, note: str, certainty: str, why: str,
-             *, parameter: str | None = None, position: int | None = None, replacement: str | None = None,
-             via: str | None = None) -> None:
-        paths = self.surface.public_paths(canonical)
-        if not paths:
-            return  # private: not part of what downstream code may use
-        if via in self.conditional:
-            certainty, why = "low", f"{why}, which itself warns only under a condition"
-        kind = "parameter-removed" if parameter is not None else "removed"
-        change = HarvestedChange(paths[0], kind, note, certainty, f"{why}; {_GUESS}", self.surface.module_of(module) or module,
-                                 line, mechanism, replacement=replacement, parameter=parameter, position=position)
-        self.out.setdefault((change.member, kind, parameter), change)
+    def results(self) -> tuple[list[HarvestedChange], list[Unread]]:
+        changes = sorted(self.out.values(), key=lambda c: (c.member, c.kind, c.parameter or ""))
+        drafted = {c.member for c in changes}
+        unread = [u for u in self.unread.values() if u.member not in drafted]
+        return changes, unread
 
     def _unit(self, module: _Module, unit: _Unit) -> None:
         if unit.path in self.helpers:
@@ -432,57 +808,183 @@ class _Harvester:
         if unit.cls is None and name == "__getattr__":
             self._module_getattr(module, unit)
             return
-        # Direct warnings first, then helper calls, then helper decorators.
-        found: list[tuple[_Site | None, _Template | None, str, str | None]] = [
-            (w.site, w.template, "warnings.warn", None) for w in self.warnings.get(unit.path, ())]
+        defaults = unit.defaults()
+        # (template, meaning, mechanism, helper or None, line)
+        found: list[tuple[_Template | None, _Meaning, str, str | None, int]] = []
+        for w in self._warnings(module, unit):
+            found.append((w.template, _meaning(w.site.conditions, _frame_of(w.site.stack), defaults), "warnings.warn",
+                          None, w.site.call.lineno))
         for site in unit.sites:
             callee = self._callee(module, unit.cls, unit.self_name, site.call.func)
-            if callee is not None and callee in self.helpers and callee != unit.path:
-                found.append((site, self._through(self.helpers[callee], site.call, callee), f"helper {callee}", callee))
+            helper = self.helpers.get(callee or "")
+            if helper is not None and callee != unit.path:
+                meaning = self._at_site(helper, site.call, defaults)
+                if meaning.kind == "member" and site.conditions:
+                    meaning = _meaning(site.conditions, _frame_of(site.stack), defaults)
+                found.append((self._through(helper.template, self._given(helper, site.call)), meaning,
+                              f"helper {callee}", callee, site.call.lineno))
         for deco in unit.node.decorator_list:
             func = deco.func if isinstance(deco, ast.Call) else deco
             callee = self._callee(module, unit.cls, None, func)
-            if callee is not None and callee in self.helpers:
-                template = self._through(self.helpers[callee], deco, callee) if isinstance(deco, ast.Call) else self.helpers[callee]
-                found.append((None, template, f"helper {callee} (decorator)", callee))
-        if not found:
-            return
-        found.sort(key=lambda f: (f[0] is not None and bool(f[0].conditions), f[2] != "warnings.warn"))
-        first, template, mechanism, via = found[0]
-        note = _note(template, f"{target} is deprecated")
-        direct = mechanism == "warnings.warn"
-        if first is None or not first.conditions:
-            self._add(target, module.name, unit.node.lineno, mechanism, note, "high" if direct else "medium",
-                      "calls warnings.warn with a deprecation category" if direct else f"uses the deprecation {mechanism}", via=via)
-            return
-        parameter = self._parameter(unit, first.conditions)
-        why = f"warns only under a condition ({ast.unparse(first.conditions[-1])})"
-        if parameter is None:
-            self._add(target, module.name, unit.node.lineno, mechanism, note, "low", why, via=via)
-            return
-        position = next((p.position for p in self.surface.parameters(target) or () if p.name == parameter), None)
-        self._add(target, module.name, unit.node.lineno, mechanism, note, "low",
-                  f"{why}, which tests the parameter `{parameter}`", parameter=parameter, position=position, via=via)
+            helper = self.helpers.get(callee or "")
+            if helper is not None:
+                call = deco if isinstance(deco, ast.Call) else ast.Call(func, [], [])
+                found.append((self._through(helper.template, self._given(helper, call)), self._at_site(helper, call, defaults),
+                              f"helper {callee} (decorator)", callee, unit.node.lineno))
+        for template, meaning, mechanism, helper, line in found:
+            self._announce(unit, target, module, template, meaning, mechanism, helper, line)
 
-    @staticmethod
-    def _parameter(unit: _Unit, conditions: tuple[ast.expr, ...]) -> str | None:
-        """The one parameter a warning's condition tests (`if x is not None`, `if "x" in kwargs`)."""
-        a = unit.node.args
-        plain = {x.arg for x in (*a.posonlyargs, *a.args, *a.kwonlyargs)} - {unit.self_name}
-        var_kw = a.kwarg.arg if a.kwarg is not None else None
-        keys: set[str] = set()
-        names: set[str] = set()
-        for test in conditions:
-            for node in ast.walk(test):
-                if isinstance(node, ast.Name) and node.id in plain:
-                    names.add(node.id)
-                elif (isinstance(node, ast.Compare) and isinstance(node.left, ast.Constant) and isinstance(node.left.value, str)
-                      and len(node.ops) == 1 and isinstance(node.ops[0], (ast.In, ast.NotIn))
-                      and isinstance(node.comparators[0], ast.Name) and node.comparators[0].id == var_kw):
-                    keys.add(node.left.value)
-        if len(keys) == 1:
-            return keys.pop()
-        return names.pop() if not keys and len(names) == 1 else None
+    def _at_site(self, helper: _Helper, call: ast.Call, defaults: dict[str, str | None]) -> _Meaning:
+        """A helper's meaning with this call's arguments in place of the helper's parameters."""
+        m = helper.meaning
+        given = self._given(helper, call)
+        if m.kind == "keyword":
+            key = m.key
+            if isinstance(key, ast.Name):
+                key = _key(given[key.id]) if key.id in given else None
+            rename = None
+            if m.rename is not None and m.rename in given:
+                value = given[m.rename]
+                rename = value.value if isinstance(value, ast.Constant) and isinstance(value.value, str) else None
+            if isinstance(key, str):
+                return _Meaning("keyword", key, rename if rename != key else None, m.condition)
+            return _Meaning("other", condition=m.condition)
+        if m.kind in ("passed", "left-out"):
+            # `self._deprecated_arg(kind, "kind", ...)`: the helper's parameter is the caller's
+            value = given.get(str(m.key)) if m.key is not None else None
+            if isinstance(value, ast.Name) and value.id in defaults:
+                return _Meaning(m.kind, value.id, None, m.condition)
+            return _Meaning("other", condition=m.condition)
+        if m.kind == "positional":
+            names = next((s for s in (_string_list(a) for a in [*call.args, *(k.value for k in call.keywords)]) if s), None)
+            return _Meaning("positional", tuple(names) if names else None, None, m.condition)  # type: ignore[arg-type]
+        return m
+
+    def _announce(self, unit: _Unit, target: str, module: _Module, template: _Template | None, meaning: _Meaning,
+                  mechanism: str, helper: str | None, line: int) -> None:
+        direct = helper is None
+        how = "calls warnings.warn with a deprecation category" if direct else f"uses the deprecation {mechanism}"
+        if meaning.kind == "member":
+            literal = template.text if template is not None else ""
+            if _BEHAVIOUR.search(literal) and not _GOES.search(literal):
+                self._add(target, module.name, line, mechanism, template, "low",
+                          f"{how}; the message announces a change of behaviour, not a removal",
+                          fallback=f"{target} changes behaviour", announces="behaviour-changed")
+                return
+            self._add(target, module.name, line, mechanism, template, "high" if direct else "medium", how,
+                      fallback=f"{target} is deprecated")
+            return
+        if meaning.kind == "positional":
+            params = [p for p in self.surface.parameters(target) or () if p.position is not None]
+            allowed = set(meaning.key) if isinstance(meaning.key, tuple) else None
+            slot = next((p for p in params if (p.name not in allowed if allowed is not None else p.default is not None)), None)
+            if slot is None:
+                self._unread(target, meaning.condition or "positional arguments are passed", line)
+                return
+            basis = "the names the call site lists" if allowed is not None else "a guess: the first parameter with a default"
+            self._add(target, module.name, line, mechanism, template, "medium",
+                      f"{how}, which warns when arguments are passed by position; the first slot that goes is "
+                      f"`{slot.name}` ({basis})", fallback=f"passing {slot.name} or later arguments of {target} by position "
+                      "is deprecated", parameter=slot.name, position=slot.position, announces="keyword-only")
+            return
+        if meaning.kind == "keyword" and isinstance(meaning.key, str):
+            position = next((p.position for p in self.surface.parameters(target) or () if p.name == meaning.key), None)
+            if meaning.rename:
+                self._add(target, module.name, line, mechanism, template, "medium",
+                          f"{how}, which warns when the keyword `{meaning.key}` is passed and passes its value on as "
+                          f"`{meaning.rename}`", fallback=f"`{meaning.key}` of {target} is deprecated; use `{meaning.rename}`",
+                          parameter=meaning.key, new_parameter=meaning.rename, position=position,
+                          announces="parameter-renamed")
+                return
+            self._add(target, module.name, line, mechanism, template, "medium",
+                      f"{how}, which warns when the keyword `{meaning.key}` is passed",
+                      fallback=f"`{meaning.key}` of {target} is deprecated", parameter=meaning.key, position=position,
+                      announces="parameter-removed")
+            return
+        if meaning.kind in ("passed", "left-out") and isinstance(meaning.key, str):
+            position = next((p.position for p in self.surface.parameters(target) or () if p.name == meaning.key), None)
+            if meaning.kind == "passed":
+                self._add(target, module.name, line, mechanism, template, "medium",
+                          f"{how} when `{meaning.key}` is passed ({meaning.condition})",
+                          fallback=f"`{meaning.key}` of {target} is deprecated", parameter=meaning.key, position=position,
+                          announces="parameter-removed")
+            else:
+                self._add(target, module.name, line, mechanism, template, "medium",
+                          f"{how} when `{meaning.key}` is left at its default ({meaning.condition}): the default changes",
+                          fallback=f"the default of `{meaning.key}` of {target} changes", parameter=meaning.key,
+                          position=position, announces="default-changed")
+            return
+        self._unread(target, meaning.condition or "a condition", line)
+
+    def _unread(self, target: str, condition: str, line: int) -> None:
+        paths = self.scope.paths(self.surface, target)
+        if paths:
+            self.unread.setdefault((paths[0], condition), Unread(paths[0], condition, line))
+
+    def _add(self, canonical: str, module: str, line: int, mechanism: str, template: _Template | None, certainty: str,
+             why: str, *, fallback: str, parameter: str | None = None, position: int | None = None,
+             replacement: str | None = None, new_parameter: str | None = None, announces: str = "removed") -> None:
+        paths = self.scope.paths(self.surface, canonical)
+        if not paths:
+            return  # not something downstream code may name
+        self._add_path(paths[0], canonical, module, line, mechanism, template, certainty, why, fallback=fallback,
+                       parameter=parameter, position=position, replacement=replacement, new_parameter=new_parameter,
+                       announces=announces)
+
+    def _add_path(self, path: str, canonical: str | None, module: str, line: int, mechanism: str,
+                  template: _Template | None, certainty: str, why: str, *, fallback: str, parameter: str | None = None,
+                  position: int | None = None, replacement: str | None = None, new_parameter: str | None = None,
+                  announces: str = "removed") -> None:
+        note = _note(template, fallback)
+        evidence = ["deprecation warning" if mechanism != "@deprecated (PEP 702)" else "PEP 702 decorator"]
+        if template is not None and not template.literal:
+            evidence.append("message built at run time")
+        literal = template.text if template is not None else ""
+        if replacement is None and announces == "removed" and canonical is not None:
+            replacement = self._successor(literal, canonical)
+        if replacement is not None:
+            evidence.append(f"the message names {replacement}")
+        later = _LATER.search(literal)
+        if later is not None and self.release is not None:
+            try:
+                when = Version(later.group(1))
+            except InvalidVersion:
+                when = None
+            if when is not None and when > self.release:
+                certainty = "low"
+                why = f"{why}; the message says it goes in {when}, after {self.release}"
+        kind = {"removed": "removed", "parameter-renamed": "parameter-renamed", "default-changed": "default-changed",
+                "behaviour-changed": "behaviour-changed"}.get(announces, "parameter-removed")
+        change = HarvestedChange(path, kind, note, certainty, f"{why}; {_GUESS}", self.surface.module_of(module) or module,
+                                 line, mechanism, replacement=replacement, parameter=parameter, position=position,
+                                 new_parameter=new_parameter, announces=announces, evidence=tuple(evidence))
+        key = (path, kind, parameter)
+        kept = self.out.get(key)
+        if kept is None or _CERTAIN[certainty] < _CERTAIN[kept.certainty]:
+            self.out[key] = change
+
+    def _successor(self, text: str, canonical: str) -> str | None:
+        """A public member the literal message names as the way forward (not the member itself):
+        the first of the few words after "use", "in favor of", ... that is one, read from the
+        member's class, its module or the library's top level (`.items` -> `Frame.items`)."""
+        owner = canonical.rpartition(".")[0]
+        module = self.surface.module_of(canonical) or owner
+        for lead in _LEAD.finditer(text):
+            for token in _TOKEN.findall(text[lead.end(): lead.end() + 120])[:4]:
+                words = [w for w in token.split(".") if w]
+                for start in range(len(words)):
+                    dotted = ".".join(words[start:])
+                    for base in (owner, module, self.surface.library, ""):
+                        path = f"{base}.{dotted}" if base else dotted
+                        found = self.surface.canonical(path)
+                        if found not in self.surface.members or found == canonical or canonical.startswith(found + "."):
+                            continue
+                        if self.surface.members[found].kind == "module" and base and dotted.count(".") == 0 and base != "":
+                            continue  # a bare word that happens to name a submodule
+                        paths = self.scope.paths(self.surface, found)
+                        if paths:
+                            return paths[0]
+        return None
 
     def _module_getattr(self, module: _Module, unit: _Unit) -> None:
         """PEP 562 `__getattr__` that warns for particular names: each name is deprecated."""
@@ -493,38 +995,37 @@ class _Harvester:
         arg = positional[0].arg
         for site in unit.sites:
             callee = self._callee(module, None, None, site.call.func)
-            template = None
             if self._is_warn(module, site.call.func):
-                found = [w for w in self.warnings.get(unit.path, ()) if w.site.call is site.call]
-                if not found:
+                template = self._deprecation(module, unit, site.call)
+                if template is None:
                     continue
-                template = found[0].template
             elif callee in self.helpers:
-                template = self._through(self.helpers[callee], site.call, callee)
+                helper = self.helpers[callee or ""]
+                template = self._through(helper.template, self._given(helper, site.call))
             else:
                 continue
-            for name in _names_tested(site.conditions, arg):
+            for name in _names_tested(site.conditions, arg, module.literals):
                 path = f"{module.name}.{name}"
                 filled = _Template(tuple(_fill(p, {arg: ast.Constant(name)}) or p if not isinstance(p, str) else p
                                          for p in template.parts)) if template is not None else None
-                note = _note(filled, f"{path} is deprecated")
-                self._add_path(path, module.name, site.call.lineno, "module __getattr__", note, "medium",
-                               f"the module's __getattr__ warns when `{name}` is looked up")
-
-    def _add_path(self, path: str, module: str, line: int, mechanism: str, note: str, certainty: str, why: str) -> None:
-        if self.surface.member(path) is not None:
-            self._add(self.surface.canonical(path), module, line, mechanism, note, certainty, why)
-            return
-        if any(seg.startswith("_") for seg in path.split(".")):
-            return
-        change = HarvestedChange(path, "removed", note, certainty, f"{why}; {_GUESS}", module, line, mechanism)
-        self.out.setdefault((path, "removed", None), change)
+                why = f"the module's __getattr__ warns when `{name}` is looked up"
+                if self.surface.member(path) is not None:
+                    self._add(self.surface.canonical(path), module.name, site.call.lineno, "module __getattr__", filled,
+                              "high", why, fallback=f"{path} is deprecated")
+                elif self.scope.covers(self.surface, path) or not any(s.startswith("_") for s in path.split(".")):
+                    self._add_path(path, None, module.name, site.call.lineno, "module __getattr__", filled, "high", why,
+                                   fallback=f"{path} is deprecated")
 
     def _assignment(self, module: _Module, a: _Assignment) -> None:
         callee = self._callee(module, a.scope if a.in_class else None, None, a.call.func)
-        if callee not in self.helpers:
+        helper = self.helpers.get(callee or "")
+        if helper is None:
             return
-        template = self._through(self.helpers[callee], a.call, callee)
+        if helper.meaning.kind != "member":
+            for name in a.names:
+                self._unread(self.surface.canonical(f"{a.scope}.{name}"), helper.meaning.condition or "a condition", a.line)
+            return
+        template = self._through(helper.template, self._given(helper, a.call))
         original = None
         if a.call.args:
             text = dotted_name(a.call.args[0])
@@ -532,28 +1033,62 @@ class _Harvester:
                 found = self.surface.canonical(f"{a.scope}.{text}" if a.in_class else f"{module.name}.{text}")
                 if found in self.surface.members:
                     original = found
-        helper = callee.rpartition(".")[2]
+        name_of = (callee or "").rpartition(".")[2]
         for name in a.names:
             path = f"{a.scope}.{name}"
             replacement = None
             if original is not None:
-                paths = self.surface.public_paths(original)
-                replacement = paths[0] if paths else original
-            lead = (f"deprecated alias of {replacement or original}, made by {helper}()" if original
-                    else f"made by the deprecation helper {helper}()")
+                paths = self.scope.paths(self.surface, original)
+                replacement = paths[0] if paths else None
+            lead = (f"deprecated alias of {replacement or original}, made by {name_of}()" if original
+                    else f"made by the deprecation helper {name_of}()")
             message = _note(template, "")
             note = f"{lead}: {message}" if message else lead
-            self._add(self.surface.canonical(path), module.name, a.line, f"helper {callee}", note, "medium",
-                      f"assigned from the deprecation helper {helper}()", replacement=replacement, via=callee)
+            self._add(self.surface.canonical(path), module.name, a.line, f"helper {callee}", _Template((note,)), "medium",
+                      f"assigned from the deprecation helper {name_of}()", fallback=note, replacement=replacement)
 
     def _top_call(self, module: _Module, call: ast.Call) -> None:
         """A deprecation warning issued at import time deprecates the module itself."""
         template = self._deprecation(module, None, call) if self._is_warn(module, call.func) else None
         if template is None:
             return
-        note = _note(template, f"{module.name} is deprecated")
-        self._add(module.name, module.name, call.lineno, "warnings.warn", note, "high",
-                  "the module warns when it is imported")
+        self._add(module.name, module.name, call.lineno, "warnings.warn", template, "high",
+                  "the module warns when it is imported", fallback=f"{module.name} is deprecated")
+
+
+_CERTAIN = {"high": 0, "medium": 1, "low": 2}
+
+
+def _returns_wrapper(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+    """Whether a function returns a function it defines (the shape of a decorator)."""
+    inner = {d.name for d in ast.walk(node) if isinstance(d, (ast.FunctionDef, ast.AsyncFunctionDef)) and d is not node}
+    return any(isinstance(r, ast.Return) and isinstance(r.value, ast.Name) and r.value.id in inner for r in ast.walk(node))
+
+
+def _given_message(warning: _Warning, unit: _Unit) -> bool:
+    """Whether a warning's message is built from what the function is given (a parameter, or a
+    local of it or of a function around the call), not only from `self`."""
+    if warning.template is None or warning.template.literal:
+        return False
+    bound: set[str] = set()
+    for fn in warning.site.stack:
+        a = fn.args  # type: ignore[attr-defined]
+        bound.update(x.arg for x in (*a.posonlyargs, *a.args, *a.kwonlyargs))
+        bound.update(x.arg for x in (a.vararg, a.kwarg) if x is not None)
+    for node in ast.walk(unit.node):
+        if isinstance(node, ast.Name) and isinstance(node.ctx, ast.Store):
+            bound.add(node.id)
+    if unit.self_name in ("self", "cls"):  # common practice; a function in a class body may take another first name
+        bound.discard(unit.self_name)
+    return any(isinstance(n, ast.Name) and n.id in bound
+               for part in warning.template.parts if not isinstance(part, str) for n in ast.walk(part))
+
+
+def _string_list(node: ast.expr) -> list[str] | None:
+    if isinstance(node, (ast.List, ast.Tuple)) and node.elts and all(
+            isinstance(e, ast.Constant) and isinstance(e.value, str) for e in node.elts):
+        return [e.value for e in node.elts]  # type: ignore[union-attr]
+    return None
 
 
 def _note(template: _Template | None, fallback: str) -> str:
@@ -569,10 +1104,12 @@ def _note(template: _Template | None, fallback: str) -> str:
     return f"{fallback} (the message is built at run time: {text})" if fallback else f"message built at run time: {text}"
 
 
-def _names_tested(conditions: tuple[ast.expr, ...], arg: str) -> list[str]:
-    """String constants a condition compares `arg` with: `arg == "x"`, `arg in ("x", "y")`."""
+def _names_tested(conditions: tuple[ast.expr, ...], arg: str, literals: dict[str, tuple[str, ...]]) -> list[str]:
+    """String constants a condition compares `arg` with: `arg == "x"`, `arg in ("x", "y")`, `arg in TABLE`."""
     out: list[str] = []
     for test in conditions:
+        if isinstance(test, ast.UnaryOp) and isinstance(test.op, ast.Not):
+            continue  # an `else` branch: not the names tested
         for node in ast.walk(test):
             if not (isinstance(node, ast.Compare) and isinstance(node.left, ast.Name) and node.left.id == arg and len(node.ops) == 1):
                 continue
@@ -581,13 +1118,57 @@ def _names_tested(conditions: tuple[ast.expr, ...], arg: str) -> list[str]:
                 out.append(right.value)
             elif isinstance(node.ops[0], ast.In) and isinstance(right, (ast.Tuple, ast.List, ast.Set)):
                 out.extend(e.value for e in right.elts if isinstance(e, ast.Constant) and isinstance(e.value, str))
+            elif isinstance(node.ops[0], ast.In) and isinstance(right, ast.Name) and right.id in literals:
+                out.extend(literals[right.id])
     return out
 
 
-def harvest_deprecations(source: Path | str, library: str | None = None) -> list[HarvestedChange]:
-    """Deprecations the library at `source` announces in its own code (read, never run)."""
-    name, files = discover_modules(Path(source), library)
-    parsed, problems = parse_modules(files)
-    surface = surface_from_parsed(name, parsed, problems)
-    return _Harvester(surface, parsed).run()
+def _bodies(files: Iterable[ModuleFile]) -> Iterator[ModuleFile]:
+    """Where a stub (.pyi) stands in for a module, the .py beside it: warnings live in bodies."""
+    for f in files:
+        if f.is_stub and f.path is not None and f.path.with_suffix(".py").is_file():
+            yield ModuleFile(f.name, f.path.with_suffix(".py"), f.is_package, False)
+        else:
+            yield f
 
+
+def harvest(source: Path | str, library: str | None = None, *, release: str | None = None,
+            include_private: bool = False, surface: Surface | None = None) -> Harvest:
+    """Deprecations the library at `source` announces in its own code (read, never run).
+
+    `surface` is the library's surface when the caller has it already (built from `source`).
+    """
+    name, files = discover_modules(Path(source), library)
+    if surface is None:
+        problems: list[Problem] = []
+        surface = surface_from_parsed(name, iter_parsed(files, problems), problems)
+    harvester = _Harvester(surface, Scope(include_private), release)
+    first = (b"warn", b"deprecat")
+    kept: dict[str, _Module] = {}
+    for parsed in iter_parsed(_bodies(files), [], lambda data: any(n in data for n in first)):
+        module = _Module(parsed, first)
+        harvester.learn(module)
+        kept[module.name] = module.slim()
+    harvester.settle()
+    # A use of a helper spells its name: modules that spell one whose name says neither `warn`
+    # nor `deprecat` are read again, looking for it too.
+    extra = tuple(sorted({n for n in (h.rpartition(".")[2].encode() for h in harvester.helpers)
+                          if not any(f in n.lower() for f in first)}))
+    if extra:
+        for parsed in iter_parsed(_bodies(files), [], lambda data: any(n in data for n in extra)):
+            kept[parsed.file.name] = _Module(parsed, first + extra).slim()
+    for module in kept.values():
+        harvester.collect(module)
+    harvester.decorated()
+    changes, unread = harvester.results()
+    return Harvest(tuple(changes), tuple(unread), surface)
+
+
+def harvest_deprecations(source: Path | str, library: str | None = None, *, release: str | None = None,
+                         include_private: bool = False, surface: Surface | None = None) -> list[HarvestedChange]:
+    """The draft entries of `harvest` (see there)."""
+    return list(harvest(source, library, release=release, include_private=include_private, surface=surface).changes)
+
+
+def counted(changes: Iterable[HarvestedChange]) -> Counter[str]:
+    return Counter(c.kind for c in changes)

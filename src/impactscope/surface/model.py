@@ -60,7 +60,9 @@ class Member:
     moved or was renamed; "" when the body is trivial (a stub, `pass`) or not a definition.
     `returns_all` lists every library class a call (or read) can give, in source order, over
     overloads (PEP 484) and unions; `returns` is set only when they all agree. An entry `SELF`
-    stands for the receiver's class.
+    stands for the receiver's class. `doc` is a short digest of the docstring (whitespace
+    folded; "" when there is none), the second fingerprint a draft uses to recognise a member
+    that moved; `annotation` the return annotation as written (normalised by `ast.unparse`).
     """
 
     name: str
@@ -73,6 +75,8 @@ class Member:
     shape: str = ""
     returns_self: bool = False  # annotated `-> Self` (PEP 673): the receiver's class, not the definer's
     returns_all: tuple[str, ...] = ()
+    doc: str = ""
+    annotation: str = ""
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -332,7 +336,7 @@ class Surface:
         """Whether a canonical member's own path is public API.
 
         Private: any module segment or module-level name with a leading underscore, a name left
-        out of a static `__all__`, or a class-level name with a leading underscore (dunders are
+        out of a static `__all__` (but for names a module `__getattr__` serves), or a class-level name with a leading underscore (dunders are
         public at class level: they are protocol).
         """
         module = self.module_of(name)
@@ -345,7 +349,9 @@ class Surface:
         rest = name[len(module) + 1 :].split(".")
         if rest[0].startswith("_"):
             return False
-        if module in self.declared and rest[0] not in (self.exports.get(module) or ()):
+        head = self.members.get(f"{module}.{rest[0]}")
+        served = head is not None and head.kind == "dynamic"  # PEP 562 names: __all__ leaves them out by design
+        if module in self.declared and rest[0] not in (self.exports.get(module) or ()) and not served:
             return False
         return not any(_is_private(seg) for seg in rest[1:])
 
@@ -465,6 +471,8 @@ def _member_json(m: Member) -> dict[str, Any]:
         "shape": m.shape,
         "returns_self": m.returns_self,
         "returns_all": list(m.returns_all),
+        "doc": m.doc,
+        "annotation": m.annotation,
     }
 
 
@@ -485,6 +493,8 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         shape=d.get("shape", ""),
         returns_self=bool(d.get("returns_self", False)),
         returns_all=tuple(d.get("returns_all", ())),
+        doc=d.get("doc", ""),
+        annotation=d.get("annotation", ""),
     )
 
 
