@@ -722,8 +722,8 @@ def names_from_removed(src: Source, changes: list[dict], facts: FileFacts | None
 
 def tool_findings(lib: Library, work: Path) -> dict[Key, list[str]]:
     found: dict[Key, list[str]] = defaultdict(list)
-    for mode in MODES:
-        path = results_path(work, lib.name, mode)
+    for mode, archives in ((m, a) for m in MODES for a in (False, True)):
+        path = results_path(work, lib.name, mode, archives)
         if not path.exists():
             continue
         for f in json.loads(path.read_text())["findings"]:

@@ -153,8 +153,27 @@ def cmd_unpack(corpus: Corpus, work: Path) -> None:
 # ------------------------------------------------------------------ scan
 
 
-def results_path(work: Path, library: str, mode: str) -> Path:
-    return work / "results" / f"{library}-{mode}.json"
+def results_dir(work: Path, archives: bool = False) -> Path:
+    return work / ("results-archives" if archives else "results")
+
+
+def results_path(work: Path, library: str, mode: str, archives: bool = False) -> Path:
+    return results_dir(work, archives) / f"{library}-{mode}.json"
+
+
+def archive_stem(filename: str) -> str:
+    for suffix in (".whl", ".tar.gz", ".zip"):
+        if filename.endswith(suffix):
+            return filename[: -len(suffix)]
+    return filename
+
+
+def _rename_projects(report: str, names: dict[str, str]) -> str:
+    """An archive's project is named after the archive; the verdicts use the corpus name."""
+    data = json.loads(report)
+    for finding in data.get("findings", []):
+        finding["project"] = names.get(finding["project"], finding["project"])
+    return json.dumps(data)
 
 
 def tool_env(tool_src: Path | None) -> dict[str, str]:
@@ -166,10 +185,11 @@ def tool_env(tool_src: Path | None) -> dict[str, str]:
 
 
 def cmd_scan(corpus: Corpus, work: Path, jobs: int, archives: bool, only: str | None, tool_src: Path | None) -> None:
-    (work / "results").mkdir(parents=True, exist_ok=True)
+    out_dir = results_dir(work, archives)
+    out_dir.mkdir(parents=True, exist_ok=True)
     env = tool_env(tool_src)
     timings: dict[str, float] = {}
-    timing_file = work / "results" / "timings.json"
+    timing_file = out_dir / "timings.json"
     if timing_file.exists():
         timings = json.loads(timing_file.read_text())
     for lib in corpus.libraries:
@@ -177,7 +197,7 @@ def cmd_scan(corpus: Corpus, work: Path, jobs: int, archives: bool, only: str | 
             continue
         root = work / "dist" / lib.name if archives else work / "projects" / lib.name
         for mode in MODES:
-            out = work / "results" / f"{lib.name}-{mode}.sqlite"
+            out = out_dir / f"{lib.name}-{mode}.sqlite"
             command = [*IMPACTSCOPE, "scan", str(lib.changes), str(root), "--out", str(out),
                        "--jobs", str(jobs), "--fresh", "--quiet"]
             if mode == "source":
@@ -189,7 +209,8 @@ def cmd_scan(corpus: Corpus, work: Path, jobs: int, archives: bool, only: str | 
                 raise SystemExit(f"scan of {lib.name} ({mode}) failed ({done.returncode}): {done.stderr.strip()[-2000:]}")
             report = subprocess.run([*IMPACTSCOPE, "report", str(out), "--format", "json"],
                                     capture_output=True, text=True, check=True, env=env)
-            results_path(work, lib.name, mode).write_text(report.stdout)
+            names = {archive_stem(d.filename): d.name for d in corpus.of(lib.name)}
+            results_path(work, lib.name, mode, archives).write_text(_rename_projects(report.stdout, names))
             timings[f"{lib.name}-{mode}"] = round(seconds, 2)
             print(f"scan {lib.name:9} {mode:6} {seconds:7.1f} s  impactscope {' '.join(command[3:])}")
     timing_file.write_text(json.dumps(timings, indent=1))
@@ -387,7 +408,7 @@ def main() -> int:
     if args.step in ("score", "all"):
         import score
 
-        return score.run(corpus, work)
+        return score.run(corpus, work, archives=args.archives)
     return 0
 
 

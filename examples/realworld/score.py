@@ -1,6 +1,6 @@
 """Score the scans against the hand-checked verdicts.
 
-    python examples/realworld/score.py --work /tmp/rw [--verdicts DIR] [--json OUT]
+    python examples/realworld/score.py --work /tmp/rw [--archives] [--verdicts DIR] [--json OUT]
 
 A finding matches a verdict by (project, file, cell, line, change); several findings on one line
 for one change are one site, at the strongest confidence among them. Per library, per scan mode
@@ -25,7 +25,7 @@ from collections import defaultdict
 from dataclasses import dataclass
 from pathlib import Path
 
-from run import HERE, MODES, Corpus, changes_of, load_corpus, results_path
+from run import HERE, MODES, Corpus, changes_of, load_corpus, results_dir, results_path
 
 RANK = {"possible": 0, "inferred": 1, "resolved": 2}
 Key = tuple[str, str, str, int, str]
@@ -105,16 +105,17 @@ def _fmt(value: float | None) -> str:
     return "   -" if value is None else f"{value:4.2f}"
 
 
-def run(corpus: Corpus, work: Path, verdict_dir: Path = HERE / "verdicts", json_out: Path | None = None) -> int:
-    summary: dict = {"libraries": {}}
-    timings_file = work / "results" / "timings.json"
+def run(corpus: Corpus, work: Path, verdict_dir: Path = HERE / "verdicts", json_out: Path | None = None,
+        archives: bool = False) -> int:
+    summary: dict = {"libraries": {}, "archives": archives}
+    timings_file = results_dir(work, archives) / "timings.json"
     timings = json.loads(timings_file.read_text()) if timings_file.exists() else {}
     for lib in corpus.libraries:
         verdicts = read_verdicts(verdict_dir / f"{lib.name}.csv")
         change_ids = [c["id"] for c in changes_of(lib)]
         summary["libraries"][lib.name] = {}
         for mode in MODES:
-            path = results_path(work, lib.name, mode)
+            path = results_path(work, lib.name, mode, archives)
             if not path.exists():
                 print(f"{lib.name} {mode}: no results at {path} (run.py scan first)")
                 continue
@@ -170,8 +171,9 @@ def main() -> int:
     parser.add_argument("--work", type=Path, required=True)
     parser.add_argument("--verdicts", type=Path, default=HERE / "verdicts")
     parser.add_argument("--json", type=Path, help="also write the figures here")
+    parser.add_argument("--archives", action="store_true", help="score the scans of the archives (run.py scan --archives)")
     args = parser.parse_args()
-    return run(load_corpus(), args.work.resolve(), args.verdicts, args.json)
+    return run(load_corpus(), args.work.resolve(), args.verdicts, args.json, args.archives)
 
 
 if __name__ == "__main__":
