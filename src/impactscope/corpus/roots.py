@@ -30,7 +30,11 @@ Streaming a tar archive has consequences that callers must respect:
   that member's);
 - a tar *root* is streamed once for all its projects, so its projects come in
   archive order, and each project's entries must be consumed before
-  `discover` is advanced (afterwards `entries()` raises EntryError);
+  `discover` is advanced (afterwards `entries()` raises EntryError); a first
+  pass over the headers finds projects whose members are not all together
+  (a folder member after another project's members): those are gathered in
+  memory as the stream passes them and come, whole, after their last member,
+  so that no project is split in two;
 - a tar member is classified before the members after it are seen, so the
   rules that look inside a directory (a `pyvenv.cfg`, an activate script, an
   `__init__.py`) fall back to directory names alone (see `classify`).
@@ -54,7 +58,8 @@ own skip reason; nothing is raised.
 Paths are unique within a project. Names that normalise alike (`./a.py` and
 `a.py`, `a\\b.py` and `a/b.py`, two zip or tar members of one name) are all
 kept: the first in listing order keeps the path, each later one gets `~2`,
-`~3`, ... before its extension (`a~2.py`) and a `note` that says why. File
+`~3`, ... before its extension (`a~2.py`, which no longer names an importable
+module) and a `note` that says why. File
 names that are not valid UTF-8 are shown with the bad bytes escaped (`\\xff`),
 so that two different names never show alike.
 """
