@@ -433,3 +433,27 @@ def test_an_outcome_that_is_not_the_librarys_leaves_the_receiver_open(query: Que
     """
     # PEP 484 overloads: `load` gives a dict or a Table; a dict has no stack_rows to break.
     assert at(found(query, code), 2, "T-STACK") == "inferred"
+
+
+def test_a_call_from_another_module_passes_its_arguments(query: Query) -> None:
+    helpers = textwrap.dedent("""
+        def plot(table):
+            for k, v in table.iter_pairs():
+                pass
+            return table.stack_rows(1)
+    """).lstrip("\n")
+    code = """
+        import heronframe as hf
+        import helpers
+        helpers.plot(hf.Column())
+    """
+    texts = {"main.py": textwrap.dedent(code).lstrip("\n"), "helpers.py": helpers}
+    sources = {p: read_python(t.encode(), p) for p, t in texts.items()}
+    resolver = ProjectResolver("demo", query, sources)
+    resolver.analyse("helpers.py")
+    resolver.analyse("main.py")
+    resolver.finish()
+    hits = resolver.files["helpers.py"].findings
+    # `helpers` never imports the library: the Column reaches it through main's call.
+    assert at(hits, 2, "C-PAIRS") == "resolved"
+    assert at(hits, 4, "T-STACK") is None  # a Column has no stack_rows

@@ -181,6 +181,10 @@ class ModuleEvaluator:
         self.result.exports = self.scope.names
         return self.result
 
+    def resume(self) -> None:
+        """Read the module-level bodies that later calls sent back, once the module has run."""
+        self._flush(self.scope)
+
     def _flush(self, scope: Scope) -> None:
         """Run deferred bodies with the bindings their scope ends with, recording references."""
         while scope.pending:

@@ -34,6 +34,7 @@ class FileAnalysis:
     result: ModuleResult | None = None
     findings: list[Finding] = field(default_factory=list)
     matched_as_user: bool | None = None  # the uses-library answer `findings` were matched under
+    matched_refs: int = -1  # how many references `findings` were matched from
 
 
 def module_names(path: str) -> tuple[str, bool]:
@@ -71,6 +72,9 @@ class ProjectResolver:
                     self._namespaces.add(prefix)
         self.files: dict[str, FileAnalysis] = {}
         self._running: dict[str, ModuleEvaluator | None] = {}
+        # Kept after their run: a call from a module read later may pass a library value to a
+        # function of theirs, whose body is then read once more in its own module.
+        self._evaluators: dict[str, ModuleEvaluator] = {}
 
     # ---------------------------------------------------------------- ProjectView
     def find_module(self, dotted: str, importer: str) -> str | None:
@@ -141,6 +145,7 @@ class ProjectResolver:
                 self._running[path] = evaluator
                 try:
                     fa.result = evaluator.run((index, module) for index, _, module in fa.cells)
+                    self._evaluators[path] = evaluator
                 except RecursionError:
                     fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
                     fa.result = None
@@ -162,6 +167,7 @@ class ProjectResolver:
         may have been read before the module it imports had bound anything, so this is a
         fixpoint over the finished results rather than what each module saw while it ran.
         """
+        self._resume()
         results = {path: fa.result for path, fa in self.files.items() if fa.result is not None}
         by_module = {self._module_of[path][0]: r for path, r in results.items()}
         changed = True
@@ -174,7 +180,9 @@ class ProjectResolver:
                     r.uses_library = True
                     changed = True
         for fa in self.files.values():
-            if fa.result is not None and fa.matched_as_user is not fa.result.uses_library:
+            if fa.result is not None and (
+                fa.matched_as_user is not fa.result.uses_library or fa.matched_refs != len(fa.result.refs)
+            ):
                 try:
                     fa.findings = self._findings(fa)
                 except Exception as exc:  # noqa: BLE001 - a matching or positions bug costs this file only
@@ -183,6 +191,30 @@ class ProjectResolver:
                     fa.findings, fa.result = [], None
                     continue
                 fa.matched_as_user = fa.result.uses_library
+                fa.matched_refs = len(fa.result.refs)
+
+    def _resume(self) -> None:
+        """Read again the bodies that calls from other modules sent back (each at most once)."""
+        for _ in range(3):
+            resumed = False
+            for path, evaluator in list(self._evaluators.items()):
+                fa = self.files.get(path)
+                if fa is None or fa.result is None or not evaluator.scope.pending:
+                    continue
+                resumed = True
+                try:
+                    evaluator.resume()
+                except RecursionError:
+                    fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
+                    fa.result, fa.findings = None, []
+                    del self._evaluators[path]
+                except Exception as exc:  # noqa: BLE001 - a resolver bug costs this file, not its project
+                    fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
+                    fa.detail = describe(exc, stage="resolver", cell=evaluator.cell)
+                    fa.result, fa.findings = None, []
+                    del self._evaluators[path]
+            if not resumed:
+                return
 
     def _parse(self, path: str) -> FileAnalysis:
         source = self.sources[path]
