@@ -250,8 +250,29 @@ def test_a_fallback_import_that_cannot_run_on_the_release_is_not_proven(query: Q
     hits = found(query, code)
     # The first `try` imports only what the release keeps: its handler never runs there.
     assert at(hits, 4, "CHECKS") == "possible"
-    # The second imports a module the release removes, so the handler may run: still proven.
+    # The second imports a module the release removes: that import fails and the code handles
+    # it (possible), and the handler runs, so what it does is proven.
+    assert at(hits, 6, "CHECKS") == "possible"
     assert at(hits, 8, "CHECKS") == "resolved"
+
+
+def test_after_a_handled_import_the_fallback_binding_is_the_one(query: Query) -> None:
+    code = """
+        try:
+            from heronframe.util.checks import assert_same
+        except ImportError:
+            from heronframe._checks import assert_same
+        assert_same(1, 2)
+        try:
+            from heronframe import Table
+        except ImportError:
+            Table = None
+        Table().stack_rows(1)
+    """
+    hits = found(query, code)
+    assert at(hits, 2, "CHECKS") == "possible"
+    assert at(hits, 5, "CHECKS") is None  # on the release this is heronframe._checks's
+    assert at(hits, 10, "T-STACK") == "resolved"  # the `try` import holds on the release
 
 
 def test_builtin_calls_prove_the_receiver(query: Query) -> None:

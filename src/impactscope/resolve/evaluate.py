@@ -14,6 +14,7 @@ from typing import Callable, Iterable, Protocol, Sequence
 import libcst as cst
 from libcst.helpers import get_full_name_for_node
 
+from impactscope.changes import Kind
 from impactscope.resolve.query import Query
 from impactscope.resolve.values import (
     UNKNOWN,
@@ -33,6 +34,8 @@ from impactscope.resolve.values import (
 )
 
 _BUILTINS = frozenset(dir(builtins))
+# Change kinds that make an import of the member fail on the release.
+_IMPORT_BREAKING = frozenset({Kind.REMOVED, Kind.RENAMED, Kind.MOVED})
 # Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
 _NOT_LIBRARY = "?"
 # Built-in callables whose result is a built-in object whatever the arguments (the Python Library
@@ -88,9 +91,10 @@ class Ref:
     bound: bool = False
     call: CallShape | None = None
     import_text: str = ""
-    # Library imports of the `try` whose `except ImportError:` handler holds this reference: the
-    # handler runs only when one of them fails, so on a release that keeps them all it never runs.
-    guard: tuple[str, ...] = ()
+    # Inside `try: <library import> ... except ImportError:`, on a path the release does not
+    # take or whose failure the code handles: the `try` body when its import breaks on the
+    # release, the handler when it does not. Such a use breaks nothing: possible at most.
+    handled: bool = False
     among: tuple[str, ...] = ()  # with `attr`: the receiver is an instance of one of these classes
 
 
@@ -160,7 +164,7 @@ class ModuleEvaluator:
         self.scope = Scope("module", None)
         self.cell: int | None = None
         self._last: tuple[cst.CSTNode, list[Ref]] | None = None
-        self._guard: tuple[str, ...] = ()
+        self._handled = False
         self._quiet = 0  # > 0 while a body is read only to learn what it returns
         self.top: cst.CSTNode | None = None
 
@@ -229,7 +233,7 @@ class ModuleEvaluator:
 
     # ------------------------------------------------------------------ references
     def _ref(self, node: cst.CSTNode, context: str, **kw: object) -> Ref:
-        ref = Ref(cell=self.cell, node=node, context=context, top=self.top, guard=self._guard, **kw)  # type: ignore[arg-type]
+        ref = Ref(cell=self.cell, node=node, context=context, top=self.top, handled=self._handled, **kw)  # type: ignore[arg-type]
         if not self._quiet:
             self.result.refs.append(ref)
         return ref
@@ -404,27 +408,41 @@ class ModuleEvaluator:
         scope.names = _merge(before, scope.names)
 
     def try_stmt(self, s: cst.Try | cst.TryStar, scope: Scope) -> None:
+        # `try: import new / except ImportError: import old` (or the other way round): on the
+        # release exactly one path runs, decided by whether the `try` imports break there.
+        imported = _library_imports(s.body, self.q)
+        guarded = bool(imported) and any(_catches_import_error(h) for h in s.handlers)
+        breaks = guarded and any(
+            cc.change.kind in _IMPORT_BREAKING for name in imported for cc in self.q.match(name)
+        )
         before = dict(scope.names)
-        self.suite(s.body, scope)
-        if s.orelse is not None:
-            self.suite(s.orelse.body, scope)
+        outer = self._handled
+        self._handled = outer or breaks
+        try:
+            self.suite(s.body, scope)
+            if s.orelse is not None:
+                self.suite(s.orelse.body, scope)
+        finally:
+            self._handled = outer
         after_body = scope.names
         merged = after_body
-        imported = _library_imports(s.body, self.q)
         for handler in s.handlers:
-            scope.names = _merge(before, after_body)
+            fallback = guarded and _catches_import_error(handler)
+            scope.names = dict(before) if fallback and breaks else _merge(before, after_body)
             if handler.type is not None:
                 self.expr(handler.type, scope)
             if handler.name is not None:
                 self.assign(handler.name.name, UNKNOWN, scope)
-            outer = self._guard
-            if imported and _catches_import_error(handler):
-                self._guard = outer + imported
+            self._handled = outer or (fallback and not breaks)
             try:
                 self.suite(handler.body, scope)
             finally:
-                self._guard = outer
-            merged = _merge(merged, scope.names)
+                self._handled = outer
+            if fallback and breaks:
+                # On the release the `try` import fails and this handler's bindings are the ones.
+                merged = {**merged, **{k: v for k, v in scope.names.items() if before.get(k) is not v}}
+            else:
+                merged = _merge(merged, scope.names)
         scope.names = merged
         if s.finalbody is not None:
             self.suite(s.finalbody.body, scope)

@@ -16,9 +16,6 @@ def judge(ref: Ref, query: Query) -> list[tuple[CompiledChange, Confidence]]:
     else:
         assert ref.attr is not None
         candidates = query.by_name(ref.attr)
-    # A use in an `except ImportError:` fallback runs only if the `try` import fails; when the
-    # release keeps every name that `try` imports, it never runs there: possible at most.
-    fallback = bool(ref.guard) and not any(query.match(name) for name in ref.guard)
     out: list[tuple[CompiledChange, Confidence]] = []
     for cc in candidates:
         if ref.among:
@@ -33,7 +30,7 @@ def judge(ref: Ref, query: Query) -> list[tuple[CompiledChange, Confidence]]:
             base = Confidence.INFERRED if specific else Confidence.POSSIBLE
         confidence = _apply_rule(ref, cc, base, query)
         if confidence is not None:
-            if fallback:
+            if ref.handled:  # an import path the release does not take, or one whose failure is handled
                 confidence = min(confidence, Confidence.POSSIBLE)
             out.append((cc, confidence))
     return out

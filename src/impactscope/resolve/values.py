@@ -157,8 +157,21 @@ def join(a: Value, b: Value) -> Value:
         return b
     if b is UNKNOWN or b is None:
         return a
+    if isinstance(a, (Inst, OneOf)) and isinstance(b, (Inst, OneOf)):
+        # Two library instances of different classes: one of them, not the first one seen.
+        classes = tuple(dict.fromkeys(_classes(a) + _classes(b)))
+        if not _member(a) and not _member(b):
+            return Inst(classes[0]) if len(classes) == 1 else OneOf(classes)
     if is_library(a):
         return a
     if is_library(b):
         return b
     return a
+
+
+def _classes(value: "Inst | OneOf") -> tuple[str, ...]:
+    return (value.cls,) if isinstance(value, Inst) else value.classes
+
+
+def _member(value: "Inst | OneOf") -> str:
+    return value.member if isinstance(value, OneOf) else ""
