@@ -338,7 +338,8 @@ def test_c3_mro_diamond(tmp_path):
 def test_runtime_names_and_getattr_are_dynamic(tmp_path):
     root = write_tree(tmp_path / "lib", {
         "__init__.py": "",
-        "g.py": "for _n in ('a', 'b'):\n    globals()[_n] = _n\n",
+        "g.py": "for _n in _names():\n    globals()[_n] = _n\n",
+        "fixed.py": "for _n in ('a', 'b'):\n    globals()[_n] = _n\n",  # a fixed set: served names, not dynamic
         "s.py": "import sys\nsetattr(sys.modules[__name__], 'x', 1)\n",
         "lazy.py": "def __getattr__(name):\n    return name\n",
         "gone.py": "def __getattr__(name):\n    raise AttributeError(name)\n",  # serves nothing
@@ -347,6 +348,7 @@ def test_runtime_names_and_getattr_are_dynamic(tmp_path):
     s = build_surface(root)
     assert s.dynamic == frozenset({"lib.g", "lib.s", "lib.lazy"})
     assert s.star_names("lib.g") is None
+    assert s.member("lib.fixed.a") is not None and s.member("lib.fixed.b") is not None
 
 
 def test_unparseable_module_is_a_problem_not_a_failure(tmp_path):

@@ -17,7 +17,7 @@ from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from .model import SELF, Member, Parameter, Problem, Surface, SurfaceError, linearize
+from .model import SELF, Member, Parameter, Problem, Surface, SurfaceError, linearize, merge_surfaces
 
 _PROPERTY = frozenset({"property", "cached_property", "abstractproperty"})
 # Outside names whose call makes a property (the standard library's documentation of each).
@@ -290,6 +290,17 @@ def _doc_digest(node: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef | as
     return hashlib.blake2b(" ".join(doc.split()).encode(), digest_size=8).hexdigest()
 
 
+def _changes_all(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+    """Whether a function adds to or rewrites the module's `__all__` when called."""
+    for sub in ast.walk(node):
+        if (isinstance(sub, ast.Call) and isinstance(sub.func, ast.Attribute) and isinstance(sub.func.value, ast.Name)
+                and sub.func.value.id == "__all__" and sub.func.attr in ("append", "extend", "insert", "remove")):
+            return True
+        if isinstance(sub, ast.Global) and "__all__" in sub.names:
+            return True
+    return False
+
+
 def _returns_value(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
     """Whether a function returns a value somewhere (nested definitions aside)."""
     todo: list[ast.AST] = list(node.body)
@@ -332,6 +343,8 @@ class _ServedNames:
                         self.imports[alias.asname or alias.name] = f"{base}.{alias.name}"
         self.names: dict[str, str | None] = {}
         self.gone: set[str] = set()
+        # A value returned outside any branch that tests the name: it may serve names not listed.
+        self.open = False
         if self.param:
             self.block(node.body)
 
@@ -350,7 +363,10 @@ class _ServedNames:
             elif isinstance(st, _TRY_NODES + (ast.With, ast.For, ast.While)):
                 self.block(st.body)
             elif isinstance(st, (ast.Return, ast.Expr, ast.Assign)) and st.value is not None:
+                served = len(self.names)
                 self.lookups(st.value)
+                if isinstance(st, ast.Return) and len(self.names) == served and not _is_none(st.value):
+                    self.open = True
 
     def branch(self, tested: tuple[str, ...], body: list[ast.stmt]) -> None:
         if _raises(body):
@@ -512,6 +528,9 @@ class _Reader:
         self.ops: list[tuple] = []
         self.all_parts: list[tuple] | None = None  # None: the module has no __all__
         self.all_dynamic = False
+        # A module-level function that adds to __all__ (numpy 1.x `extend_all(module)`): the static
+        # list is only a part, so a star import takes the namespace's public names instead.
+        self.all_runtime = False
         self.getattr = False
         self.runtime_names = False
         self._overloads: set[str] = set()
@@ -527,7 +546,10 @@ class _Reader:
         self._scan_runtime_names(parsed.tree)
         if self._getattr_node is not None:
             # Read last: the tables it consults may be assigned below the function.
-            self.served.update(_ServedNames(self, self._getattr_node).names)
+            served = _ServedNames(self, self._getattr_node)
+            self.served.update(served.names)
+            if not served.open and _raises(self._getattr_node.body):
+                self.getattr = False  # PEP 562 with a fixed set of names: the surface has them all
             self._getattr_node = None
 
     # statements ------------------------------------------------------------------------
@@ -651,6 +673,8 @@ class _Reader:
         r.shape = self.text.body_shape(node)
         r.doc = _doc_digest(node)
         (self._overloads.add if overload else self._overloads.discard)(path)
+        if scope is None and not self.all_runtime and _changes_all(node):
+            self.all_runtime = True
         if scope is None and name == "__getattr__":
             # PEP 562: one that only raises (AttributeError with a message) serves no name.
             self.getattr = _returns_value(node)
@@ -737,8 +761,7 @@ class _Reader:
                     if isinstance(elt, ast.Name) and elt.id not in shadow:
                         bound.add(elt.id)
                         self._new(self._path(scope, elt.id), "constant", line, scope)
-            elif isinstance(target, ast.Subscript) and _is_namespace_call(target.value):
-                self.runtime_names = True
+        # `globals()[k] = v` is judged over the whole module by _scan_runtime_names.
         return bound
 
     def _bind_value(self, name: str, value: ast.expr | None, annotation: ast.expr | None, line: int, scope: str | None) -> None:
@@ -928,8 +951,18 @@ class _Reader:
         probe = b"".join(self.text.lines)
         if b"globals()" not in probe and b"vars()" not in probe and b"sys.modules" not in probe:
             return
+        listed: set[int] = set()  # `for n in ("a", "b"): globals()[n] = ...` binds a fixed set of names
         for node in ast.walk(tree):
-            if isinstance(node, (ast.Assign, ast.AugAssign, ast.AnnAssign)):
+            if isinstance(node, ast.For) and isinstance(node.target, ast.Name) and _strings(node.iter) is not None:
+                for sub in ast.walk(node):
+                    if (isinstance(sub, ast.Assign) and len(sub.targets) == 1 and isinstance(sub.targets[0], ast.Subscript)
+                            and _is_namespace_call(sub.targets[0].value) and isinstance(sub.targets[0].slice, ast.Name)
+                            and sub.targets[0].slice.id == node.target.id):
+                        listed.add(id(sub))
+                        for name in _strings(node.iter) or ():
+                            self.served.setdefault(name, None)
+        for node in ast.walk(tree):
+            if isinstance(node, (ast.Assign, ast.AugAssign, ast.AnnAssign)) and id(node) not in listed:
                 targets = node.targets if isinstance(node, ast.Assign) else [node.target]
                 if any(isinstance(t, ast.Subscript) and _is_namespace_call(t.value) for t in targets):
                     self.runtime_names = True
@@ -975,8 +1008,9 @@ class _Linker:
     """Resolves names across the library on demand; every recursive step is memoised and guarded."""
 
     def __init__(self, library: str, readers: dict[str, _Reader], raw: dict[str, _Raw],
-                 class_aliases: dict[str, tuple[str, str, int]]) -> None:
+                 class_aliases: dict[str, tuple[str, str, int]], partial_stars: bool = False) -> None:
         self.library = library
+        self.partial_stars = partial_stars
         self.readers = readers
         self.raw = raw
         self.class_aliases = class_aliases
@@ -1036,7 +1070,7 @@ class _Linker:
 
     def static_all(self, module: str) -> tuple[str, ...] | None:
         reader = self.readers.get(module)
-        if reader is None or reader.all_parts is None or reader.all_dynamic:
+        if reader is None or reader.all_parts is None or reader.all_dynamic or reader.all_runtime:
             return None
         parts = reader.all_parts
 
@@ -1051,6 +1085,8 @@ class _Linker:
                 else:
                     target = self.resolve_expr(module, part[1])[0]
                     sub = self.static_all(target) if target is not None else None
+                    if sub is None and target in self.readers and self.readers[target].all_runtime:
+                        sub = self.star_names(target)  # its __all__ grows at run time: its public names
                     if sub is None:
                         return None
                     names.extend(sub)
@@ -1062,12 +1098,12 @@ class _Linker:
         reader = self.readers.get(module)
         if reader is None:
             return None
-        if reader.all_parts is not None:
+        if reader.all_parts is not None and not reader.all_runtime:
             return self.static_all(module)
 
         def compute() -> tuple[str, ...] | None:
             ns = self.namespace(module)
-            if not self._complete.get(module, True) or reader.runtime_names:
+            if (not self._complete.get(module, True) and not self.partial_stars) or reader.runtime_names:
                 return None
             return tuple(
                 n for n, b in ns.items()
@@ -1435,11 +1471,14 @@ def _is_none(node: ast.expr) -> bool:
     return (isinstance(node, ast.Constant) and node.value is None) or dotted_name(node) == "None"
 
 
-def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: Sequence[Problem] = ()) -> Surface:
+def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: Sequence[Problem] = (),
+                        *, partial_stars: bool = False) -> Surface:
     """Link parsed modules into a Surface.
 
     `parsed` may be a lazy iterator; `problems` is read after it is exhausted, and each module
-    named there still exists in the surface, with unknowable exports.
+    named there still exists in the surface, with unknowable exports. With `partial_stars`, a
+    star import of a module whose names are partly unknowable (it star-imports an extension
+    module) still brings the names that are known, instead of none.
     """
     raw: dict[str, _Raw] = {}
     class_aliases: dict[str, tuple[str, str, int]] = {}
@@ -1456,7 +1495,7 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
             del raw[name]
     for path in [p for p, (cls, _, _) in class_aliases.items() if cls not in raw]:
         del class_aliases[path]
-    link = _Linker(library, readers, raw, class_aliases)
+    link = _Linker(library, readers, raw, class_aliases, partial_stars)
 
     members: dict[str, Member] = {}
     for name in sorted(raw):
@@ -1538,12 +1577,47 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
     )
 
 
-def build_surface(source: Path | str, library: str | None = None, *, include_tests: bool = False) -> Surface:
+def sources_first(files: Iterable[ModuleFile]) -> Iterator[ModuleFile]:
+    """Where a stub (.pyi) stands in for a module, the .py beside it instead.
+
+    The source is what runs: it has the bodies (and the warnings in them), real default values
+    where stubs write `...`, and the names stubs often drop once deprecated.
+    """
+    for f in files:
+        if f.is_stub and f.path is not None and f.path.with_suffix(".py").is_file():
+            yield ModuleFile(f.name, f.path.with_suffix(".py"), f.is_package, False)
+        else:
+            yield f
+
+
+def build_surface(source: Path | str, library: str | None = None, *, include_tests: bool = False,
+                  prefer_source: bool = False) -> Surface:
     """Read the surface of the library at `source` (a package, a module file, or their parent).
 
     The library's code is parsed, never imported or run. `tests` subpackages are read only
-    with `include_tests` (see `discover_modules`).
+    with `include_tests` (see `discover_modules`). Stubs win over sources beside them (PEP 484)
+    unless `prefer_source` (see `sources_first`).
     """
     name, files = discover_modules(Path(source), library, include_tests=include_tests)
+    if prefer_source:
+        files = tuple(sources_first(files))
     problems: list[Problem] = []
     return surface_from_parsed(name, iter_parsed(files, problems), problems)
+
+
+def build_for_drafts(source: Path | str, library: str | None = None) -> tuple[Surface, Surface]:
+    """(the surface a draft reads, the surface a scan will check the draft against).
+
+    A scan reads stubs first (PEP 484). A draft must also see what the sources beside them
+    define and the stubs have dropped (deprecated names, most often: just what a draft is
+    about), so it reads the union of both; where no stub stands for a source they are one.
+    """
+    name, files = discover_modules(Path(source), library)
+    problems: list[Problem] = []
+    scanned = surface_from_parsed(name, iter_parsed(files, problems), problems)
+    if not any(f.is_stub and f.path is not None and f.path.with_suffix(".py").is_file() for f in files):
+        return scanned, scanned
+    problems = []
+    # Names the sources bring from extension modules are in the stubs; take the rest they know.
+    sources = surface_from_parsed(name, iter_parsed(sources_first(files), problems), problems, partial_stars=True)
+    return merge_surfaces(scanned, sources), scanned

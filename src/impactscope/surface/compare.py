@@ -26,7 +26,7 @@ from __future__ import annotations
 import ast
 from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from .build import dotted_name
 from .model import Member, Parameter, Surface
@@ -59,6 +59,7 @@ class DraftChange:
     new_parameter: str | None = None
     position: int | None = None
     evidence: tuple[str, ...] = ()
+    dynamic: bool = False  # the scan's reading of the library (stubs first) does not show the member
 
 
 @dataclass(frozen=True)
@@ -148,6 +149,8 @@ def render_draft(changes: Iterable[DraftChange], library: str, release: str | No
                 lines.append(f"{key} = {_toml_string(value)}")
         if change.position is not None:
             lines.append(f"position = {change.position}")
+        if change.dynamic:
+            lines.append("dynamic = true")
         lines.append(f"note = {_toml_string(change.note)}")
     return "\n".join(lines) + "\n"
 
@@ -266,8 +269,9 @@ def annotation_types(text: str) -> frozenset[str] | None:
 
 class _Comparison:
     def __init__(self, old: Surface, new: Surface, release: str | None, scope: Scope,
-                 announced: Sequence[Announcement]) -> None:
+                 announced: Sequence[Announcement], still: frozenset[tuple[str, str]] = frozenset()) -> None:
         self.old, self.new, self.scope = old, new, scope
+        self.still = still  # (canonical member, parameter) the new version still accepts through a deprecation shim
         self.where = f"in {release}" if release else "in the new version"
         self.fresh: dict[str, tuple[str, ...]] = {}  # new canonical members the old lacks -> their paths
         for name in new.members:
@@ -319,7 +323,14 @@ class _Comparison:
     # members ----------------------------------------------------------------------------
 
     def lost_paths(self, paths: Sequence[str], alive: str) -> None:
+        """Paths to a definition that is still there by another path.
+
+        These are low: a scan matches a change by the definition it names (a module's member) or
+        by class and inheritance (a class's member), so it also counts the uses through the paths
+        that still work (DESIGN.md, matching rules). The count is an upper bound to review.
+        """
         there = self.public(self.new, alive)
+        over = "the scan also counts uses through the paths that still work (one definition)"
         for path in paths:
             owner = self.new.member(path.rpartition(".")[0])
             if owner is None:
@@ -328,18 +339,19 @@ class _Comparison:
                 # An attribute a class no longer has is removed from it, wherever else it lives.
                 elsewhere = f" (still defined as {there})" if there is not None else ""
                 self.add(DraftChange(
-                    path, "removed", f"{path} is gone {self.where}{elsewhere}", "high",
-                    "the class no longer has this attribute, by definition or inheritance", evidence=("absent from the class",)))
+                    path, "removed", f"{path} is gone {self.where}{elsewhere}", "low",
+                    f"the class no longer has this attribute, but the definition lives on elsewhere; {over}",
+                    evidence=("absent from the class",)))
                 continue
             if there is not None:
                 self.add(DraftChange(
-                    path, "moved", f"{path} is no longer importable from there {self.where}; import it from {there}", "high",
-                    "the definition is still public, but this import path no longer leads to it",
+                    path, "moved", f"{path} is no longer importable from there {self.where}; import it from {there}", "low",
+                    f"the definition is still public, but this import path no longer leads to it; {over}",
                     replacement=there, evidence=("same definition",)))
             else:
                 self.add(DraftChange(
-                    path, "removed", f"{path} is no longer public {self.where} (still defined privately as {alive})", "high",
-                    "this import path no longer leads to it and no public path does", evidence=("same definition",)))
+                    path, "removed", f"{path} is no longer public {self.where} (still defined privately as {alive})", "low",
+                    f"this import path no longer leads to it and no public path does; {over}", evidence=("same definition",)))
 
     def gone(self, name: str, path: str, member: Member) -> None:
         parent, _, last = name.rpartition(".")
@@ -354,11 +366,15 @@ class _Comparison:
             successor = self.successor(name, member, parent_new)
         if parent_fate is not None and parent_fate[0] != "alive":
             # A removed or moved module or class takes its members with it; only a member that
-            # went somewhere else of its own gets an entry.
+            # went somewhere else of its own, or that was also re-exported elsewhere (`numpy.source`
+            # from `numpy.lib.utils`), gets an entry.
             along = parent_fate[1] is not None and successor is not None and successor[1] == f"{parent_fate[1]}.{last}"
-            if successor is None or along or successor[0] == "removed":
+            outside = [p for p in self.scope.paths(self.old, name) if not self.under_gone(p)]
+            if (successor is None or along or successor[0] == "removed") and not outside:
                 self.fate[name] = ("with-parent", None)
                 return
+            if outside:
+                path = outside[0]
         if successor is not None:
             kind, target, certainty, why, evidence = successor
             self.fate[name] = (kind, target)
@@ -388,6 +404,15 @@ class _Comparison:
             why += f" ({module} builds names at run time, but the old version announced the removal)"
         self.add(DraftChange(path, "removed", f"{path} is gone {self.where}; no successor found{twin}{since}", "high",
                              why, evidence=announced or ("absent from the new version",)))
+
+    def under_gone(self, path: str) -> bool:
+        """Whether a module or class on the way to `path` is itself gone (its entry covers the path)."""
+        parts = path.split(".")
+        for i in range(len(parts) - 1, 0, -1):
+            fate = self.fate.get(self.old.canonical(".".join(parts[:i])))
+            if fate is not None and fate[0] != "alive":
+                return True
+        return False
 
     def announced_successor(self, name: str, member: Member, told: Announcement | None,
                             parent_new: str) -> tuple[str, str, str, str, tuple[str, ...]] | None:
@@ -503,6 +528,7 @@ class _Comparison:
                 "a parameter moved to another position; drafted as the removal of its old positional slot, so the scan "
                 "also counts calls that pass it by keyword", parameter=first.name, position=first.position,
                 evidence=("both signatures",)))
+        self.shims_gone(path, old, new, var_kw)
         for q in added:
             if q.default is None:
                 self.add(DraftChange(
@@ -510,6 +536,30 @@ class _Comparison:
                     "calls that do not pass it fail", "high",
                     "a parameter without a default was added; calls that leave it out are what breaks",
                     parameter=q.name, position=q.position, evidence=("both signatures",)))
+
+    def shims_gone(self, path: str, old: Member, new: Member, var_kw: str | None) -> None:
+        """Keywords the old version took only through a deprecation shim (a decorator that reads
+        them out of **kwargs), which the new version takes neither so nor by its signature."""
+        names = {p.name for p in old.parameters or ()}
+        new_names = {q.name for q in new.parameters or ()}
+        for (member, parameter), told in sorted(self.params.items()):
+            if member != old.name or parameter in names or parameter in new_names or (new.name, parameter) in self.still:
+                continue
+            if told.kind not in ("parameter-removed", "parameter-renamed"):
+                continue
+            evidence = ("deprecation warning", "absent from the new signature")
+            if told.new_parameter is not None and told.new_parameter in new_names:
+                self.add(DraftChange(
+                    path, "parameter-renamed", f"`{parameter}` of {path}() is spelled `{told.new_parameter}` {self.where}",
+                    "high", "the old version took it only to warn and pass it on under the new name; the new one does not",
+                    parameter=parameter, new_parameter=told.new_parameter, evidence=evidence))
+                continue
+            swallowed = f"; calls passing it now land in **{var_kw}" if var_kw else ""
+            self.add(DraftChange(
+                path, "parameter-removed", f"{path}() no longer takes `{parameter}` {self.where}{swallowed}",
+                "high" if not var_kw else "medium",
+                "the old version took it only to warn that it is deprecated; the new one does not take it",
+                parameter=parameter, evidence=evidence))
 
     def parameter_gone(self, path: str, old: Member, p: Parameter, added: list[Parameter], gone_kw: list[Parameter],
                        var_kw: str | None) -> bool:
@@ -610,7 +660,46 @@ class _Comparison:
             if c.kind not in ("removed", "moved", "renamed") and c.member in gone:
                 continue
             out.setdefault((c.member, c.kind, c.parameter), c)
-        return list(out.values())
+        return self.collapse(list(out.values()))
+
+    def collapse(self, changes: list[DraftChange]) -> list[DraftChange]:
+        """Many low entries under one module that answers names at run time (a shim such as numpy
+        2's `numpy.core`) become one entry on that module: a scan then counts its every use."""
+        groups: dict[str, list[DraftChange]] = {}
+        for c in changes:
+            if c.certainty != "low" or c.kind not in ("removed", "moved"):
+                continue
+            parts = c.member.split(".")
+            # The nearest such module, never the library's top level (that would fold everything).
+            shims = [".".join(parts[:i]) for i in range(2, len(parts))
+                     if self.new.canonical(".".join(parts[:i])) in self.new.dynamic
+                     and (found := self.new.member(".".join(parts[:i]))) is not None and found.kind == "module"]
+            if shims:
+                groups.setdefault(shims[-1], []).append(c)
+        folded = {id(c) for group in groups.values() if len(group) >= 3 for c in group}
+        out = [c for c in changes if id(c) not in folded]
+        for module, group in sorted(groups.items()):
+            if len(group) < 3:
+                continue
+            shown = ", ".join(sorted(c.member.rpartition(".")[2] for c in group)[:5])
+            out.append(DraftChange(
+                module, "behaviour-changed",
+                f"{len(group)} names under {module} are no longer defined there {self.where} (e.g. {shown}); {module} "
+                "answers names at run time (module __getattr__), perhaps with a warning: check the release notes", "low",
+                f"{len(group)} low entries folded into one: {module} builds names at run time, so the scan counts its "
+                "every use", evidence=("names gone from the source", "module __getattr__")))
+        return out
+
+
+def as_scanned(changes: Iterable[DraftChange], scanned: Surface) -> list[DraftChange]:
+    """Mark the entries whose member the scan's reading of the library (stubs first) lacks as
+    `dynamic`, so that the draft scans without edits; the note says why."""
+    out = []
+    for c in changes:
+        if scanned.member(c.member) is None:
+            c = replace(c, dynamic=True, note=f"{c.note} (the library's stubs leave {c.member} out)")
+        out.append(c)
+    return out
 
 
 def _signature_key(params: tuple[Parameter, ...] | None) -> tuple:

@@ -11,8 +11,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from .build import build_surface
-from .compare import DraftChange, _Comparison, render_draft, summary
+from .build import build_for_drafts
+from .compare import DraftChange, _Comparison, as_scanned, render_draft, summary
 from .harvest import harvest
 from .scope import Scope
 
@@ -32,11 +32,18 @@ class Draft:
 def draft_compare(old: Path, new: Path, library: str | None = None, release: str | None = None, *,
                   include_private: bool = False) -> Draft:
     """The change list drafted from two versions of the library's source."""
-    before = build_surface(old, library)
-    after = build_surface(new, library)
+    before, scanned = build_for_drafts(old, library)
+    after, _ = build_for_drafts(new, library)
     told = harvest(old, library, release=release, include_private=True, surface=before)
-    comparison = _Comparison(before, after, release, Scope(include_private), [c.announcement(before) for c in told.changes])
-    found = tuple(comparison.run())
+    shims = [c for c in told.changes if c.parameter is not None]
+    still: frozenset[tuple[str, str]] = frozenset()
+    if shims:
+        # Whether the new version still warns about (so still takes) a keyword the old one did.
+        later = harvest(new, library, include_private=True, surface=after)
+        still = frozenset((after.canonical(c.member), c.parameter) for c in later.changes if c.parameter is not None)
+    comparison = _Comparison(before, after, release, Scope(include_private), [c.announcement(before) for c in told.changes],
+                             still)
+    found = tuple(as_scanned(comparison.run(), scanned))
     text = render_draft(found, after.library, release, origin="comparing two versions", left_out=comparison.left_out)
     return Draft(text, found)
 

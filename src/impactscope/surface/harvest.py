@@ -40,14 +40,14 @@ import re
 import string
 from collections import Counter
 from collections.abc import Iterable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from packaging.version import InvalidVersion, Version
 
-from .build import ModuleFile, ParsedModule, discover_modules, dotted_name, iter_parsed, surface_from_parsed
+from .build import ParsedModule, build_for_drafts, discover_modules, dotted_name, iter_parsed, sources_first
 from .compare import Announcement, DraftChange, render_draft as _render
-from .model import Problem, Surface
+from .model import Surface
 from .scope import Scope
 
 CATEGORIES = frozenset({"DeprecationWarning", "PendingDeprecationWarning", "FutureWarning"})
@@ -59,10 +59,10 @@ _LEAD = re.compile(r"\b(?:use|in favou?r of|replaced (?:by|with)|renamed to|move
                    re.IGNORECASE)
 _TOKEN = re.compile(r"[A-Za-z_.][\w.]*")
 # "in a future version this will return a view", "will be a logical operation": what changes is behaviour.
-_BEHAVIOUR = re.compile(r"\bwill (?:now |instead )?(?:return|change|behave|be a logical|default to|be treated|be interpreted|"
+_BEHAVIOUR = re.compile(r"\bwill (?:now |instead )?(?:return|change|behave|be a logical|default to|be treated|be interpreted|be defined|"
                         r"include|exclude|match|keep|no longer|be the same|be consistent|always|retain|preserve)", re.IGNORECASE)
 _GOES = re.compile(r"\b(?:will be removed|removed in|be dropped|no longer be (?:available|supported))\b", re.IGNORECASE)
-_LATER = re.compile(r"\b(?:removed|dropped|deleted|gone|disallowed|raise|error)\b[^.]*?\b(?:in|by|from|with|after)\s+"
+_LATER = re.compile(r"\b(?:removed|dropped|deleted|gone|disallowed|raise|error|expire[sd]?)\b[^.]*?\b(?:in|by|from|with|after)\s+"
                     r"(?:\w+\s+){0,2}v?(\d+\.\d+(?:\.\d+)?)", re.IGNORECASE)
 
 
@@ -89,10 +89,12 @@ class HarvestedChange:
     announces: str = "removed"
     evidence: tuple[str, ...] = ()
 
+    dynamic: bool = False
+
     def to_draft(self) -> DraftChange:
         return DraftChange(self.member, self.kind, self.note, self.certainty, self.why, replacement=self.replacement,
                            parameter=self.parameter, new_parameter=self.new_parameter, position=self.position,
-                           evidence=self.evidence)
+                           evidence=self.evidence, dynamic=self.dynamic)
 
     def announcement(self, surface: Surface) -> Announcement:
         """For `compare`: what the old version said, keyed by the member's canonical name."""
@@ -141,6 +143,7 @@ class _Template:
     """A warning message: literal text and holes (expressions filled in at run time)."""
 
     parts: tuple[str | ast.expr, ...]
+    pending: bool = False  # issued as a PendingDeprecationWarning: the deprecation itself is still to come
 
     @property
     def literal(self) -> bool:
@@ -663,10 +666,19 @@ class _Harvester:
         message = call.args[0] if call.args else next((k.value for k in call.keywords if k.arg == "message"), None)
         category = call.args[1] if len(call.args) > 1 else next((k.value for k in call.keywords if k.arg == "category"), None)
         if category is None and isinstance(message, ast.Call) and self._is_category(module, unit, message.func):
-            return _template(message.args[0] if message.args else None) or _Template(())
-        if not self._is_category(module, unit, category):
+            category, message = message.func, message.args[0] if message.args else None
+        elif not self._is_category(module, unit, category):
             return None
-        return _template(message) or _Template(())
+        if isinstance(message, ast.Name) and unit is not None:
+            # `msg = "..."; warn(msg, ...)`: one plain assignment in the function is the message's text.
+            values = [n.value for n in ast.walk(unit.node) if isinstance(n, (ast.Assign, ast.AugAssign, ast.AnnAssign))
+                      and any(isinstance(t, ast.Name) and t.id == message.id
+                              for t in (n.targets if isinstance(n, ast.Assign) else [n.target]))]
+            if len(values) == 1 and values[0] is not None:
+                message = values[0]
+        found = _template(message) or _Template(())
+        pending = (dotted_name(category) or "").rpartition(".")[2] == "PendingDeprecationWarning"
+        return replace(found, pending=pending) if pending else found
 
     @staticmethod
     def _hinted(unit: _Unit) -> bool:
@@ -773,7 +785,7 @@ class _Harvester:
                 parts.append(given[part.id])  # still a hole, but now the caller's expression
             else:
                 parts.append(part)
-        return _Template(tuple(parts))
+        return _Template(tuple(parts), template.pending)
 
     # pass 2: entries ----------------------------------------------------------------------
 
@@ -944,15 +956,7 @@ class _Harvester:
             replacement = self._successor(literal, canonical)
         if replacement is not None:
             evidence.append(f"the message names {replacement}")
-        later = _LATER.search(literal)
-        if later is not None and self.release is not None:
-            try:
-                when = Version(later.group(1))
-            except InvalidVersion:
-                when = None
-            if when is not None and when > self.release:
-                certainty = "low"
-                why = f"{why}; the message says it goes in {when}, after {self.release}"
+        certainty, why = self._when(template, literal, certainty, why)
         kind = {"removed": "removed", "parameter-renamed": "parameter-renamed", "default-changed": "default-changed",
                 "behaviour-changed": "behaviour-changed"}.get(announces, "parameter-removed")
         change = HarvestedChange(path, kind, note, certainty, f"{why}; {_GUESS}", self.surface.module_of(module) or module,
@@ -962,6 +966,32 @@ class _Harvester:
         kept = self.out.get(key)
         if kept is None or _CERTAIN[certainty] < _CERTAIN[kept.certainty]:
             self.out[key] = change
+
+    def _when(self, template: _Template | None, literal: str, certainty: str, why: str) -> tuple[str, str]:
+        """How sure an entry is for the release the draft is for: the message may say when it goes.
+
+        high: the message names a release up to this one; low: a later one, or the warning is only
+        a PendingDeprecationWarning; otherwise at most medium (a deprecation that does not say when
+        may outlive this release). Without a release, only the category counts.
+        """
+        if template is not None and template.pending:
+            return "low", f"{why}; only a PendingDeprecationWarning, so the removal is further off"
+        found = _LATER.search(literal)
+        when = None
+        if found is not None:
+            try:
+                when = Version(found.group(1))
+            except InvalidVersion:
+                when = None
+        if self.release is None:
+            return certainty, why
+        if when is not None and when > self.release:
+            return "low", f"{why}; the message says it goes in {when}, after {self.release}"
+        if when is not None:
+            return ("high" if certainty != "low" else certainty), f"{why}; the message says it goes in {when}"
+        if certainty == "high":
+            return "medium", f"{why}; the message does not say when it goes"
+        return certainty, why
 
     def _successor(self, text: str, canonical: str) -> str | None:
         """A public member the literal message names as the way forward (not the member itself):
@@ -1009,12 +1039,14 @@ class _Harvester:
                 filled = _Template(tuple(_fill(p, {arg: ast.Constant(name)}) or p if not isinstance(p, str) else p
                                          for p in template.parts)) if template is not None else None
                 why = f"the module's __getattr__ warns when `{name}` is looked up"
+                # Only a name the module serves now (a branch that warns and then raises serves
+                # none), and only a warning about the name going, not about what it will mean.
+                literal = filled.text if filled is not None else ""
+                if _BEHAVIOUR.search(literal) and not _GOES.search(literal):
+                    continue
                 if self.surface.member(path) is not None:
                     self._add(self.surface.canonical(path), module.name, site.call.lineno, "module __getattr__", filled,
                               "high", why, fallback=f"{path} is deprecated")
-                elif self.scope.covers(self.surface, path) or not any(s.startswith("_") for s in path.split(".")):
-                    self._add_path(path, None, module.name, site.call.lineno, "module __getattr__", filled, "high", why,
-                                   fallback=f"{path} is deprecated")
 
     def _assignment(self, module: _Module, a: _Assignment) -> None:
         callee = self._callee(module, a.scope if a.in_class else None, None, a.call.func)
@@ -1123,15 +1155,6 @@ def _names_tested(conditions: tuple[ast.expr, ...], arg: str, literals: dict[str
     return out
 
 
-def _bodies(files: Iterable[ModuleFile]) -> Iterator[ModuleFile]:
-    """Where a stub (.pyi) stands in for a module, the .py beside it: warnings live in bodies."""
-    for f in files:
-        if f.is_stub and f.path is not None and f.path.with_suffix(".py").is_file():
-            yield ModuleFile(f.name, f.path.with_suffix(".py"), f.is_package, False)
-        else:
-            yield f
-
-
 def harvest(source: Path | str, library: str | None = None, *, release: str | None = None,
             include_private: bool = False, surface: Surface | None = None) -> Harvest:
     """Deprecations the library at `source` announces in its own code (read, never run).
@@ -1139,13 +1162,13 @@ def harvest(source: Path | str, library: str | None = None, *, release: str | No
     `surface` is the library's surface when the caller has it already (built from `source`).
     """
     name, files = discover_modules(Path(source), library)
+    scanned = surface
     if surface is None:
-        problems: list[Problem] = []
-        surface = surface_from_parsed(name, iter_parsed(files, problems), problems)
+        surface, scanned = build_for_drafts(source, library)
     harvester = _Harvester(surface, Scope(include_private), release)
     first = (b"warn", b"deprecat")
     kept: dict[str, _Module] = {}
-    for parsed in iter_parsed(_bodies(files), [], lambda data: any(n in data for n in first)):
+    for parsed in iter_parsed(sources_first(files), [], lambda data: any(n in data for n in first)):
         module = _Module(parsed, first)
         harvester.learn(module)
         kept[module.name] = module.slim()
@@ -1155,12 +1178,15 @@ def harvest(source: Path | str, library: str | None = None, *, release: str | No
     extra = tuple(sorted({n for n in (h.rpartition(".")[2].encode() for h in harvester.helpers)
                           if not any(f in n.lower() for f in first)}))
     if extra:
-        for parsed in iter_parsed(_bodies(files), [], lambda data: any(n in data for n in extra)):
+        for parsed in iter_parsed(sources_first(files), [], lambda data: any(n in data for n in extra)):
             kept[parsed.file.name] = _Module(parsed, first + extra).slim()
     for module in kept.values():
         harvester.collect(module)
     harvester.decorated()
     changes, unread = harvester.results()
+    if scanned is not None and scanned is not surface:
+        changes = [c if scanned.member(c.member) is not None else
+                   replace(c, dynamic=True, note=f"{c.note} (the library's stubs leave {c.member} out)") for c in changes]
     return Harvest(tuple(changes), tuple(unread), surface)
 
 

@@ -458,6 +458,41 @@ class Surface:
         return "\n".join(out) + "\n"
 
 
+def merge_surfaces(primary: Surface, secondary: Surface) -> Surface:
+    """One surface with the names of both: `primary` wins wherever both say something.
+
+    For a library read twice, from its stubs and from its sources: stubs describe C-defined
+    names a source does not show, sources keep names a stub has dropped.
+    """
+    taken = set(primary.members) | set(primary.aliases) | set(primary.private_aliases)
+    members = {**{k: v for k, v in secondary.members.items() if k not in taken}, **primary.members}
+    aliases = {**{k: v for k, v in secondary.aliases.items() if k not in taken}, **primary.aliases}
+    private = {**{k: v for k, v in secondary.private_aliases.items() if k not in taken}, **primary.private_aliases}
+    links = {**private, **aliases}
+
+    def target(path: str) -> str | None:
+        for _ in range(8):  # a re-export of a re-export: follow it to a member
+            if path in members:
+                return path
+            if path not in links:
+                return None
+            path = links[path]
+        return None
+
+    aliases = {k: t for k, t in ((k, target(v)) for k, v in aliases.items()) if t is not None}
+    private = {k: t for k, t in ((k, target(v)) for k, v in private.items()) if t is not None}
+    return Surface(
+        library=primary.library,
+        members=members,
+        aliases=aliases,
+        exports={**secondary.exports, **primary.exports},
+        dynamic=primary.dynamic | secondary.dynamic,
+        private_aliases=private,
+        declared=primary.declared,
+        problems=primary.problems,
+    )
+
+
 def _member_json(m: Member) -> dict[str, Any]:
     return {
         "kind": m.kind,
