@@ -242,3 +242,41 @@ def test_console_script_prints_no_traceback(tmp_path: Path, corpus: Path) -> Non
     assert "Traceback" not in done.stderr
     lines = [ln for ln in done.stderr.splitlines() if ln.strip()]
     assert len(lines) == 1 and "bad.toml" in lines[0] and "duplicate" in lines[0]
+
+
+def test_a_bad_limit_is_one_line_and_exit_2(tmp_path) -> None:
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n')
+    (tmp_path / "corpus" / "p").mkdir(parents=True)
+    (tmp_path / "corpus" / "p" / "a.py").write_text("import heronframe\n")
+    result = CliRunner().invoke(
+        app, ["scan", str(changes), str(tmp_path / "corpus"), "--out", str(tmp_path / "r.sqlite"), "--limit", "bytes=1"]
+    )
+    assert result.exit_code == 2
+    assert "limit 'bytes=1'" in result.output and "Traceback" not in result.output
+
+
+def test_a_limit_given_on_the_command_line_skips_with_its_reason(tmp_path) -> None:
+    import json
+
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n')
+    (tmp_path / "corpus" / "p").mkdir(parents=True)
+    (tmp_path / "corpus" / "p" / "big.py").write_text("import heronframe\nheronframe.stack()\n" + "x = 1\n" * 400)
+    (tmp_path / "corpus" / "p" / "small.py").write_text("import heronframe\nheronframe.stack()\n")
+    out = tmp_path / "r.sqlite"
+    runner = CliRunner()
+    result = runner.invoke(app, ["scan", str(changes), str(tmp_path / "corpus"), "--out", str(out),
+                                 "--limit", "file_bytes=1000", "--jobs", "1"])
+    assert result.exit_code == 0, result.output
+    report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).output)
+    assert report["totals"]["files_skipped"] == 1 and report["totals"]["files_parsed"] == 1
+    assert {f["file"] for f in report["findings"]} == {"small.py"}

@@ -62,6 +62,10 @@ def scan(
     library_installed: Optional[str] = typer.Option(
         None, "--library-installed", metavar="NAME", help="Read an installed distribution's files (never imported)."
     ),
+    limit: List[str] = typer.Option(
+        [], "--limit", metavar="NAME=VALUE",
+        help="Change a reading limit, e.g. file_bytes=4000000 or members=500000 (repeatable; see README).",
+    ),
 ) -> None:
     """Scan downstream code for uses of the changed members and write a results file."""
     from impactscope.scan.progress import for_stream
@@ -70,12 +74,15 @@ def scan(
     if jobs < 0:
         typer.echo("impactscope: error: --jobs must be 0 (one per core) or a positive number", err=True)
         raise typer.Exit(2)
+    from impactscope.corpus.limits import DEFAULT_LIMITS
+
+    limits = _guarded(lambda: DEFAULT_LIMITS.updated(limit))
     try:
         summary = _guarded(
             lambda: run_scan(
                 changes, roots, out, single=single, jobs=jobs, fresh=fresh, cluster=cluster,
                 progress=for_stream(sys.stderr, quiet=quiet),
-                library_source=library_source, library_installed=library_installed,
+                library_source=library_source, library_installed=library_installed, limits=limits,
             )
         )
     except KeyboardInterrupt:

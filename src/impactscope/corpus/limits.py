@@ -116,6 +116,9 @@ class Limits:
         return f"{REASONS[name]}: {got}limit {name} = {bound}"
 
 
+DEFAULT_LIMITS = Limits()
+
+
 class LimitExceeded(Exception):
     """Raised inside a read when a bound is reached; the corpus layer turns it into a reason.
 

@@ -86,6 +86,7 @@ from typing import IO
 
 from impactscope.corpus.files import SPECIAL_FILE, FileRefused, read_regular, refusal, within
 from impactscope.corpus.limits import (
+    DEFAULT_LIMITS,
     RATIO_FLOOR,
     CountingReader,
     LimitExceeded,
@@ -115,8 +116,7 @@ ARCHIVE_SUFFIXES = (".tar.gz", ".tar.bz2", ".tar.xz", ".tgz", ".tar", ".zip", ".
 _ZIP_SUFFIXES = (".zip", ".whl")
 SOURCE_SUFFIXES = frozenset({".py", ".ipynb"})
 # The default bound on a file read whole (Limits.file_bytes).
-MAX_FILE_SIZE = Limits().file_bytes
-DEFAULT_LIMITS = Limits()
+MAX_FILE_SIZE = DEFAULT_LIMITS.file_bytes
 
 LINK_OUTSIDE_CORPUS = "link outside the corpus"
 LINK_OUTSIDE_PROJECT = "link outside the project"

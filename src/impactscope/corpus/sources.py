@@ -25,7 +25,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Literal
 
-from impactscope.corpus.limits import Limits
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 
 if TYPE_CHECKING:  # IPython is slow to import; only notebooks need it.
     from IPython.core.inputtransformer2 import TransformerManager
@@ -51,7 +51,7 @@ PYTHON_CELL_MAGICS = frozenset(
 )
 
 
-_DEFAULT_LIMITS = Limits()
+_DEFAULT_LIMITS = DEFAULT_LIMITS
 # Reasons that skip a file (a bound reached), where the others leave it unparsed.
 SKIP_REASONS = frozenset({_DEFAULT_LIMITS.reason("notebook_code_bytes")})
 

@@ -18,6 +18,8 @@ key.
 
 from __future__ import annotations
 
+import dataclasses
+
 import functools
 import hashlib
 import os
@@ -28,6 +30,7 @@ from typing import Iterable, Iterator, Sequence
 
 from impactscope import __version__
 from impactscope.changes import ChangeList
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.corpus.roots import MAX_FILE_SIZE, Entry, EntryError, Project, archive_stem
 
 KEY_SCHEMA = "2"  # 2: the library source is keyed by content, not by file stamps
@@ -41,18 +44,20 @@ class ScanSettings:
     tool_version: str
     prefilter: bool
     library_digest: str = ""  # content hash of the library source the scan resolves against, if any
+    limits: str = ""  # the reading limits, as their repr: other limits account files otherwise
 
     @classmethod
-    def of(cls, changes: ChangeList, *, prefilter: bool, library: str = "") -> "ScanSettings":
+    def of(cls, changes: ChangeList, *, prefilter: bool, library: str = "",
+           limits: Limits = DEFAULT_LIMITS) -> "ScanSettings":
         """`library` is `scan.library.source_digest` of the change list's source ("" without one):
         editing the library changes what its surface says, so it voids the cache like the change list."""
-        return cls(changes.digest, __version__, prefilter, library)
+        return cls(changes.digest, __version__, prefilter, library, repr(limits))
 
     @property
     def fingerprint(self) -> str:
         text = (
             f"{KEY_SCHEMA}\0{self.changes_digest}\0{self.tool_version}\0{int(self.prefilter)}"
-            f"\0{self.library_digest}"
+            f"\0{self.library_digest}\0{self.limits}"
         )
         return hashlib.sha256(text.encode()).hexdigest()
 
@@ -129,12 +134,12 @@ def held(entry: Entry) -> Entry:
     if not _wants_bytes(entry):
         # Never read by a scan; drop the reader, which may hold an open archive.
         refuse = functools.partial(_raise, EntryError(f"{entry.path}: not kept in memory"))
-        return Entry(entry.path, entry.size, entry.stamp, entry.skip, entry.error, refuse)
+        return dataclasses.replace(entry, read=refuse)
     try:
         read = functools.partial(_give, entry.read())
     except Exception as exc:  # noqa: BLE001 - replayed as it happened
         read = functools.partial(_raise, exc)
-    return Entry(entry.path, entry.size, entry.stamp, entry.skip, entry.error, read)
+    return dataclasses.replace(entry, read=read)
 
 
 def _replay(entries: tuple[Entry, ...]) -> Iterator[Entry]:
@@ -143,7 +148,7 @@ def _replay(entries: tuple[Entry, ...]) -> Iterator[Entry]:
 
 def replayed(project: Project, entries: Iterable[Entry]) -> Project:
     """A picklable project that lists `entries` (already held) again and again."""
-    return Project(project.name, project.origin, functools.partial(_replay, tuple(entries)))
+    return Project(project.name, project.origin, functools.partial(_replay, tuple(entries)), project.limits)
 
 
 __all__ = [

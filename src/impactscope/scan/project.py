@@ -8,7 +8,7 @@ import re
 from dataclasses import dataclass, field
 from typing import Callable
 
-from impactscope.corpus.roots import Project
+from impactscope.corpus.roots import EntryError, Project
 from impactscope.corpus.sources import (
     Source,
     SourceError,
@@ -78,12 +78,18 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             outcomes[entry.path] = FileOutcome(entry.path, "unparsed", entry.error.split(":", 1)[0], entry.error)
             continue
         if entry.skip is not None:
-            outcomes[entry.path] = FileOutcome(entry.path, "skipped", entry.skip)
+            outcomes[entry.path] = FileOutcome(entry.path, "skipped", entry.skip, entry.note)
             continue
         try:
             data = entry.read()
+        except EntryError as exc:  # a damaged member, or a limit reached while reading
+            limit = exc.reason != "unreadable"
+            outcomes[entry.path] = FileOutcome(entry.path, "skipped" if limit else "unparsed", exc.reason,
+                                               _also(entry.note, str(exc)))
+            continue
         except Exception as exc:  # noqa: BLE001 - a damaged member is counted, the scan goes on
-            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", "unreadable", f"{type(exc).__name__}: {exc}")
+            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", "unreadable",
+                                               _also(entry.note, f"{type(exc).__name__}: {exc}"))
             continue
         digest = hashlib.sha256(data).hexdigest()
         kind = "notebook" if entry.path.endswith(".ipynb") else "module"
@@ -92,15 +98,15 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
                 # Full reading (nbformat, IPython's transformer) waits until the prefilter keeps it;
                 # until then only the code is held, not the outputs.
                 data = without_outputs(data)
-                raw_texts[entry.path] = notebook_text(data, entry.path)
+                raw_texts[entry.path] = notebook_text(data, entry.path, limits=project.limits)
                 notebooks[entry.path] = data
             else:
                 sources[entry.path] = read_python(data, entry.path)
         except SourceError as exc:
-            status = "skipped" if exc.reason == "too large" else "unparsed"  # a notebook's code size
-            outcomes[entry.path] = FileOutcome(entry.path, status, exc.reason, exc.detail, digest, kind)
+            status = "skipped" if exc.skipped else "unparsed"  # a notebook's code size
+            outcomes[entry.path] = FileOutcome(entry.path, status, exc.reason, _also(entry.note, exc.detail), digest, kind)
             continue
-        outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, "", digest, kind)
+        outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, entry.note, digest, kind)
 
     texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
     texts.update(raw_texts)
@@ -110,7 +116,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     keep = set(plan.keep)
     for path in sorted(keep & set(notebooks)):
         try:
-            sources[path] = read_notebook(notebooks[path], path)
+            sources[path] = read_notebook(notebooks[path], path, limits=project.limits)
         except SourceError as exc:
             prior = outcomes[path]
             outcomes[path] = FileOutcome(path, "unparsed", exc.reason, exc.detail, prior.digest, prior.kind)
@@ -159,7 +165,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         if path in faults:
             continue
         prior = outcomes[path]
-        outcomes[path] = FileOutcome(path, fa.status, fa.reason, fa.detail, prior.digest, prior.kind)
+        outcomes[path] = FileOutcome(path, fa.status, fa.reason, _also(prior.detail, fa.detail), prior.digest, prior.kind)
         result.findings.extend(fa.findings)
         if fa.reason == "python 2":
             try:
@@ -217,6 +223,11 @@ def _without_deep_cells(source: Source) -> Source | None:
         cells=tuple(cell for cell in source.cells if all(cell is not d for d in deep)),
         skipped_cells=(*source.skipped_cells, *((cell.index, TOO_DEEP) for cell in deep)),
     )
+
+
+def _also(note: str, more: str) -> str:
+    """A file's note (a renamed duplicate, what a limit left out) and what happened to it."""
+    return "; ".join(part for part in (note, more) if part)
 
 
 def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool]:

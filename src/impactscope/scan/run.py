@@ -21,6 +21,7 @@ from pathlib import Path
 from typing import Generator, Iterable, Iterator, Sequence
 
 from impactscope.changes import ChangeList, load_change_list
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.corpus.roots import Entry, Project, archive_stem, check_roots, discover
 from impactscope.scan.cache import (
     ScanSettings,
@@ -88,7 +89,9 @@ class _Tallier:
         self.display.update(self.tally())
 
 
-def count_projects(roots: Sequence[str | os.PathLike[str]], *, single: bool, library: str) -> int | None:
+def count_projects(
+    roots: Sequence[str | os.PathLike[str]], *, single: bool, library: str, limits: Limits = DEFAULT_LIMITS
+) -> int | None:
     """The number of projects, when that is cheap: folder and zip roots list their children
     without reading files; a tar root would have to be streamed whole, so then it is unknown."""
     if single:
@@ -100,7 +103,7 @@ def count_projects(roots: Sequence[str | os.PathLike[str]], *, single: bool, lib
             stem = archive_stem(os.path.basename(location))
             if stem is None or not location.lower().endswith(".zip"):
                 return None
-        total += sum(1 for _ in discover([location], library=library))
+        total += sum(1 for _ in discover([location], library=library, limits=limits))
     return total
 
 
@@ -174,6 +177,7 @@ def run_scan(
     cluster: str | None = None,
     library_source: str | os.PathLike[str] | None = None,
     library_installed: str | None = None,
+    limits: Limits = DEFAULT_LIMITS,
 ) -> ScanSummary:
     """Scan `roots` for the changes in `changes_path` into the results file `out`.
 
@@ -194,16 +198,20 @@ def run_scan(
     workers = jobs if jobs > 0 else (os.cpu_count() or 1)
     text = Path(changes_path).read_text(encoding="utf-8")
     digest = source_digest(changes.source, changes.import_name) if changes.source is not None else ""
-    settings = ScanSettings.of(changes, prefilter=prefilter, library=digest)
+    settings = ScanSettings.of(changes, prefilter=prefilter, library=digest, limits=limits)
     fingerprint = settings.fingerprint
     ignored: list[tuple[str, str]] = []  # root-level items that are not projects
-    found = _nonempty(discover(roots, single=single, library=changes.import_name, ignored=ignored), roots, ignored)
+    found = _nonempty(
+        discover(roots, single=single, library=changes.import_name, ignored=ignored, limits=limits), roots, ignored
+    )
     if fresh:
         store, kept = ResultStore.create(out, changes, text, settings=fingerprint), False
     else:
         store, kept = ResultStore.resume(out, changes, text, settings=fingerprint)
     display = progress if progress is not None else Silent()
-    total = None if isinstance(display, Silent) else count_projects(roots, single=single, library=changes.import_name)
+    total = None if isinstance(display, Silent) else count_projects(
+        roots, single=single, library=changes.import_name, limits=limits
+    )
     tallier = _Tallier(total, display)
     seen: set[str] = set()
     removed = 0
