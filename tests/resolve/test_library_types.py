@@ -454,6 +454,12 @@ def test_an_outcome_that_is_not_the_librarys_leaves_the_receiver_open(query: Que
     """
     # PEP 484 overloads: `load` gives a dict or a Table; a dict has no stack_rows to break.
     assert at(found(query, code), 2, "T-STACK") == "inferred"
+    # Still open after a method that the Table alternative types (the dict's `transpose` is not).
+    code = """
+        import heronframe as hf
+        hf.load("p").transpose().stack_rows(1)
+    """
+    assert at(found(query, code), 2, "T-STACK") == "inferred"
 
 
 def test_a_call_from_another_module_passes_its_arguments(query: Query) -> None:

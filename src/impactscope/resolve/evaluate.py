@@ -1044,8 +1044,13 @@ class ModuleEvaluator:
         if isinstance(func, OneOf) and func.member:
             outcomes: list[str] = []
             for cls in func.classes:
-                outcomes.extend(self.q.model.returns_all(f"{cls}.{func.member}"))
-            return self._instance_of(tuple(dict.fromkeys(outcomes)))
+                dotted = f"{cls}.{func.member}"
+                if cls != _NOT_LIBRARY and self.q.model.knows_kinds and self.q.model.kind(dotted) is None:
+                    continue  # that class has no such member: the code runs only on the others
+                # An alternative that gives no library class keeps the outcome open.
+                outcomes.extend(self.q.model.returns_all(dotted) or (_NOT_LIBRARY,))
+            found = tuple(dict.fromkeys(outcomes))
+            return UNKNOWN if found == (_NOT_LIBRARY,) else self._instance_of(found)
         if isinstance(func, UserClass):
             return UserInst(func)
         if isinstance(func, UserFunc):
