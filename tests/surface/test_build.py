@@ -390,3 +390,29 @@ def test_module_level_instance_attributes_follow_its_class(tmp_path):
     assert s.canonical("lib.show") == "lib.Cal.show"
     assert s.member("lib.c").returns == "lib.Cal"
     assert [p.name for p in s.parameters("lib.show")] == ["year", "month"]
+
+
+def test_an_all_grown_at_run_time_falls_back_to_public_names(tmp_path):
+    # numpy 1.x: `extend_all(module)` appends another module's __all__ when imported; the static
+    # list is then only part of what `from m import *` binds (Language Reference, the import statement).
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": "from .core import *\n",
+        "core.py": (
+            "from .more import *\n__all__ = ['a']\n"
+            "def extend_all(module):\n    for n in module.__all__:\n        __all__.append(n)\n"
+            "def a(): ...\nfrom . import more\nextend_all(more)\n"
+        ),
+        "more.py": "__all__ = ['b']\ndef b(): ...\n",
+    })
+    s = build_surface(root)
+    assert s.member("lib.a") is not None and s.member("lib.b") is not None
+
+
+def test_build_for_drafts_reads_stubs_and_sources(tmp_path):
+    from impactscope.surface.build import build_for_drafts
+
+    root = write_tree(tmp_path / "lib", {"__init__.py": "def f(x):\n    return x\ndef old(): ...\n",
+                                         "__init__.pyi": "def f(x: int) -> int: ...\n"})
+    drafted, scanned = build_for_drafts(root)
+    assert scanned.member("lib.old") is None and drafted.member("lib.old") is not None
+    assert drafted.member("lib.f").parameters == scanned.member("lib.f").parameters

@@ -364,3 +364,41 @@ def test_stub_modules_are_read_from_the_source_beside_them(tmp_path):
         "__init__.pyi": "def old() -> None: ...\n",
     })
     assert [c.member for c in harvest_deprecations(root)] == ["lib.old"]
+
+
+def test_certainty_follows_what_the_message_says_of_when(tmp_path):
+    # PEP 387: a deprecation warns for a while before the removal; a message that names the
+    # release says when, a PendingDeprecationWarning says the deprecation itself is still to come.
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": """
+            import warnings
+
+            def now():
+                msg = "now is deprecated and will be removed in 3.0"
+                warnings.warn(msg, DeprecationWarning)
+
+            def someday():
+                warnings.warn("someday is deprecated", DeprecationWarning)
+
+            def pending():
+                warnings.warn("pending will be removed in 3.0", PendingDeprecationWarning)
+            """,
+    })
+    got = {c.member: c for c in harvest(root, release="3.0").changes}
+    assert got["lib.now"].certainty == "high" and got["lib.now"].note == "now is deprecated and will be removed in 3.0"
+    assert got["lib.someday"].certainty == "medium" and "does not say when" in got["lib.someday"].why
+    assert got["lib.pending"].certainty == "low" and "PendingDeprecationWarning" in got["lib.pending"].why
+    assert {c.member: c.certainty for c in harvest(root).changes}["lib.someday"] == "high"  # no release: only the category
+
+
+def test_a_module_getattr_that_warns_about_a_meaning_drafts_nothing(tmp_path):
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": """
+            import warnings
+            def __getattr__(name):
+                if name == "bool":
+                    warnings.warn("In the future `lib.bool` will be defined as a scalar.", FutureWarning)
+                raise AttributeError(name)
+            """,
+    })
+    assert harvest_deprecations(root) == []

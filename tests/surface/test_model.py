@@ -97,3 +97,16 @@ def test_render_table_lists_every_member(surface):
     assert text.splitlines()[0].startswith("lib: 3 modules, 8 members")
     assert all(name in text for name in surface.members)
     assert "lib.B -> lib.base.B" in text
+
+
+def test_merge_surfaces_keeps_the_names_of_both(tmp_path):
+    from impactscope.surface import build_surface
+    from impactscope.surface.model import merge_surfaces
+
+    from .helpers import write_tree
+
+    stubbed = build_surface(write_tree(tmp_path / "a" / "lib", {"__init__.pyi": "def f(x: int) -> int: ...\nclass C: ...\n"}))
+    source = build_surface(write_tree(tmp_path / "b" / "lib", {"__init__.py": "def f(x):\n    return x\ndef old(): ...\n"}))
+    merged = merge_surfaces(stubbed, source)
+    assert merged.member("lib.f") == stubbed.member("lib.f")  # the first one wins where both say something
+    assert merged.member("lib.old") is not None and merged.member("lib.C") is not None

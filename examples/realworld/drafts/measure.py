@@ -28,7 +28,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
-sys.path.insert(0, str(HERE.parent))  # the corpus benchmark's fetch and unpack helpers
+sys.path.append(str(HERE.parent))  # the corpus benchmark's fetch helpers (after this folder: names clash)
 
 from pypi import DistFile, fetch  # noqa: E402
 
@@ -39,6 +39,7 @@ def _corpus_benchmark():
     spec = importlib.util.spec_from_file_location("realworld_run", HERE.parent / "run.py")
     assert spec is not None and spec.loader is not None
     module = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = module  # dataclasses look their module up there
     spec.loader.exec_module(module)
     return module
 
