@@ -316,3 +316,13 @@ def test_certainty_key() -> None:
     assert [c.uncertain for c in cl.changes] == [False, True]
     message = error(second('id = "HF-2"\nmember = "heronframe.stack"\nkind = "removed"\ncertainty = "sure"\n'))
     assert "#2" in message and "certainty 'sure'" in message and "'high', 'medium', 'low'" in message
+
+
+def test_toml_nested_past_the_parser_is_an_input_error(tmp_path) -> None:
+    """A hostile change list: tomllib recurses per nesting level (RecursionError, not its own error)."""
+    from impactscope.changes import ChangeListError, load_change_list
+
+    path = tmp_path / "deep.toml"
+    path.write_text("x = " + "[" * 100_000 + "]" * 100_000 + "\n")
+    with pytest.raises(ChangeListError, match="nested too deeply"):
+        load_change_list(path)

@@ -124,6 +124,11 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
     except tomllib.TOMLDecodeError as exc:
         # tomllib's message already carries "(at line N, column M)".
         raise ChangeListError(f"{where}: invalid TOML: {exc}") from None
+    except RecursionError:
+        # tomllib reads nested arrays and inline tables recursively: a hostile file can exhaust it.
+        raise ChangeListError(
+            f"{where}: TOML nested too deeply to read; a change list needs no nesting deeper than a few levels"
+        ) from None
 
     unknown = set(data) - _TOP_KEYS
     if unknown:
