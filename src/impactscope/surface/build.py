@@ -9,6 +9,7 @@ something asks for it, so import order and import cycles inside the library do n
 from __future__ import annotations
 
 import ast
+import errno
 import hashlib
 import io
 import os
@@ -16,6 +17,8 @@ import tokenize
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+
+from impactscope.corpus.files import FileRefused, read_regular, refusal
 
 from .model import SELF, Member, Parameter, Problem, Surface, SurfaceError, linearize, merge_surfaces
 
@@ -105,18 +108,29 @@ def discover_modules(source: Path, library: str | None = None, *,
     )
 
 
-def _walk_package(directory: Path, dotted: str, include_tests: bool) -> Iterable[ModuleFile]:
+def _walk_package(directory: Path, dotted: str, include_tests: bool, boundary: str = "") -> Iterable[ModuleFile]:
+    # A folder reached through a link that leads out of the library source, or a FIFO or device
+    # in it, is never entered (corpus.files); a module file that is one is refused when read.
+    boundary = boundary or os.path.realpath(directory)
     files: dict[str, dict[str, Path]] = {}
     subdirs: list[Path] = []
     with os.scandir(directory) as entries:
         for entry in sorted(entries, key=lambda e: e.name):
+            location = entry.path
+            if entry.is_symlink():
+                if refusal(entry.path, boundary, outside=OUTSIDE_LIBRARY) is not None:
+                    if not entry.name.endswith((".py", ".pyi")):
+                        continue  # a folder reached by a link out of the source is never entered
+                    # A module file: listed, so that reading refuses it and the surface says so.
+                else:
+                    location = os.path.realpath(entry.path)  # inside the source: read its target
             if entry.is_dir():
                 if entry.name.isidentifier() and _has_init(Path(entry.path)) and (include_tests or entry.name != "tests"):
                     subdirs.append(Path(entry.path))
                 continue
             stem, dot, suffix = entry.name.rpartition(".")
             if dot and suffix in ("py", "pyi") and stem.isidentifier() and stem != "__main__":
-                files.setdefault(stem, {})[suffix] = Path(entry.path)
+                files.setdefault(stem, {})[suffix] = Path(location)
     init = files.pop("__init__", None)
     if init is None:
         yield ModuleFile(dotted, None, True, False)
@@ -127,10 +141,15 @@ def _walk_package(directory: Path, dotted: str, include_tests: bool) -> Iterable
             continue  # the package wins over a same-named module, as the import system does
         yield ModuleFile(f"{dotted}.{stem}", found.get("pyi", found.get("py")), False, "pyi" in found)
     for sub in subdirs:
-        yield from _walk_package(sub, f"{dotted}.{sub.name}", include_tests)
+        yield from _walk_package(sub, f"{dotted}.{sub.name}", include_tests, boundary)
 
 
 # -- reading one module -------------------------------------------------------------------
+
+# A module larger than this is not read (the largest of pandas 1.5.3, core/generic.py, is 0.43 MB;
+# a generated 20 MB one would cost gigabytes of syntax tree).
+MODULE_BYTES = 5_000_000
+OUTSIDE_LIBRARY = "link outside the library source"
 
 
 class SourceText:
@@ -199,10 +218,13 @@ def iter_parsed(files: Iterable[ModuleFile], problems: list[Problem],
                 yield ParsedModule(f, ast.Module(body=[], type_ignores=[]), SourceText(b""))
             continue
         try:
-            data = f.path.read_bytes()
+            data = read_regular(str(f.path), MODULE_BYTES, reason="module too large", outside=OUTSIDE_LIBRARY)
             if wanted is not None and not wanted(data):
                 continue
             tree = ast.parse(data, filename=str(f.path))
+        except FileRefused as exc:
+            problems.append(Problem(f.name, str(f.path), f"not read: {exc.detail}"))
+            continue
         except SyntaxError as exc:
             problems.append(Problem(f.name, str(f.path), f"syntax error at line {exc.lineno}: {exc.msg}"))
             continue
@@ -213,6 +235,9 @@ def iter_parsed(files: Iterable[ModuleFile], problems: list[Problem],
             problems.append(Problem(f.name, str(f.path), "nested too deeply to parse"))
             continue
         except OSError as exc:
+            if exc.errno == errno.ELOOP:  # opened without following a link: one leading out
+                problems.append(Problem(f.name, str(f.path), f"not read: {OUTSIDE_LIBRARY}"))
+                continue
             problems.append(Problem(f.name, str(f.path), f"cannot read the file: {exc.strerror or exc}"))
             continue
         yield ParsedModule(f, tree, SourceText(data))
