@@ -10,6 +10,7 @@ or usage. A bad input prints one clear message (what, where, how to fix) and no 
 from __future__ import annotations
 
 import json
+import os
 import sqlite3
 import subprocess
 import sys
@@ -280,3 +281,45 @@ def test_a_limit_given_on_the_command_line_skips_with_its_reason(tmp_path) -> No
     report = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).output)
     assert report["totals"]["files_skipped"] == 1 and report["totals"]["files_parsed"] == 1
     assert {f["file"] for f in report["findings"]} == {"small.py"}
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs FIFOs")
+def test_a_change_list_from_a_pipe_is_read_once_and_kept_for_report(tmp_path) -> None:
+    """`impactscope scan <(cat changes.toml) ...`: a pipe gives its text once; `report` then
+    reads the list the results file keeps, never the path."""
+    import json
+    import threading
+
+    from typer.testing import CliRunner
+
+    from impactscope.cli import app
+
+    text = '[library]\nname = "heronframe"\n\n[[change]]\nid = "S"\nmember = "heronframe.stack"\nkind = "removed"\n'
+    pipe = tmp_path / "changes.toml"
+    os.mkfifo(pipe)
+    (tmp_path / "corpus" / "p").mkdir(parents=True)
+    (tmp_path / "corpus" / "p" / "a.py").write_text("import heronframe\nheronframe.stack()\n")
+    out = tmp_path / "r.sqlite"
+
+    def write_once() -> None:
+        with open(pipe, "w") as handle:
+            handle.write(text)
+
+    writer = threading.Thread(target=write_once, daemon=True)
+    writer.start()
+    outcome: list[object] = []
+    runner = CliRunner()
+    scan = threading.Thread(
+        target=lambda: outcome.append(
+            runner.invoke(app, ["scan", str(pipe), str(tmp_path / "corpus"), "--out", str(out), "--jobs", "1"])
+        ),
+        daemon=True,
+    )
+    scan.start()
+    scan.join(60)
+    assert not scan.is_alive(), "the scan read the pipe a second time and blocked"
+    assert outcome[0].exit_code == 0, outcome[0].output  # type: ignore[attr-defined]
+    os.unlink(pipe)
+    report = runner.invoke(app, ["report", str(out), "--format", "json"])
+    assert report.exit_code == 0, report.output
+    assert [f["change"] for f in json.loads(report.output)["findings"]] == ["S"]

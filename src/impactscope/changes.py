@@ -81,6 +81,9 @@ class ChangeList:
     digest: str = ""
     modules: tuple[str, ...] = ()  # the library's top-level modules; () means (import_name,)
     path: Path | None = field(default=None, compare=False)  # the file it was read from, for messages
+    # The text it was read from, kept so that it is read once: the results file stores it, and
+    # the path may be a pipe (`<(...)`) or a file that is gone by the time `report` runs.
+    text: str = field(default="", compare=False, repr=False)
 
     @property
     def top_modules(self) -> frozenset[str]:
@@ -198,6 +201,7 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
         digest=hashlib.sha256(raw).hexdigest(),
         modules=modules,
         path=path,
+        text=raw.decode("utf-8"),
     )
 
 

@@ -196,7 +196,7 @@ def run_scan(
     if cluster is not None and not cluster.strip():
         raise ScanOptionError("--cluster needs a scheduler address such as tcp://host:8786, or `local`")
     workers = jobs if jobs > 0 else (os.cpu_count() or 1)
-    text = Path(changes_path).read_text(encoding="utf-8")
+    text = changes.text  # read once, with the list: a pipe cannot be read twice
     digest = source_digest(changes.source, changes.import_name) if changes.source is not None else ""
     settings = ScanSettings.of(changes, prefilter=prefilter, library=digest, limits=limits)
     fingerprint = settings.fingerprint
