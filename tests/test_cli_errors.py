@@ -323,3 +323,35 @@ def test_a_change_list_from_a_pipe_is_read_once_and_kept_for_report(tmp_path) ->
     report = runner.invoke(app, ["report", str(out), "--format", "json"])
     assert report.exit_code == 0, report.output
     assert [f["change"] for f in json.loads(report.output)["findings"]] == ["S"]
+
+
+def test_another_programs_sqlite_file_is_refused_in_one_line(tmp_path) -> None:
+    path = tmp_path / "other.sqlite"
+    db = sqlite3.connect(path)
+    db.execute("CREATE TABLE meta (key TEXT, value TEXT)")
+    db.execute("CREATE TABLE findings (a)")
+    db.execute("INSERT INTO meta VALUES ('library', 'x')")
+    db.commit()
+    db.close()
+    done = subprocess.run([sys.executable, "-m", "impactscope.cli", "report", str(path)], capture_output=True, text=True)
+    assert done.returncode == 2, done.stderr
+    assert "not an impactscope results file" in done.stderr and "Traceback" not in done.stderr
+
+
+def test_a_bug_is_reported_as_one_and_exits_3(monkeypatch, capsys) -> None:
+    """DESIGN.md, exit codes: 3 is an internal error; the traceback only with --debug."""
+    from impactscope import cli
+
+    def broken(*args, **kwargs):
+        raise KeyError("boom")
+
+    monkeypatch.setattr("impactscope.store.ResultStore.open", broken)
+    monkeypatch.setattr(sys, "argv", ["impactscope", "report", "whatever.sqlite"])
+    with pytest.raises(SystemExit) as stopped:
+        cli.main()
+    assert stopped.value.code == 3
+    err = capsys.readouterr().err
+    assert "internal error" in err and "KeyError" in err and "Traceback" not in err
+    monkeypatch.setattr(sys, "argv", ["impactscope", "--debug", "report", "whatever.sqlite"])
+    with pytest.raises(KeyError):
+        cli.main()

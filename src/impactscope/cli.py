@@ -283,7 +283,24 @@ def demo(
 
 
 def main() -> None:
-    app()
+    """Run the command line. An exception that is not an input error is a bug of impactscope's:
+    one line that says so and asks for a report, exit 3; `--debug` shows the traceback."""
+    debug = "--debug" in sys.argv[1:]
+    if debug:
+        sys.argv.remove("--debug")
+    try:
+        app()
+    except Exception as exc:  # noqa: BLE001 - input errors were handled by the commands (exit 2)
+        if debug:
+            raise
+        message = " ".join(str(exc).split())[:300]
+        typer.echo(
+            f"impactscope: internal error (a bug in impactscope, not in your input): {type(exc).__name__}"
+            f"{': ' + message if message else ''}; please report it with the command you ran "
+            "(add --debug to see the traceback)",
+            err=True,
+        )
+        raise SystemExit(3) from None
 
 
 if __name__ == "__main__":

@@ -22,6 +22,9 @@ from impactscope.findings import Confidence, Finding
 from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
 from impactscope.scan.project import FileOutcome, ProjectResult
 
+# What every results file this version writes holds in `meta`, and `report` reads.
+_REQUIRED_META = frozenset({"library", "tool_version", "changes_toml"})
+
 SCHEMA = """
 CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
 CREATE TABLE IF NOT EXISTS projects (
@@ -163,9 +166,18 @@ class ResultStore:
             raise StoreError(f"{p}: no such results file; run `impactscope scan CHANGES ROOT --out {p}` first")
         try:
             db = sqlite3.connect(f"file:{p}?mode=ro", uri=True)
-            db.execute("SELECT value FROM meta WHERE key = 'library'").fetchone()
+            keys = {row[0] for row in db.execute("SELECT key FROM meta")}
+            db.execute("SELECT 1 FROM findings LIMIT 1").fetchone()
         except sqlite3.DatabaseError as exc:
             raise StoreError(f"{p}: not an impactscope results file ({exc}); pass the file `scan --out` wrote") from None
+        missing = sorted(_REQUIRED_META - keys)
+        if missing:
+            db.close()
+            # Another program's SQLite file, or one from a version before these keys.
+            raise StoreError(
+                f"{p}: not an impactscope results file, or one from an older version (it lacks "
+                f"{', '.join(missing)}); scan again with `impactscope scan CHANGES ROOT --out {p} --fresh`"
+            )
         return cls(p, db)
 
     def close(self) -> None:
