@@ -6,9 +6,9 @@ The downstream code is the corpus benchmark's pinned packages (examples/realworl
 fetched and unpacked by its own helpers into `<work>/corpus`): the pandas ones for pandas, the
 networkx ones for networkx, and all of them for numpy, which both sets use. Each draft is scanned
 without an edit (`impactscope scan DRAFT ROOT --jobs 1`). Then every change with a finding is
-checked on an independent reading of the two wheels (score.py): a finding on an entry whose
-claim that reading does not show (the member or parameter is still there, the default did not
-change) is a finding on an unchanged member. Reported per draft: entries with findings,
+checked as score.py checks a draft's entries: one that the release notes document, or whose
+claim an independent reading of the two wheels shows, is right; a finding on any other entry (the
+member or parameter is still there, the default did not change) is a finding on an unchanged member. Reported per draft: entries with findings,
 projects and sites at `resolved`, and how many of them fall on unchanged members, kept apart by
 certainty (low-certainty entries are upper bounds by design).
 """
@@ -27,7 +27,9 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 
 from measure import load_libraries, source_of  # noqa: E402
-from score import read, verified  # noqa: E402
+from score import documented, read, verified  # noqa: E402
+
+from impactscope.surface.build import build_for_drafts  # noqa: E402
 
 IMPACTSCOPE = [sys.executable, "-c", "from impactscope.cli import main; main()"]
 
@@ -49,25 +51,32 @@ def roots_for(library: str, corpus: Path) -> list[Path]:
     return sorted(p for p in projects.iterdir() if p.is_dir())  # numpy: every downstream set
 
 
-def check(lib, work: Path, corpus: Path, what: str) -> dict:
+def check(lib, work: Path, corpus: Path, what: str, reuse: bool = False) -> dict:
     draft = work / "drafts" / f"{lib.name}-{what}.toml"
     out = work / "scans" / f"{lib.name}-{what}.sqlite"
     out.parent.mkdir(parents=True, exist_ok=True)
     command = [*IMPACTSCOPE, "scan", str(draft), *map(str, roots_for(lib.name, corpus)), "--out", str(out),
                "--jobs", "1", "--fresh", "--quiet"]
-    done = subprocess.run(command, capture_output=True, text=True)
-    if done.returncode != 0:
-        return {"scan_exit": done.returncode, "error": done.stderr.strip()[-600:]}
+    if not (reuse and out.exists() and out.stat().st_mtime > draft.stat().st_mtime):
+        done = subprocess.run(command, capture_output=True, text=True)
+        if done.returncode != 0:
+            return {"scan_exit": done.returncode, "error": done.stderr.strip()[-600:]}
     report = json.loads(subprocess.run([*IMPACTSCOPE, "report", str(out), "--format", "json"],
                                        capture_output=True, text=True, check=True).stdout)
     entries = {c["id"]: c for c in tomllib.loads(draft.read_text(encoding="utf-8"))["change"]}
     old_pkg, new_pkg = source_of(work, lib, "old"), source_of(work, lib, "new")
     old, new = read(old_pkg), read(new_pkg)
+    items = tomllib.loads(lib.documented.read_text(encoding="utf-8"))["item"]
+    surface, _ = build_for_drafts(old_pkg, lib.name)
+
+    def right(entry: dict) -> bool:
+        return documented(entry, items, surface.canonical) or verified(entry, old, new)
+
     result = {"projects_using_library": report["totals"]["projects_using_library"]}
     for tier in ("sure", "low"):
         hit = [c for c in report["changes"] if c["projects"]["resolved"]
                and (entries[c["id"]].get("certainty") == "low") == (tier == "low")]
-        unchanged = [c for c in hit if not verified(entries[c["id"]], old, new, old_pkg, new_pkg)]
+        unchanged = [c for c in hit if not right(entries[c["id"]])]
         result[tier] = {
             "entries_with_findings": len(hit),
             "projects_resolved": len({f["project"] for f in report["findings"] if f["confidence"] == "resolved"
@@ -79,7 +88,7 @@ def check(lib, work: Path, corpus: Path, what: str) -> dict:
     return result
 
 
-def scan_all(libraries, work: Path) -> dict:
+def scan_all(libraries, work: Path, reuse: bool = False) -> dict:
     corpus = work / "corpus"
     run = _corpus_benchmark()
     benchmark = run.load_corpus()
@@ -89,7 +98,7 @@ def scan_all(libraries, work: Path) -> dict:
     figures = {}
     for lib in libraries:
         for what in ("compare", "harvest"):
-            figures[f"{lib.name}-{what}"] = found = check(lib, work, corpus, what)
+            figures[f"{lib.name}-{what}"] = found = check(lib, work, corpus, what, reuse)
             if "error" in found:
                 print(f"{lib.name:9} {what:8} scan failed ({found['scan_exit']}): {found['error']}")
                 continue
@@ -105,8 +114,9 @@ def scan_all(libraries, work: Path) -> dict:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--work", type=Path, required=True)
+    parser.add_argument("--reuse", action="store_true", help="keep a scan's results when they are newer than its draft")
     args = parser.parse_args(argv)
-    scan_all(load_libraries(), args.work.resolve())
+    scan_all(load_libraries(), args.work.resolve(), args.reuse)
     return 0
 
 

@@ -58,6 +58,7 @@ class Reading:
     stars: dict[str, list[str]] = field(default_factory=dict)
     classes: dict[str, tuple[set[str], list[str]]] = field(default_factory=dict)
     defs: dict[str, list[dict[str, str | None]]] = field(default_factory=dict)  # "Cls.f" and "f" -> [{param: default}]
+    positional: dict[str, list[list[str]]] = field(default_factory=dict)  # "f" -> positional parameter names, per def
     returns: dict[str, set[str]] = field(default_factory=dict)
 
     def binds(self, module: str, name: str, seen: frozenset[str] = frozenset()) -> bool:
@@ -85,19 +86,20 @@ class Reading:
             return []
         return [cls, *(c for b in self.classes[cls][1] for c in self.mro(b, seen | {cls}))]
 
-    def signatures(self, dotted: str) -> list[dict[str, str | None]]:
+    def signatures(self, dotted: str, table: str = "defs") -> list:
         """Signatures of `dotted`: a method through its class's bases, a class by its __init__/__new__,
         else every function of that name (an over-approximation, which only makes checks stricter)."""
+        found_in: dict = getattr(self, table)
         parts = dotted.split(".")
         owner, last = (parts[-2] if len(parts) > 1 else ""), parts[-1]
         for cls in self.mro(owner):
-            if f"{cls}.{last}" in self.defs:
-                return self.defs[f"{cls}.{last}"]
+            if f"{cls}.{last}" in found_in:
+                return found_in[f"{cls}.{last}"]
         for cls in self.mro(last):
-            found = self.defs.get(f"{cls}.__init__", []) + self.defs.get(f"{cls}.__new__", [])
+            found = found_in.get(f"{cls}.__init__", []) + found_in.get(f"{cls}.__new__", [])
             if found:
                 return found
-        return self.defs.get(last, [])
+        return found_in.get(last, [])
 
 
 def _absolute(module: str, node: ast.ImportFrom, is_package: bool) -> str:
@@ -188,6 +190,8 @@ def _signature(out: Reading, key: str, node: ast.FunctionDef | ast.AsyncFunction
                     params.setdefault(k.value.value, "<accepted by a decorator>")
     for k in {key, key.rpartition(".")[2]}:
         out.defs.setdefault(k, []).append(params)
+    for k in {key, key.rpartition(".")[2]}:
+        out.positional.setdefault(k, []).append([x.arg for x in positional])
     if node.returns is not None:
         out.returns.setdefault(key, set()).add(ast.unparse(node.returns))
 
@@ -203,7 +207,7 @@ def _value(text: str | None) -> object:
         return ("text", text.rpartition(".")[2])
 
 
-def verified(entry: dict, old: Reading, new: Reading, old_pkg: Path, new_pkg: Path) -> bool:
+def verified(entry: dict, old: Reading, new: Reading) -> bool:
     """The entry's claim, checked on the independent reading of both versions."""
     member, kind = entry["member"], entry["kind"]
     if kind in GONE:
@@ -211,8 +215,8 @@ def verified(entry: dict, old: Reading, new: Reading, old_pkg: Path, new_pkg: Pa
     old_sigs, new_sigs = old.signatures(member), new.signatures(member)
     p = entry.get("parameter")
     if kind in PARAMETER:
-        if "keyword only" in entry["note"] or "changed order" in entry["note"]:
-            return keyword_only_verified(entry, old_pkg, new_pkg)
+        if any(w in entry["note"] for w in ("keyword only", "changed order", "by position")):
+            return keyword_only_verified(entry, old, new)
         return any(p in s for s in old_sigs) and not any(p in s for s in new_sigs)
     if kind == "default-changed":
         if not any(p in s for s in old_sigs):
@@ -220,31 +224,29 @@ def verified(entry: dict, old: Reading, new: Reading, old_pkg: Path, new_pkg: Pa
         before = {_value(s[p]) for s in old_sigs if p in s} - {None}
         after = {_value(s[p]) for s in new_sigs if p in s} - {None}
         return bool(before) and bool(after) and not (before & after)
+    if kind == "behaviour-changed" and member in old.names:
+        # a module that no longer defines names it did (what a folded shim entry says)
+        return bool(old.names[member] - new.names.get(member, set()))
     if kind == "behaviour-changed":
         key = ".".join(member.split(".")[-2:])
         return old.returns.get(key, set()) != new.returns.get(key, set())
     return False
 
 
-def keyword_only_verified(entry: dict, old_pkg: Path, new_pkg: Path) -> bool:
+def keyword_only_verified(entry: dict, old: Reading, new: Reading) -> bool:
     """For a positional slot that went (keyword-only or reordered): the parameter's position differs."""
-    def positions(package: Path) -> list[int | None]:
-        found = []
-        name = entry["member"].rpartition(".")[2]
-        for path in package.rglob("*.py"):
-            try:
-                tree = ast.parse(path.read_bytes())
-            except (SyntaxError, ValueError):
-                continue
-            for node in ast.walk(tree):
-                if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)) and node.name == name:
-                    names = [x.arg for x in (*node.args.posonlyargs, *node.args.args)]
-                    found.append(names.index(entry["parameter"]) if entry["parameter"] in names else None)
-        return found
-    return set(positions(old_pkg)) != set(positions(new_pkg))
+    def positions(reading: Reading) -> set[int | None]:
+        p = entry["parameter"]
+        return {names.index(p) if p in names else None for names in reading.signatures(entry["member"], "positional")}
+    return positions(old) != positions(new)
 
 
 # -- scoring ------------------------------------------------------------------------------------
+
+
+def documented(entry: dict, items: list[dict], canonical) -> bool:
+    """The entry covers a documented item, or a documented item covers it."""
+    return any(covers(entry, it, canonical) or covers({**it, "parameter": None}, {**entry}, canonical) for it in items)
 
 
 def covers(entry: dict, item: dict, canonical) -> bool:
@@ -284,8 +286,15 @@ def score_library(lib, work: Path) -> dict:
         high = [e for e in entries if e.get("certainty") == top]
         documented = [e for e in high if any(covers(e, it, canonical) or covers({**it, "parameter": None}, {**e}, canonical)
                                              for it in items)]
-        checked = [e for e in high if e not in documented and verified(e, old, new, old_pkg, new_pkg)]
+        checked = [e for e in high if e not in documented and verified(e, old, new)]
         wrong = [e for e in high if e not in documented and e not in checked]
+
+        def right(e: dict) -> bool:
+            return any(covers(e, it, canonical) or covers({**it, "parameter": None}, {**e}, canonical) for it in items) \
+                or verified(e, old, new)
+
+        tiers = {c: [e for e in entries if e.get("certainty") == c] for c in ("high", "medium", "low")}
+        right_by = {c: round(sum(map(right, es)) / len(es), 3) for c, es in tiers.items() if es}
         out[what] = {
             "entries": len(entries),
             "by_certainty": dict(Counter(e.get("certainty") for e in entries)),
@@ -299,6 +308,7 @@ def score_library(lib, work: Path) -> dict:
             "high_documented": len(documented),
             "high_verified": len(checked),
             "high_right": round((len(documented) + len(checked)) / len(high), 3) if high else None,
+            "right_by_certainty": right_by,
             "high_wrong": [f"{e['kind']} {e['member']}" + (f" ({e['parameter']})" if e.get("parameter") else "") for e in wrong],
             "private_or_scaffolding": [e["member"] for e in entries if private(e["member"])],
         }
@@ -322,7 +332,8 @@ def main(argv: list[str] | None = None) -> int:
                 continue
             print(f"  {what:8} {s['entries']:4} entries {s['by_certainty']}; recall {s['recall']} "
                   f"(readable {s['recall_readable']}); {s['highest']} right {s['high_right']} "
-                  f"({s['high_documented']} documented + {s['high_verified']} verified of {s['high']}); "
+                  f"({s['high_documented']} documented + {s['high_verified']} verified of {s['high']}; by certainty "
+                  f"{s['right_by_certainty']}); "
                   f"private/scaffolding {len(s['private_or_scaffolding'])}")
             if args.verbose:
                 for line in s["missed"]:

@@ -629,8 +629,11 @@ class _Comparison:
         old ones (a refinement, `X` -> `X | None`, or a rewording, `Iterator` -> `Generator`, is not drafted)."""
         if old.kind not in _CALLABLE or new.kind not in _CALLABLE or not old.annotation or not new.annotation:
             return
-        before = {c.rpartition(".")[2] for c in (old.returns_all or ((old.returns,) if old.returns else ()))}
-        after = {c.rpartition(".")[2] for c in (new.returns_all or ((new.returns,) if new.returns else ()))}
+        # The old classes as the new version knows them: a class renamed with an alias kept
+        # (numpy 2: `bool_` is `bool`) is the same class.
+        before = {self.new.canonical(p) for c in (old.returns_all or ((old.returns,) if old.returns else ()))
+                  for p in (self.old.public_paths(c) or (c,))}
+        after = set(new.returns_all or ((new.returns,) if new.returns else ()))
         names_before, names_after = annotation_types(old.annotation), annotation_types(new.annotation)
         if not before or not after or before & after or names_before is None or names_after is None \
                 or names_before & names_after:

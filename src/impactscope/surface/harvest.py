@@ -38,7 +38,6 @@ from __future__ import annotations
 import ast
 import re
 import string
-from collections import Counter
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -821,6 +820,11 @@ class _Harvester:
             self._module_getattr(module, unit)
             return
         defaults = unit.defaults()
+        if any(isinstance(d, ast.Attribute) and d.attr in ("setter", "deleter") for d in unit.node.decorator_list):
+            # `@x.setter` that warns: setting goes, reading stays; no entry kind says that.
+            if self._warnings(module, unit):
+                self._unread(target, f"{name} is set (the property's setter warns)", unit.node.lineno)
+            return
         # (template, meaning, mechanism, helper or None, line)
         found: list[tuple[_Template | None, _Meaning, str, str | None, int]] = []
         for w in self._warnings(module, unit):
@@ -1195,6 +1199,3 @@ def harvest_deprecations(source: Path | str, library: str | None = None, *, rele
     """The draft entries of `harvest` (see there)."""
     return list(harvest(source, library, release=release, include_private=include_private, surface=surface).changes)
 
-
-def counted(changes: Iterable[HarvestedChange]) -> Counter[str]:
-    return Counter(c.kind for c in changes)
