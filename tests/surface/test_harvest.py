@@ -402,3 +402,28 @@ def test_a_module_getattr_that_warns_about_a_meaning_drafts_nothing(tmp_path):
             """,
     })
     assert harvest_deprecations(root) == []
+
+
+def test_a_guard_above_the_warning_and_a_test_with_more_in_it(tmp_path):
+    root = write_tree(tmp_path / "lib", {
+        "__init__.py": """
+            import warnings
+
+            class Series:
+                def __init__(self, data=None, dtype=None, fastpath=False):
+                    if fastpath:
+                        return
+                    if _is_empty(data) and dtype is None:
+                        warnings.warn("The default dtype for empty Series will change", FutureWarning)
+
+            def fast(x, fastpath=False):
+                if fastpath:
+                    return x
+                warnings.warn("fast is deprecated", FutureWarning)
+            """,
+    })
+    got = {(c.member, c.kind, c.parameter): c for c in harvest(root).changes}
+    # The warning's own test names `dtype`; `fastpath` only guards the usual path.
+    series = got[("lib.Series", "default-changed", "dtype")]
+    assert series.certainty == "low" and "depends on the rest of its test" in series.why
+    assert ("lib.fast", "removed", None) in got  # a guard that keeps a flag at its default: the member goes

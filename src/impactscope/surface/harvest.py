@@ -59,7 +59,8 @@ _LEAD = re.compile(r"\b(?:use|in favou?r of|replaced (?:by|with)|renamed to|move
 _TOKEN = re.compile(r"[A-Za-z_.][\w.]*")
 # "in a future version this will return a view", "will be a logical operation": what changes is behaviour.
 _BEHAVIOUR = re.compile(r"\bwill (?:now |instead )?(?:return|change|behave|be a logical|default to|be treated|be interpreted|be defined|"
-                        r"include|exclude|match|keep|no longer|be the same|be consistent|always|retain|preserve)", re.IGNORECASE)
+                        r"include|exclude|match|keep|no longer|be the same|be consistent|always|retain|preserve)|"
+                        r"\bis expected to\b|\bmay therefore change\b", re.IGNORECASE)
 _GOES = re.compile(r"\b(?:will be removed|removed in|be dropped|no longer be (?:available|supported))\b", re.IGNORECASE)
 _LATER = re.compile(r"\b(?:removed|dropped|deleted|gone|disallowed|raise|error|expire[sd]?)\b[^.]*?\b(?:in|by|from|with|after)\s+"
                     r"(?:\w+\s+){0,2}v?(\d+\.\d+(?:\.\d+)?)", re.IGNORECASE)
@@ -234,6 +235,7 @@ class _Meaning:
     key: str | ast.expr | None = None
     rename: str | None = None
     condition: str = ""
+    partial: bool = False  # the warning also needs something else (`dtype is None and data is empty`)
 
 
 def _frame_of(stack: tuple[ast.AST, ...]) -> ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda | None:
@@ -283,23 +285,46 @@ def _meaning(conditions: tuple[ast.expr, ...], frame: ast.AST | None, defaults: 
     """What the conditions around a warning say it is about (see `_Meaning`). `defaults` maps the
     parameters of the function the warning is in to their default's text (None: required); in a
     `helper`, a parameter stands for a caller's argument, whose default it does not know."""
+    own = [c for c in conditions if not getattr(c, "guard", False)]
+    guards = [c for c in conditions if getattr(c, "guard", False)]
     if not conditions:
         return _Meaning("member")
-    shown = " and ".join(ast.unparse(c) for c in conditions)
     args = getattr(frame, "args", None)
     var_pos = args.vararg.arg if args is not None and args.vararg is not None else None
     var_kw = args.kwarg.arg if args is not None and args.kwarg is not None else None
     sources = _kw_sources(frame, var_kw) if frame is not None else {}
-    found: _Meaning | None = None
-    for test in conditions:
-        for node in _conjuncts(test):
-            m = _one(node, var_pos, var_kw, sources, defaults, helper)
-            if m is not None and (found is None or _RANK[m.kind] < _RANK[found.kind]):
-                found = m
+
+    def best(tests: list[ast.expr]) -> tuple[_Meaning | None, bool]:
+        found: _Meaning | None = None
+        unread = False
+        keys: set[str] = set()
+        for test in tests:
+            for node in _conjuncts(test):
+                m = _one(node, var_pos, var_kw, sources, defaults, helper)
+                if m is None:
+                    unread = True
+                    continue
+                keys.add(ast.dump(m.key) if isinstance(m.key, ast.AST) else repr(m.key))
+                if found is None or _RANK[m.kind] < _RANK[found.kind]:
+                    found = m
+        return found, unread or len(keys) > 1  # a test on two parameters: an entry names only one
+
+    # The warning's own tests first; an early return above it (`if p is None: return`) only when
+    # they say nothing. A guard that keeps a parameter at its default (`if fast: return`) marks
+    # the usual path: the member itself is what the warning is about.
+    found, unread = best(own)
+    shown = " and ".join(ast.unparse(c) for c in own or guards)
+    if found is None and guards:
+        found, _ = best(guards)
+        unread = False
+        if found is not None and found.kind == "left-out":
+            return _Meaning("member")
+        if found is None and not own:
+            return _Meaning("member")
     if found is None:
         return _Meaning("other", condition=shown)
     rename = _renames(frame, var_kw, found.key) if found.kind == "keyword" and frame is not None else None
-    return _Meaning(found.kind, found.key, rename, shown)
+    return _Meaning(found.kind, found.key, rename, shown, partial=unread)
 
 
 _RANK = {"positional": 0, "keyword": 1, "passed": 2, "left-out": 3}
@@ -444,7 +469,9 @@ def _sites(body: Iterable[ast.AST], conditions: tuple[ast.expr, ...], stack: tup
         yield from _visit(node, conditions, stack)
         if isinstance(node, ast.If) and not node.orelse and _leaves(node.body):
             # `if p is None: return ...` guards the rest: it runs only when the test is false.
-            conditions = (*conditions, ast.UnaryOp(ast.Not(), node.test))
+            guard = ast.UnaryOp(ast.Not(), node.test)
+            guard.guard = True  # type: ignore[attr-defined]  # read after the warning's own tests (_meaning)
+            conditions = (*conditions, guard)
 
 
 def _leaves(body: list[ast.stmt]) -> bool:
@@ -880,6 +907,8 @@ class _Harvester:
                   mechanism: str, helper: str | None, line: int) -> None:
         direct = helper is None
         how = "calls warnings.warn with a deprecation category" if direct else f"uses the deprecation {mechanism}"
+        # The scan would count every such call; only those that meet the rest of the test are hit.
+        partial = meaning.partial and meaning.kind in ("passed", "left-out", "keyword")
         if meaning.kind == "member":
             literal = template.text if template is not None else ""
             if _BEHAVIOUR.search(literal) and not _GOES.search(literal):
@@ -910,12 +939,12 @@ class _Harvester:
                           f"{how}, which warns when the keyword `{meaning.key}` is passed and passes its value on as "
                           f"`{meaning.rename}`", fallback=f"`{meaning.key}` of {target} is deprecated; use `{meaning.rename}`",
                           parameter=meaning.key, new_parameter=meaning.rename, position=position,
-                          announces="parameter-renamed")
+                          announces="parameter-renamed", partial=partial)
                 return
             self._add(target, module.name, line, mechanism, template, "medium",
                       f"{how}, which warns when the keyword `{meaning.key}` is passed",
                       fallback=f"`{meaning.key}` of {target} is deprecated", parameter=meaning.key, position=position,
-                      announces="parameter-removed")
+                      announces="parameter-removed", partial=partial)
             return
         if meaning.kind in ("passed", "left-out") and isinstance(meaning.key, str):
             position = next((p.position for p in self.surface.parameters(target) or () if p.name == meaning.key), None)
@@ -923,12 +952,12 @@ class _Harvester:
                 self._add(target, module.name, line, mechanism, template, "medium",
                           f"{how} when `{meaning.key}` is passed ({meaning.condition})",
                           fallback=f"`{meaning.key}` of {target} is deprecated", parameter=meaning.key, position=position,
-                          announces="parameter-removed")
+                          announces="parameter-removed", partial=partial)
             else:
                 self._add(target, module.name, line, mechanism, template, "medium",
                           f"{how} when `{meaning.key}` is left at its default ({meaning.condition}): the default changes",
                           fallback=f"the default of `{meaning.key}` of {target} changes", parameter=meaning.key,
-                          position=position, announces="default-changed")
+                          position=position, announces="default-changed", partial=partial)
             return
         self._unread(target, meaning.condition or "a condition", line)
 
@@ -939,18 +968,19 @@ class _Harvester:
 
     def _add(self, canonical: str, module: str, line: int, mechanism: str, template: _Template | None, certainty: str,
              why: str, *, fallback: str, parameter: str | None = None, position: int | None = None,
-             replacement: str | None = None, new_parameter: str | None = None, announces: str = "removed") -> None:
+             replacement: str | None = None, new_parameter: str | None = None, announces: str = "removed",
+             partial: bool = False) -> None:
         paths = self.scope.paths(self.surface, canonical)
         if not paths:
             return  # not something downstream code may name
         self._add_path(paths[0], canonical, module, line, mechanism, template, certainty, why, fallback=fallback,
                        parameter=parameter, position=position, replacement=replacement, new_parameter=new_parameter,
-                       announces=announces)
+                       announces=announces, partial=partial)
 
     def _add_path(self, path: str, canonical: str | None, module: str, line: int, mechanism: str,
                   template: _Template | None, certainty: str, why: str, *, fallback: str, parameter: str | None = None,
                   position: int | None = None, replacement: str | None = None, new_parameter: str | None = None,
-                  announces: str = "removed") -> None:
+                  announces: str = "removed", partial: bool = False) -> None:
         note = _note(template, fallback)
         evidence = ["deprecation warning" if mechanism != "@deprecated (PEP 702)" else "PEP 702 decorator"]
         if template is not None and not template.literal:
@@ -961,6 +991,8 @@ class _Harvester:
         if replacement is not None:
             evidence.append(f"the message names {replacement}")
         certainty, why = self._when(template, literal, certainty, why)
+        if partial:
+            certainty, why = "low", f"{why}; the warning also depends on the rest of its test, so a scan overcounts"
         kind = {"removed": "removed", "parameter-renamed": "parameter-renamed", "default-changed": "default-changed",
                 "behaviour-changed": "behaviour-changed"}.get(announces, "parameter-removed")
         change = HarvestedChange(path, kind, note, certainty, f"{why}; {_GUESS}", self.surface.module_of(module) or module,
