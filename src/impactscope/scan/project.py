@@ -67,6 +67,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     notebooks: dict[str, bytes] = {}
     order: list[str] = []
     faults: dict[str, str] = {}  # files whose analysis failed unexpectedly: their one-line detail
+    token_level: set[str] = set()  # files read at token level: Python 2, or nested too deeply
     for entry in project.entries():
         order.append(entry.path)
         if entry.error is None and entry.size < 2_000_000 and _is_manifest(entry.path, entry.size):
@@ -143,10 +144,11 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             continue
         if deep is None:
             prior = outcomes[path]
-            outcomes[path] = FileOutcome(path, "unparsed", TOO_DEEP, "nested deeper than Python's parser allows",
-                                         prior.digest, prior.kind)
+            outcomes[path] = FileOutcome(path, "unparsed", TOO_DEEP, "nested too deeply to parse safely; "
+                                         "read at token level", prior.digest, prior.kind)
             del sources[path]
             keep.discard(path)
+            token_level.add(path)
         else:
             sources[path] = deep
     # A file that failed before the resolver is no module of the project for the others either.
@@ -167,14 +169,16 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         prior = outcomes[path]
         outcomes[path] = FileOutcome(path, fa.status, fa.reason, _also(prior.detail, fa.detail), prior.digest, prior.kind)
         result.findings.extend(fa.findings)
-        if fa.reason == "python 2":
-            try:
-                result.findings.extend(_legacy_findings(project.name, path, texts[path], query))
-            except Exception as exc:  # noqa: BLE001 - the token-level reading is best effort too
-                faults[path] = describe(exc, stage="python 2 reading")
-                continue
+        if fa.reason in ("python 2", TOO_DEEP):
+            token_level.add(path)
         if fa.result is not None and fa.result.uses_library:
             result.uses_library = True
+    for path in sorted(token_level - set(faults)):
+        # A file no syntax tree can be had of still shows its uses to a token-level reading.
+        try:
+            result.findings.extend(_legacy_findings(project.name, path, texts[path], query))
+        except Exception as exc:  # noqa: BLE001 - the token-level reading is best effort too
+            faults[path] = describe(exc, stage="token-level reading")
     for path, detail in faults.items():
         prior = outcomes[path]
         outcomes[path] = FileOutcome(path, "unparsed", ANALYSIS_ERROR, detail, prior.digest, prior.kind)
@@ -242,7 +246,8 @@ def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool
 
 
 def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[Finding]:
-    """Python 2 files do not parse: a token-level reading still finds their uses, as `possible`."""
+    """Python 2 files and files nested too deeply do not parse: a token-level reading still
+    finds their uses, as `possible`."""
     out: set[Finding] = set()
     for top in sorted(query.tops):
         for hit in legacy_hits(text, top, query.names):
