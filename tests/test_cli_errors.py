@@ -355,3 +355,30 @@ def test_a_bug_is_reported_as_one_and_exits_3(monkeypatch, capsys) -> None:
     monkeypatch.setattr(sys, "argv", ["impactscope", "--debug", "report", "whatever.sqlite"])
     with pytest.raises(KeyError):
         cli.main()
+
+
+def test_a_second_scan_into_a_results_file_being_written_is_refused(tmp_path) -> None:
+    """One writer at a time: a scan that finds the results file locked exits 2 and names the holder."""
+    import fcntl
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n')
+    (tmp_path / "corpus" / "p").mkdir(parents=True)
+    (tmp_path / "corpus" / "p" / "a.py").write_text("import heronframe\nheronframe.stack()\n")
+    out = tmp_path / "r.sqlite"
+    with open(tmp_path / "r.sqlite.lock", "w") as held:
+        held.write("4242")
+        held.flush()
+        fcntl.flock(held, fcntl.LOCK_EX)
+        done = subprocess.run(
+            [sys.executable, "-m", "impactscope.cli", "scan", str(changes), str(tmp_path / "corpus"), "--out", str(out)],
+            capture_output=True, text=True,
+        )
+    assert done.returncode == 2, done.stderr
+    assert "another scan (process 4242)" in done.stderr and "Traceback" not in done.stderr
+    again = subprocess.run(
+        [sys.executable, "-m", "impactscope.cli", "scan", str(changes), str(tmp_path / "corpus"), "--out", str(out),
+         "--quiet"],
+        capture_output=True, text=True,
+    )
+    assert again.returncode == 0, again.stderr  # the lock ends with its holder

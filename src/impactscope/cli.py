@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import signal
 import sys
 import tempfile
 from enum import Enum
@@ -25,6 +26,14 @@ class Format(str, Enum):
     table = "table"
     json = "json"
     markdown = "markdown"
+
+
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, taken like Ctrl-C (exit 143 rather than 130, by the shell's convention)."""
+
+
+def _terminated(signum: int, frame: object) -> None:
+    raise Terminated()
 
 
 def _guarded(action: Callable[[], T]) -> T:
@@ -77,6 +86,9 @@ def scan(
     from impactscope.corpus.limits import DEFAULT_LIMITS
 
     limits = _guarded(lambda: DEFAULT_LIMITS.updated(limit))
+    # SIGTERM (a CI job cancelled, `kill`) ends a scan as Ctrl-C does: finished projects are
+    # committed, the workers stopped, and the same command resumes.
+    signal.signal(signal.SIGTERM, _terminated)
     try:
         summary = _guarded(
             lambda: run_scan(
@@ -85,13 +97,13 @@ def scan(
                 library_source=library_source, library_installed=library_installed, limits=limits,
             )
         )
-    except KeyboardInterrupt:
+    except KeyboardInterrupt as stop:
         typer.echo(
             f"impactscope: interrupted; finished projects are saved in {out}; "
             "run the same command again to resume",
             err=True,
         )
-        raise typer.Exit(130) from None
+        raise typer.Exit(143 if isinstance(stop, Terminated) else 130) from None
     if not quiet:
         reused = f" ({summary.reused} unchanged, reused)" if summary.reused else ""
         died = summary.faults.get("worker died", 0)

@@ -80,6 +80,19 @@ def test_ctrl_c_commits_exits_130_and_resumes(setup):
     assert snapshot(out) == expected
 
 
+def test_sigterm_commits_exits_143_and_resumes(setup):
+    """SIGTERM (a cancelled CI job) ends a scan as Ctrl-C does; 128 + 15 by the shell's convention."""
+    base, changes, root, expected = setup
+    out = base / "terminated.sqlite"
+    cmd = _cli(changes, root, "--out", out, "--jobs", 2)
+    stopped = _interrupt_after_first_commit(cmd, out, signal.SIGTERM)
+    assert stopped.returncode == 143, stopped.stderr
+    assert "interrupted; finished projects are saved in" in stopped.stderr
+    assert "Traceback" not in stopped.stderr
+    subprocess.run(cmd + ["--quiet"], check=True)
+    assert snapshot(out) == expected
+
+
 def test_quiet_prints_nothing_and_logs_are_plain_lines(setup):
     base, changes, root, expected = setup
     quiet = subprocess.run(_cli(changes, root, "--out", base / "q.sqlite", "--quiet"), capture_output=True, text=True)

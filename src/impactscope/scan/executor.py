@@ -100,6 +100,8 @@ def _worker_main(conn: multiprocessing.connection.Connection, library: ScanLibra
     """A pool worker: receive a batch, send back one `Scanned` per project in order, then None."""
     # Ctrl-C is the parent's to handle: it commits what is done and stops the workers.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # The parent's SIGTERM handler (end the scan like Ctrl-C) is not the worker's: stopped, it just ends.
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
     _exit_with_parent()
     # Forked: the query compiled by the parent came along. Spawned: compiled here, once, from
     # the surface JSON that was sent; the library's source is never read by a worker.

@@ -11,6 +11,7 @@ again redoes only uncommitted work and ends with exactly the results of an unint
 from __future__ import annotations
 
 import contextlib
+import fcntl
 import dataclasses
 import itertools
 import json
@@ -18,7 +19,7 @@ import os
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Generator, Iterable, Iterator, Sequence
+from typing import IO, Generator, Iterable, Iterator, Sequence
 
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
@@ -204,10 +205,15 @@ def run_scan(
     found = _nonempty(
         discover(roots, single=single, library=changes.import_name, ignored=ignored, limits=limits), roots, ignored
     )
-    if fresh:
-        store, kept = ResultStore.create(out, changes, text, settings=fingerprint), False
-    else:
-        store, kept = ResultStore.resume(out, changes, text, settings=fingerprint)
+    lock = _exclusive(out)  # held until this process ends or closes it: one writer at a time
+    try:
+        if fresh:
+            store, kept = ResultStore.create(out, changes, text, settings=fingerprint), False
+        else:
+            store, kept = ResultStore.resume(out, changes, text, settings=fingerprint)
+    except BaseException:
+        lock.close()
+        raise
     display = progress if progress is not None else Silent()
     total = None if isinstance(display, Silent) else count_projects(
         roots, single=single, library=changes.import_name, limits=limits
@@ -243,6 +249,7 @@ def run_scan(
         # Whatever finished is whole and worth keeping: a rerun resumes from here.
         store.commit()
         store.close()
+        lock.close()
         display.finish(tallier.tally())
     return ScanSummary(
         tallier.projects, tallier.files, tallier.findings, time.perf_counter() - tallier.started,
@@ -271,6 +278,28 @@ def _with_library(
             f"[library] source {changes.source}: no such file or folder; fix the path (it is relative to the change list)"
         )
     return changes
+
+
+def _exclusive(out: Path) -> IO[str]:
+    """Take the results file for this scan alone: two scans writing one file would each drop the
+    other's projects. The lock is the kernel's (flock on `OUT.lock`), so it ends with the process
+    however that ends; the file keeps the holder's process id for the message."""
+    handle = open(out.with_name(out.name + ".lock"), "a+", encoding="utf-8")
+    try:
+        fcntl.flock(handle, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        handle.seek(0)
+        holder = handle.read().strip() or "another process"
+        handle.close()
+        raise ScanOptionError(
+            f"{out}: another scan (process {holder}) is writing this results file; "
+            "wait for it to finish, or pass another --out"
+        ) from None
+    handle.seek(0)
+    handle.truncate()
+    handle.write(str(os.getpid()))
+    handle.flush()
+    return handle
 
 
 def _check_out(out: Path) -> None:
