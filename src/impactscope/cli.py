@@ -6,6 +6,7 @@ import os
 import signal
 import sys
 import tempfile
+import threading
 from enum import Enum
 from pathlib import Path
 from typing import Callable, List, Optional, TypeVar
@@ -88,7 +89,8 @@ def scan(
     limits = _guarded(lambda: DEFAULT_LIMITS.updated(limit))
     # SIGTERM (a CI job cancelled, `kill`) ends a scan as Ctrl-C does: finished projects are
     # committed, the workers stopped, and the same command resumes.
-    signal.signal(signal.SIGTERM, _terminated)
+    if threading.current_thread() is threading.main_thread():  # only there can Python take signals
+        signal.signal(signal.SIGTERM, _terminated)
     try:
         summary = _guarded(
             lambda: run_scan(
