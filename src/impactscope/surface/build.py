@@ -1630,14 +1630,15 @@ def build_surface(source: Path | str, library: str | None = None, *, include_tes
     return surface_from_parsed(name, iter_parsed(files, problems), problems)
 
 
-def build_for_drafts(source: Path | str, library: str | None = None) -> tuple[Surface, Surface]:
+def build_for_drafts(source: Path | str, library: str | None = None, *,
+                     include_tests: bool = False) -> tuple[Surface, Surface]:
     """(the surface a draft reads, the surface a scan will check the draft against).
 
     A scan reads stubs first (PEP 484). A draft must also see what the sources beside them
     define and the stubs have dropped (deprecated names, most often: just what a draft is
     about), so it reads the union of both; where no stub stands for a source they are one.
     """
-    name, files = discover_modules(Path(source), library)
+    name, files = discover_modules(Path(source), library, include_tests=include_tests)
     problems: list[Problem] = []
     scanned = surface_from_parsed(name, iter_parsed(files, problems), problems)
     if not any(f.is_stub and f.path is not None and f.path.with_suffix(".py").is_file() for f in files):

@@ -32,14 +32,14 @@ class Draft:
 def draft_compare(old: Path, new: Path, library: str | None = None, release: str | None = None, *,
                   include_private: bool = False) -> Draft:
     """The change list drafted from two versions of the library's source."""
-    before, scanned = build_for_drafts(old, library)
-    after, _ = build_for_drafts(new, library)
-    told = harvest(old, library, release=release, include_private=True, surface=before)
+    before, scanned = build_for_drafts(old, library, include_tests=include_private)
+    after, _ = build_for_drafts(new, library, include_tests=include_private)
+    told = harvest(old, library, release=release, include_private=include_private, surface=before)
     shims = [c for c in told.changes if c.parameter is not None]
     still: frozenset[tuple[str, str]] = frozenset()
     if shims:
         # Whether the new version still warns about (so still takes) a keyword the old one did.
-        later = harvest(new, library, include_private=True, surface=after)
+        later = harvest(new, library, include_private=include_private, surface=after)
         still = frozenset((after.canonical(c.member), c.parameter) for c in later.changes if c.parameter is not None)
     comparison = _Comparison(before, after, release, Scope(include_private), [c.announcement(before) for c in told.changes],
                              still)

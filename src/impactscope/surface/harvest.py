@@ -1197,10 +1197,11 @@ def harvest(source: Path | str, library: str | None = None, *, release: str | No
 
     `surface` is the library's surface when the caller has it already (built from `source`).
     """
-    name, files = discover_modules(Path(source), library)
+    # Test packages are read only when asked for, as private names are (scope.py).
+    name, files = discover_modules(Path(source), library, include_tests=include_private)
     scanned = surface
     if surface is None:
-        surface, scanned = build_for_drafts(source, library)
+        surface, scanned = build_for_drafts(source, library, include_tests=include_private)
     harvester = _Harvester(surface, Scope(include_private), release)
     first = (b"warn", b"deprecat")
     kept: dict[str, _Module] = {}
