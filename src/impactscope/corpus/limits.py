@@ -191,29 +191,22 @@ class CountingReader(io.RawIOBase):
         return size
 
 
-class RatioGuard(io.RawIOBase):
+class RatioGuard(CountingReader):
     """A raw stream over decompressed `inner` that raises LimitExceeded("compression ratio") once
-    the bytes out pass RATIO_FLOOR and `ratio` times `compressed()` (the compressed bytes so far,
-    or a bound on them)."""
+    the bytes out (`count`) pass RATIO_FLOOR and `ratio` times `compressed()` (the compressed
+    bytes so far, or a bound on them)."""
 
     def __init__(self, inner: IO[bytes], compressed: Callable[[], int], ratio: int) -> None:
-        self.inner = inner
+        super().__init__(inner)
         self.compressed = compressed
         self.ratio = ratio
-        self.produced = 0
-
-    def readable(self) -> bool:
-        return True
 
     def readinto(self, buffer: bytearray | memoryview) -> int:  # type: ignore[override]
-        data = self.inner.read(len(buffer))
-        size = len(data)
-        buffer[:size] = data
-        self.produced += size
-        if _over_ratio(self.produced, self.compressed(), self.ratio):
+        size = super().readinto(buffer)
+        if _over_ratio(self.count, self.compressed(), self.ratio):
             raise LimitExceeded(
                 REASONS["ratio"],
-                f"{REASONS['ratio']}: {self.produced} bytes out of {self.compressed()} compressed, "
+                f"{REASONS['ratio']}: {self.count} bytes out of {self.compressed()} compressed, "
                 f"over {self.ratio} to 1",
             )
         return size
