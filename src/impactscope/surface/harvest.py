@@ -547,13 +547,6 @@ class _Module:
         last = node.end_lineno or node.lineno
         return any(needle in line for line in self._lines[first:last] for needle in self._needles)
 
-    def slim(self) -> _Module:
-        """Keep only what the second pass reads: functions that warn, call or are wrapped by
-        something (so the rest of the module's syntax tree can be freed)."""
-        self.units = [u for u in self.units if u.sites or u.node.decorator_list]
-        self._lines = []
-        return self
-
     def _import(self, node: ast.AST) -> None:
         if isinstance(node, ast.Import):
             for a in node.names:
@@ -740,9 +733,23 @@ class _Harvester:
 
     # pass 1: helpers ----------------------------------------------------------------------
 
-    def learn(self, module: _Module) -> None:
+    def learn(self, module: _Module) -> frozenset[str]:
+        """Find the helpers a module defines; return what the second pass may need it for: "warn"
+        when it issues a deprecation warning, and what it calls or decorates with (canonical)."""
+        needs: set[str | None] = set()
+        for call in module.top_calls:
+            if self._is_warn(module, call.func):
+                needs.add("warn")
+        for a in module.assignments:
+            needs.add(self._callee(module, a.scope if a.in_class else None, None, a.call.func))
+        for unit in module.units:
+            needs.update(self._callee(module, unit.cls, None, d.func if isinstance(d, ast.Call) else d)
+                         for d in unit.node.decorator_list)
+            needs.update(self._callee(module, unit.cls, unit.self_name, site.call.func) for site in unit.sites)
         for unit in module.units:
             found = self._warnings(module, unit)
+            if found:
+                needs.add("warn")
             if found and self._helper_like(unit, found):
                 first = sorted(found, key=lambda w: len(w.site.conditions))[0]
                 params = [x.arg for x in (*unit.node.args.posonlyargs, *unit.node.args.args)]
@@ -758,6 +765,7 @@ class _Harvester:
                     if member is not None and member.kind in ("function", "method", "staticmethod", "classmethod"):
                         self.relays.append(_Relay(unit.path, callee or "", site.call, site.conditions,
                                                   tuple(params), method, unit.defaults()))
+        return frozenset(n for n in needs if n)
 
     def settle(self) -> None:
         """One level further: functions that call a helper (a decorator factory around it) are helpers too."""
@@ -1204,21 +1212,20 @@ def harvest(source: Path | str, library: str | None = None, *, release: str | No
         surface, scanned = build_for_drafts(source, library, include_tests=include_private)
     harvester = _Harvester(surface, Scope(include_private), release)
     first = (b"warn", b"deprecat")
-    kept: dict[str, _Module] = {}
+    needs: dict[str, frozenset[str]] = {}
     for parsed in iter_parsed(sources_first(files), [], lambda data: any(n in data for n in first)):
-        module = _Module(parsed, first)
-        harvester.learn(module)
-        kept[module.name] = module.slim()
+        needs[parsed.file.name] = harvester.learn(_Module(parsed, first))
     harvester.settle()
-    # A use of a helper spells its name: modules that spell one whose name says neither `warn`
-    # nor `deprecat` are read again, looking for it too.
-    extra = tuple(sorted({n for n in (h.rpartition(".")[2].encode() for h in harvester.helpers)
-                          if not any(f in n.lower() for f in first)}))
-    if extra:
-        for parsed in iter_parsed(sources_first(files), [], lambda data: any(n in data for n in extra)):
-            kept[parsed.file.name] = _Module(parsed, first + extra).slim()
-    for module in kept.values():
-        harvester.collect(module)
+    # Pass 2 reads again only the modules that warn or call (or decorate with) a helper, so no
+    # syntax tree outlives its module. A use of a helper spells its name: one whose name says
+    # neither `warn` nor `deprecat` is looked for in the modules pass 1 did not read, too.
+    helpers = set(harvester.helpers)
+    wanted = {m for m, need in needs.items() if "warn" in need or need & helpers}
+    names = {h.rpartition(".")[2] for h in helpers}
+    extra = tuple(sorted(n.encode() for n in names if not any(f.decode() in n.lower() for f in first)))
+    again = [f for f in sources_first(files) if f.name in wanted or (f.name not in needs and extra)]
+    for parsed in iter_parsed(again, [], lambda data: any(n in data for n in first + extra)):
+        harvester.collect(_Module(parsed, first + extra))
     harvester.decorated()
     changes, unread = harvester.results()
     if scanned is not None and scanned is not surface:
