@@ -382,3 +382,40 @@ def test_a_second_scan_into_a_results_file_being_written_is_refused(tmp_path) ->
         capture_output=True, text=True,
     )
     assert again.returncode == 0, again.stderr  # the lock ends with its holder
+
+
+def test_a_full_disk_mid_scan_is_one_line_and_keeps_what_was_committed(tmp_path, monkeypatch) -> None:
+    """SQLite's SQLITE_FULL, made here with `PRAGMA max_page_count` (the SQLite documentation:
+    past it an insert fails with "database or disk is full"), as a full disk gives it."""
+    from impactscope.scan.run import run_scan
+    from impactscope.store import ResultStore, StoreError
+
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n')
+    for i in range(40):
+        (tmp_path / "corpus" / f"p{i:02}").mkdir(parents=True)
+        for j in range(20):
+            (tmp_path / "corpus" / f"p{i:02}" / f"module_with_a_long_name_{j:02}.py").write_text(
+                "import heronframe\n" + "heronframe.stack()\n" * 5
+            )
+    out = tmp_path / "r.sqlite"
+    connect = ResultStore._connect
+
+    def small(path):  # type: ignore[no-untyped-def]
+        db = connect(path)
+        db.execute("PRAGMA max_page_count = 30")
+        return db
+
+    monkeypatch.setattr(ResultStore, "_connect", staticmethod(small))
+    monkeypatch.setattr("impactscope.scan.run.COMMIT_PROJECTS", 1)
+    with pytest.raises(StoreError, match="cannot write the results file .*disk is full"):
+        run_scan(changes, [tmp_path / "corpus"], out, jobs=1)
+    monkeypatch.setattr(ResultStore, "_connect", staticmethod(connect))
+    kept = ResultStore.open(out)
+    try:
+        assert 0 < len(kept.projects()) < 40
+    finally:
+        kept.close()
+    committed = len(ResultStore.open(out).projects())
+    summary = run_scan(changes, [tmp_path / "corpus"], out, jobs=1)
+    assert summary.projects == 40 and summary.reused == committed

@@ -200,14 +200,29 @@ class ResultStore:
         db = self._db
         try:
             self._write_project(result, key)
+        except sqlite3.OperationalError as exc:
+            db.rollback()
+            raise self._unwritable(exc) from None
         except BaseException:
             db.rollback()
             raise
         if commit:
-            db.commit()
+            self.commit()
 
     def commit(self) -> None:
-        self._db.commit()
+        try:
+            self._db.commit()
+        except sqlite3.OperationalError as exc:
+            self._db.rollback()
+            raise self._unwritable(exc) from None
+
+    def _unwritable(self, exc: sqlite3.OperationalError) -> StoreError:
+        """A full disk, a file made read-only, an I/O error: the user's to fix, and what was
+        committed before stays (each transaction holds whole projects)."""
+        return StoreError(
+            f"{self.path}: cannot write the results file ({exc}); free some disk space or pass --out "
+            "on another disk; the projects finished so far are kept and the same command resumes"
+        )
 
     def cached(self) -> dict[str, CachedProject]:
         """The projects a scan under this file's settings finished, by name."""

@@ -37,7 +37,7 @@ from impactscope.scan.executor import Batch, Scanned, run_inline, run_pool
 from impactscope.scan.library import ScanLibrary, prepare_library, source_digest
 from impactscope.resolve.faults import ANALYSIS_ERROR
 from impactscope.scan.progress import ScanProgress, Silent, Tally
-from impactscope.store import CachedProject, ResultStore
+from impactscope.store import CachedProject, ResultStore, StoreError
 
 # A batch is sent off once it holds this many projects or this many bytes of files.
 BATCH_PROJECTS = 8
@@ -247,7 +247,10 @@ def run_scan(
         faults = store.fault_counts()
     finally:
         # Whatever finished is whole and worth keeping: a rerun resumes from here.
-        store.commit()
+        try:
+            store.commit()
+        except StoreError:
+            pass  # the write that failed is being reported; what was committed before stays
         store.close()
         lock.close()
         display.finish(tallier.tally())
