@@ -67,7 +67,7 @@ def scan(
     ),
     quiet: bool = typer.Option(False, "--quiet", help="Print nothing but errors."),
     library_source: Optional[Path] = typer.Option(
-        None, "--library-source", help="Read the library's own source here (overrides [library] source)."
+        None, "--library-source", help="Read the library's own source here (overrides \\[library] source in the change list)."
     ),
     library_installed: Optional[str] = typer.Option(
         None, "--library-installed", metavar="NAME", help="Read an installed distribution's files (never imported)."
