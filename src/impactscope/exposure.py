@@ -486,16 +486,24 @@ def _read_pyproject(path: str, reader: _Reader) -> None:
 
 
 def _poetry_python(text: str, source: str, reader: _Reader) -> None:
+    specs = _poetry_range(text, f"python = {text!r}", source, reader)
+    if specs:
+        reader.add_python(",".join(specs), source)
+
+
+def _poetry_range(constraint: str, shown: str, source: str, reader: _Reader) -> list[str] | None:
+    """The PEP 440 specifiers of one Poetry constraint, or None (with a problem noted) when it
+    cannot be read or is a union: a union of ranges has no single PEP 440 specifier set, so it is
+    left out rather than guessed."""
     try:
-        alternatives = _poetry_alternatives(text)
+        alternatives = _poetry_alternatives(constraint)
     except _ConstraintError as exc:
-        reader.problem(f"{source}: {exc} in python = {text!r}")
-        return
+        reader.problem(f"{source}: {exc} in {shown}")
+        return None
     if len(alternatives) > 1:
-        reader.problem(f"{source}: union constraint in python = {text!r} is not supported; not read")
-        return
-    if alternatives[0]:
-        reader.add_python(",".join(alternatives[0]), source)
+        reader.problem(f"{source}: union constraint in {shown} is not supported; not read")
+        return None
+    return alternatives[0]
 
 
 class _ConstraintError(ValueError):
@@ -629,16 +637,9 @@ def _poetry_dependency(name: str, value: object, source: str, reader: _Reader) -
     if not isinstance(version, str):
         reader.problem(f"{source}: {name} has a non-string version {version!r}")
         return
-    try:
-        alternatives = _poetry_alternatives(version)
-    except _ConstraintError as exc:
-        reader.problem(f"{source}: {exc} in {text}")
+    specs = _poetry_range(version, text, source, reader)
+    if specs is None:
         return
-    if len(alternatives) > 1:
-        # A union of ranges has no single PEP 440 specifier set; leave it out rather than guess.
-        reader.problem(f"{source}: union constraint in {text} is not supported; not read")
-        return
-    specs = alternatives[0]
     prereleases = table.get("allow-prereleases") is True
     specifier = SpecifierSet(",".join(specs), prereleases=True if prereleases else None) if specs else None
     reader.declared.append(Declared(source, text, specifier, marker, False))
