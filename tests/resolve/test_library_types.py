@@ -231,6 +231,8 @@ def test_isinstance_narrows_the_branch_and_assert(query: Query) -> None:
             x.stack_rows(2)
     """
     hits = found(query, code)
+    # The Library Reference: isinstance(x, C) is true when x is an instance of C (or a subclass),
+    # and `assert` raises unless its test holds, so after it y is a Column.
     assert at(hits, 4, "T-STACK") == "resolved"
     assert at(hits, 6, "C-PAIRS") == "resolved"
     assert at(hits, 7, "T-STACK") == "inferred"  # after the branch, x is not known
@@ -284,6 +286,8 @@ def test_builtin_calls_prove_the_receiver(query: Query) -> None:
         unknown_thing.iter_pairs()
     """
     hits = found(query, code)
+    # The Python Library Reference, "Built-in Functions": list() and dict() return a new list and
+    # dict whatever they are given, so neither can be the library's Column.
     assert at(hits, 3, "C-PAIRS") is None
     assert at(hits, 4, "C-PAIRS") is None
     assert at(hits, 5, "C-PAIRS") == "inferred"
@@ -362,6 +366,8 @@ def test_tuple_unpacking_of_an_annotated_return_and_of_a_tuple_display(query: Qu
         pair("q")[0].stack_rows(3)
     """
     hits = found(query, code)
+    # The Language Reference, assignment statements: a target list takes the items of an iterable
+    # of the same length one by one; typing's Tuple[X, Y] types each position (PEP 484).
     for line in (8, 9, 11, 12, 13):
         assert at(hits, line, "T-STACK" if line in (8, 11, 13) else "C-PAIRS") == "resolved", line
 
