@@ -326,3 +326,41 @@ def test_toml_nested_past_the_parser_is_an_input_error(tmp_path) -> None:
     path.write_text("x = " + "[" * 100_000 + "]" * 100_000 + "\n")
     with pytest.raises(ChangeListError, match="nested too deeply"):
         load_change_list(path)
+
+
+# ---------------------------------------------------------------------------- default
+@pytest.mark.parametrize(
+    ("literal", "python"),
+    [
+        ('","', "','"),
+        ("false", "False"),
+        ("3", "3"),
+        ("0.5", "0.5"),
+        ('["a", 1]', "['a', 1]"),
+        ('{ sep = ";" }', "{'sep': ';'}"),
+    ],
+)
+def test_default_is_kept_as_python_source(literal: str, python: str) -> None:
+    import ast
+
+    body = f'member = "heronframe.read_table"\nkind = "default-changed"\nparameter = "sep"\ndefault = {literal}\n'
+    change = parse(HEAD + "[[change]]\n" + body).changes[0]
+    assert change.default == python
+    # The text is a Python literal of the TOML value (the TOML spec's types map one to one).
+    assert ast.literal_eval(change.default) == ast.literal_eval(python)
+
+
+def test_default_is_absent_unless_given() -> None:
+    assert parse(HEAD + FIRST).changes[0].default is None
+
+
+def test_default_on_a_kind_without_an_old_default() -> None:
+    message = error(second('member = "heronframe.Table.pivot"\nkind = "renamed"\nreplacement = "heronframe.Table.p"\ndefault = 1\n'))
+    assert "[[change]] #2" in message and "default applies only to" in message
+
+
+@pytest.mark.parametrize("literal", ["1979-05-27", "nan", "inf"])
+def test_default_without_a_python_literal(literal: str) -> None:
+    body = f'member = "heronframe.Table.sort_by"\nkind = "parameter-removed"\nparameter = "inplace"\ndefault = {literal}\n'
+    message = error(second(body))
+    assert "[[change]] #2" in message and "default" in message

@@ -38,7 +38,7 @@ _IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 _LIBRARY_KEYS = {"name", "release", "requires_python", "source", "import_name", "modules"}
 _CHANGE_KEYS = {
     "id", "member", "kind", "replacement", "parameter", "new_parameter",
-    "position", "deprecated_in", "note", "dynamic", "certainty",
+    "position", "deprecated_in", "note", "dynamic", "certainty", "default",
 }
 CERTAINTIES = ("high", "medium", "low")  # how sure a drafted entry is; reports show "low" apart
 _TOP_KEYS = {"library", "types", "change"}
@@ -57,6 +57,9 @@ class Change:
     note: str = ""
     dynamic: bool = False  # served at run time (a module __getattr__, ...): no surface need show it
     certainty: str | None = None  # "high" | "medium" | "low", as a draft wrote it; None: written by hand
+    # The old default of `parameter` as Python source text, from the TOML literal `default = ...`:
+    # rewrites pass it explicitly (default-changed) or drop arguments equal to it (parameter-removed).
+    default: str | None = None
 
     @property
     def uncertain(self) -> bool:
@@ -315,6 +318,14 @@ def _change(entry: Any, index: int, where: str, tops: tuple[str, ...]) -> Change
             f"{label}: certainty {certainty!r} is not one of {', '.join(repr(c) for c in CERTAINTIES)}; "
             "drafts write it, a hand-written entry may leave it out"
         )
+    default = None
+    if "default" in entry:
+        if kind not in (Kind.DEFAULT_CHANGED, Kind.PARAMETER_REMOVED):
+            raise ChangeListError(
+                f"{label}: default applies only to default-changed and parameter-removed kinds "
+                "(it is the old default of parameter)"
+            )
+        default = _python_literal(entry["default"], label)
     return Change(
         id=change_id,
         member=member,
@@ -327,4 +338,26 @@ def _change(entry: Any, index: int, where: str, tops: tuple[str, ...]) -> Change
         note=text("note") or "",
         dynamic=dynamic,
         certainty=certainty,
+        default=default,
+    )
+
+
+def _python_literal(value: Any, label: str) -> str:
+    """The Python source of a TOML value (string, number, boolean, array, table). TOML has no
+    None and its dates are no Python literal, so neither can be an old default here."""
+    if isinstance(value, bool):
+        return "True" if value else "False"
+    if isinstance(value, (int, str)):
+        return repr(value)
+    if isinstance(value, float):
+        if value != value or value in (float("inf"), float("-inf")):
+            raise ChangeListError(f"{label}: default {value!r} has no Python literal; give a finite number")
+        return repr(value)
+    if isinstance(value, list):
+        return "[" + ", ".join(_python_literal(v, label) for v in value) + "]"
+    if isinstance(value, dict):
+        return "{" + ", ".join(f"{k!r}: {_python_literal(v, label)}" for k, v in value.items()) + "}"
+    raise ChangeListError(
+        f"{label}: default {value!r} is not a string, number, boolean, array or table; "
+        "write the old default as a TOML literal, e.g. default = \",\""
     )
