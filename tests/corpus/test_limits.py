@@ -104,3 +104,11 @@ def test_settings_as_a_command_line_gives_them() -> None:
         Limits().updated(["ratio=lots"])
     with pytest.raises(LimitsError, match=r"limit depth = 0"):
         Limits().updated(["depth=0"])
+
+
+def test_the_time_budget_per_file_is_a_limit_like_the_others() -> None:
+    # Seconds, not bytes, but set, checked and reported the same way (scan.budget enforces it).
+    assert Limits().updated(["file_seconds=5"]).file_seconds == 5
+    assert Limits().reason("file_seconds") == "over time budget"
+    with pytest.raises(LimitsError, match=r"limit file_seconds = 0"):
+        Limits().updated(["file_seconds=0"])

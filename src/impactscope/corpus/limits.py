@@ -19,6 +19,8 @@ the archive) becomes an entry skipped with the bound's own reason, and the scan 
 |                       |             |                           | zip member and for a compressed tar     |
 | `members`             | 100_000     | "too many members"        | members listed from one archive         |
 | `depth`               | 2           | "nested too deep"         | archives opened one inside another      |
+| `file_seconds`        | 60          | "over time budget"        | seconds of analysis of one file, all    |
+|                       |             |                           | its stages (scan.budget stops it)       |
 
 Byte counts are checked while reading, whatever a header declares: a read stops one chunk past
 the bound. The ratio is judged only once RATIO_FLOOR bytes have come out, since a small file
@@ -59,6 +61,7 @@ REASONS = {
     "ratio": "compression ratio",
     "members": "too many members",
     "depth": "nested too deep",
+    "file_seconds": "over time budget",
 }
 
 
@@ -77,6 +80,7 @@ class Limits:
     ratio: int = 100
     members: int = 100_000
     depth: int = 2
+    file_seconds: int = 60
 
     def __post_init__(self) -> None:
         for item in dataclasses.fields(self):

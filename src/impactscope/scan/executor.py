@@ -59,7 +59,7 @@ def scan_keyed(project: Project, query: Query, prefilter: bool, fingerprint: str
             seen.append(entry)
             yield entry
 
-    recorded = Project(project.name, project.origin, listing)
+    recorded = Project(project.name, project.origin, listing, project.limits)  # its limits go along
     try:
         result = scan_project(recorded, query, prefilter=prefilter)
     except Exception as exc:  # noqa: BLE001 - a bug outside any one file costs this project only

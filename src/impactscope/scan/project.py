@@ -21,8 +21,9 @@ from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding
 from impactscope.resolve.faults import ANALYSIS_ERROR, describe
 from impactscope.resolve.legacy import legacy_hits
-from impactscope.resolve.project import ProjectResolver
+from impactscope.resolve.project import FileAnalysis, ProjectResolver
 from impactscope.resolve.query import Query
+from impactscope.scan.budget import OVER_BUDGET, FileClock
 from impactscope.scan.guard import too_deep
 from impactscope.scan.prefilter import Plan, Prefilter
 from impactscope.scan.slicing import narrow
@@ -68,6 +69,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     order: list[str] = []
     faults: dict[str, str] = {}  # files whose analysis failed unexpectedly: their one-line detail
     token_level: set[str] = set()  # files read at token level: Python 2, or nested too deeply
+    clock = FileClock(project.limits.file_seconds)  # every per-file stage below is charged to its file
     for entry in project.entries():
         order.append(entry.path)
         if entry.error is None and entry.size < 2_000_000 and _is_manifest(entry.path, entry.size):
@@ -117,7 +119,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     keep = set(plan.keep)
     for path in sorted(keep & set(notebooks)):
         try:
-            sources[path] = read_notebook(notebooks[path], path, limits=project.limits)
+            sources[path] = clock.run(path, read_notebook, notebooks[path], path, limits=project.limits)
         except SourceError as exc:
             prior = outcomes[path]
             outcomes[path] = FileOutcome(path, "unparsed", exc.reason, exc.detail, prior.digest, prior.kind)
@@ -129,7 +131,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         for path in sorted(keep - plan.whole):
             exported = _spelled_elsewhere(texts, path) if path in plan.importable else None
             try:
-                sources[path] = narrow(sources[path], query.names, plan.relays, exported)
+                sources[path] = clock.run(path, narrow, sources[path], query.names, plan.relays, exported)
             except Exception as exc:  # noqa: BLE001 - a narrowing bug costs this file only
                 faults[path] = describe(exc, stage="narrowing")
                 keep.discard(path)
@@ -137,7 +139,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         if path in faults:
             continue
         try:
-            deep = _without_deep_cells(sources[path])
+            deep = clock.run(path, _without_deep_cells, sources[path])
         except Exception as exc:  # noqa: BLE001 - the guard is part of the analysis of this file
             faults[path] = describe(exc, stage="nesting guard")
             keep.discard(path)
@@ -155,9 +157,11 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults})
     for path in sorted(keep):
         try:
-            resolver.analyse(path)
+            clock.run(path, resolver.analyse, path)
         except Exception as exc:  # noqa: BLE001 - the resolver isolates files itself; this is the last net
             faults[path] = describe(exc, stage="resolver")
+            if path in clock.over:  # its importers see an unknown module, not a second try at it
+                resolver.files.setdefault(path, FileAnalysis(path, "unparsed"))
     try:
         resolver.finish()
     except Exception as exc:  # noqa: BLE001 - as above: no finding of a file that did not finish
@@ -176,12 +180,15 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     for path in sorted(token_level - set(faults)):
         # A file no syntax tree can be had of still shows its uses to a token-level reading.
         try:
-            result.findings.extend(_legacy_findings(project.name, path, texts[path], query))
+            result.findings.extend(clock.run(path, _legacy_findings, project.name, path, texts[path], query))
         except Exception as exc:  # noqa: BLE001 - the token-level reading is best effort too
             faults[path] = describe(exc, stage="token-level reading")
     for path, detail in faults.items():
         prior = outcomes[path]
-        outcomes[path] = FileOutcome(path, "unparsed", ANALYSIS_ERROR, detail, prior.digest, prior.kind)
+        if path in clock.over:  # a limit reached, like a file too large: skipped with its reason
+            outcomes[path] = FileOutcome(path, "skipped", OVER_BUDGET, clock.over[path], prior.digest, prior.kind)
+        else:
+            outcomes[path] = FileOutcome(path, "unparsed", ANALYSIS_ERROR, detail, prior.digest, prior.kind)
         result.findings = [f for f in result.findings if f.file != path]
     if not result.uses_library:
         # Files the prefilter passed over may still import the library without touching a change.
