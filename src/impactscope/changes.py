@@ -14,8 +14,10 @@ from typing import Any, Mapping
 from packaging.specifiers import InvalidSpecifier, SpecifierSet
 from packaging.version import InvalidVersion, Version
 
+from impactscope.errors import InputError
 
-class ChangeListError(ValueError):
+
+class ChangeListError(InputError):
     """A change list that cannot be used; the message names the file, the entry and the fix."""
 
 

@@ -1,4 +1,4 @@
-"""Command line: parse arguments, call the library, turn bad input into exit code 2."""
+"""Command line: parse arguments, call the library; bad input exits 2, a bug exits 3."""
 
 from __future__ import annotations
 
@@ -12,6 +12,8 @@ from pathlib import Path
 from typing import Callable, List, Optional, TypeVar
 
 import typer
+
+from impactscope.errors import InputError
 
 app = typer.Typer(
     add_completion=False,
@@ -38,15 +40,26 @@ def _terminated(signum: int, frame: object) -> None:
 
 
 def _guarded(action: Callable[[], T]) -> T:
-    """Bad input is the user's to fix: one line saying what and where, exit 2, no traceback."""
+    """Bad input is the user's to fix: one line saying what and where, exit 2, no traceback.
+
+    Only `InputError` is input: a plain `ValueError` (or any other exception) is a bug and
+    goes on to `main`, which reports it as one (exit 3). A file the system refuses (missing,
+    no permission, full disk) is the user's to fix too."""
     try:
         return action()
-    except ValueError as exc:  # every input error type of this package subclasses ValueError
+    except InputError as exc:
         typer.echo(f"impactscope: error: {exc}", err=True)
         raise typer.Exit(2) from None
     except OSError as exc:
-        typer.echo(f"impactscope: error: {exc.filename or ''}: {exc.strerror}", err=True)
+        typer.echo(f"impactscope: error: {_os_error(exc)}", err=True)
         raise typer.Exit(2) from None
+
+
+def _os_error(exc: OSError) -> str:
+    """`path: reason`; an OSError made from a message alone has no strerror to show."""
+    if exc.strerror is None:
+        return str(exc)
+    return f"{exc.filename}: {exc.strerror}" if exc.filename is not None else exc.strerror
 
 
 @app.command()
@@ -309,9 +322,9 @@ def main() -> None:
             raise
         message = " ".join(str(exc).split())[:300]
         typer.echo(
-            f"impactscope: internal error (a bug in impactscope, not in your input): {type(exc).__name__}"
-            f"{': ' + message if message else ''}; please report it with the command you ran "
-            "(add --debug to see the traceback)",
+            f"impactscope: internal error: {type(exc).__name__}{': ' + message if message else ''}. "
+            "This is a bug in impactscope, not a problem with your input: please report it to the "
+            "impactscope maintainers with the command you ran (add --debug to see the traceback)",
             err=True,
         )
         raise SystemExit(3) from None

@@ -19,6 +19,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from statistics import NormalDist
 
+from impactscope.errors import InputError
+
 __all__ = [
     "EstimateError",
     "Interval",
@@ -29,7 +31,7 @@ __all__ = [
 ]
 
 
-class EstimateError(ValueError):
+class EstimateError(InputError):
     """An argument to an estimate is out of its domain."""
 
 

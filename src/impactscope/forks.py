@@ -21,6 +21,8 @@ import math
 from collections import Counter, defaultdict
 from collections.abc import Mapping
 
+from impactscope.errors import InputError
+
 __all__ = ["ForkError", "fork_families", "unique_sources"]
 
 # Ratios are compared with this slack so that 9 of 10 files meets a threshold of 0.9 despite
@@ -28,7 +30,7 @@ __all__ = ["ForkError", "fork_families", "unique_sources"]
 _TOLERANCE = 1e-9
 
 
-class ForkError(ValueError):
+class ForkError(InputError):
     """An argument to the fork analysis is out of its domain."""
 
 

@@ -26,6 +26,7 @@ import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+from impactscope.errors import InputError
 from impactscope.estimate import EstimateError, cochran_sample_size
 
 __all__ = [
@@ -43,7 +44,7 @@ __all__ = [
 _COMMENT = re.compile(r"(^|\s)#.*$")
 
 
-class SamplingError(ValueError):
+class SamplingError(InputError):
     """A population list or a sample request that cannot be honoured."""
 
 

@@ -18,6 +18,7 @@ from typing import Iterator
 
 from impactscope import __version__
 from impactscope.changes import ChangeList, parse_change_list
+from impactscope.errors import InputError
 from impactscope.findings import Confidence, Finding
 from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
 from impactscope.scan.project import FileOutcome, ProjectResult
@@ -43,7 +44,7 @@ CREATE TABLE IF NOT EXISTS scan_keys (
 """
 
 
-class StoreError(ValueError):
+class StoreError(InputError):
     """A results file that cannot be read; the message names it and says what to do."""
 
 

@@ -19,6 +19,7 @@ import os
 import stat
 
 from impactscope.corpus.limits import LimitExceeded, read_bounded
+from impactscope.errors import InputError
 
 __all__ = ["BROKEN_LINK", "SPECIAL_FILE", "FileRefused", "read_regular", "refusal", "within"]
 
@@ -36,7 +37,7 @@ _OPEN_FLAGS = (
 )
 
 
-class FileRefused(ValueError):
+class FileRefused(InputError):
     """A file that is not read: `reason` is a short stable key ("special file", a limit's
     reason, a link's reason), `detail` says what and where, for people."""
 

@@ -37,6 +37,8 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import IO
 
+from impactscope.errors import InputError
+
 __all__ = [
     "RATIO_FLOOR",
     "CountingReader",
@@ -65,7 +67,7 @@ REASONS = {
 }
 
 
-class LimitsError(ValueError):
+class LimitsError(InputError):
     """A Limits value that cannot work: a bound that is not a positive whole number."""
 
 

@@ -94,6 +94,7 @@ from impactscope.corpus.limits import (
     RatioGuard,
     read_bounded,
 )
+from impactscope.errors import InputError
 
 __all__ = [
     "ARCHIVE_SUFFIXES",
@@ -143,11 +144,11 @@ _ARCHIVE_ERRORS: tuple[type[BaseException], ...] = (
 )
 
 
-class CorpusError(ValueError):
+class CorpusError(InputError):
     """A corpus root that cannot be used: missing, or neither a directory nor an archive."""
 
 
-class EntryError(ValueError):
+class EntryError(InputError):
     """Raised by `Entry.read` when the bytes cannot be had (unreadable file, corrupt member,
     a limit reached while reading). `reason` is a short stable key, as skip reasons are."""
 

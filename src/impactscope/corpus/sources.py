@@ -26,6 +26,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Literal
 
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
+from impactscope.errors import InputError
 
 if TYPE_CHECKING:  # IPython is slow to import; only notebooks need it.
     from IPython.core.inputtransformer2 import TransformerManager
@@ -56,7 +57,7 @@ _DEFAULT_LIMITS = DEFAULT_LIMITS
 SKIP_REASONS = frozenset({_DEFAULT_LIMITS.reason("notebook_code_bytes")})
 
 
-class SourceError(ValueError):
+class SourceError(InputError):
     """A file whose text cannot be had: undecodable bytes, an unreadable notebook, or a
     notebook with too much code.
 

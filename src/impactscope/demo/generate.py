@@ -34,6 +34,8 @@ from packaging.specifiers import SpecifierSet
 from packaging.utils import canonicalize_name
 from packaging.version import Version
 
+from impactscope.errors import InputError
+
 from . import snippets as sn
 from .snippets import Ctx, Expect, Namer, NotebookBuilder, SourceBuilder
 
@@ -809,9 +811,9 @@ def _project_sites(project: _Project) -> list[ExpectedSite]:
 def generate_corpus(out_dir: Path, *, projects: int = 240, seed: int = 0, filler_files: int = 0) -> GroundTruth:
     """Write the demo corpus root `out_dir` (created; must not hold anything) and its truth beside it."""
     if projects < MIN_PROJECTS:
-        raise ValueError(f"projects must be at least {MIN_PROJECTS} to hold every case; got {projects}")
+        raise InputError(f"projects must be at least {MIN_PROJECTS} to hold every case; got {projects}")
     if filler_files < 0:
-        raise ValueError(f"filler_files must be >= 0; got {filler_files}")
+        raise InputError(f"filler_files must be >= 0; got {filler_files}")
     root = Path(out_dir)
     if root.exists() and any(root.iterdir()):
         raise FileExistsError(f"{root} is not empty; generate into a new folder")
@@ -825,7 +827,7 @@ def generate_corpus(out_dir: Path, *, projects: int = 240, seed: int = 0, filler
     fixed = sum(counts.values()) + sum(forks)
     library_dirs = projects - fixed
     if library_dirs < 12:
-        raise ValueError(f"projects={projects} leaves too few plain library projects")
+        raise InputError(f"projects={projects} leaves too few plain library projects")
 
     pool = [f"{a}-{b}" for a in _NATURE for b in _DOMAIN]
     rng.shuffle(pool)

@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any, Mapping, Sequence
 
 from impactscope.changes import ChangeList
+from impactscope.errors import InputError
 from impactscope.estimate import Interval, weighted_share, wilson_interval
 from impactscope.exposure import classify, environment_for_python, read_manifests
 from impactscope.findings import Confidence, Finding
@@ -23,7 +24,7 @@ from impactscope.scan.project import FileOutcome
 LEVELS = (Confidence.RESOLVED, Confidence.INFERRED, Confidence.POSSIBLE)
 
 
-class SizingError(ValueError):
+class SizingError(InputError):
     """Bad sizing options (a weights file, a population, a Python version)."""
 
 
@@ -41,6 +42,8 @@ def read_weights(path: Path) -> dict[str, float]:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
         raise SizingError(f"{path}: cannot read the weights file ({exc.strerror})") from None
+    except UnicodeDecodeError as exc:
+        raise SizingError(f"{path}: the weights file is not UTF-8 ({exc.reason}); save it as UTF-8") from None
     out: dict[str, float] = {}
     for number, row in enumerate(csv.reader(io.StringIO(text)), start=1):
         if not row or row[0].startswith("#"):

@@ -23,10 +23,12 @@ from __future__ import annotations
 from collections.abc import Collection
 from dataclasses import dataclass
 
+from impactscope.errors import InputError
+
 __all__ = ["LegacyError", "LegacyHit", "legacy_hits"]
 
 
-class LegacyError(ValueError):
+class LegacyError(InputError):
     """The library or member names given to the legacy scan are not identifiers."""
 
 

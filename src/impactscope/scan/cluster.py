@@ -12,6 +12,7 @@ import contextlib
 import itertools
 from typing import TYPE_CHECKING, Any, Generator, Iterable, Iterator
 
+from impactscope.errors import InputError
 from impactscope.scan.executor import Batch, Scanned, picklable_batch, scan_batch, scan_batch_remote
 from impactscope.scan.library import ScanLibrary
 
@@ -21,7 +22,7 @@ if TYPE_CHECKING:  # pragma: no cover
 LOCAL = "local"
 
 
-class ClusterError(ValueError):
+class ClusterError(InputError):
     """The cluster cannot be used: Dask is missing or the scheduler cannot be reached."""
 
 

@@ -24,6 +24,7 @@ from typing import IO, Generator, Iterable, Iterator, Sequence
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.corpus.roots import Entry, Project, archive_stem, check_roots, discover
+from impactscope.errors import InputError
 from impactscope.scan.cache import (
     ScanSettings,
     held,
@@ -47,7 +48,7 @@ COMMIT_SECONDS = 0.5
 COMMIT_PROJECTS = 200
 
 
-class ScanOptionError(ValueError):
+class ScanOptionError(InputError):
     """Scan options that do not fit together or are out of range."""
 
 

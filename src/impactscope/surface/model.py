@@ -13,6 +13,8 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any
 
+from impactscope.errors import InputError
+
 PARAMETER_KINDS = ("positional-only", "positional-or-keyword", "var-positional", "keyword-only", "var-keyword")
 MEMBER_KINDS = (
     "module",
@@ -31,7 +33,7 @@ JSON_FORMAT = 1
 _VALUE_KINDS = frozenset({"property", "constant", "unknown", "dynamic"})
 
 
-class SurfaceError(ValueError):
+class SurfaceError(InputError):
     """A library surface could not be built, located or loaded."""
 
 
