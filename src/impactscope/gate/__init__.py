@@ -1,0 +1,1 @@
+"""The CI gate: a policy checked against a scan's results, with SARIF, JUnit and Markdown verdicts."""
