@@ -17,9 +17,10 @@ from typing import Any, Mapping
 from packaging.version import InvalidVersion, Version
 
 from impactscope.changes import Kind
+from impactscope.errors import InputError
 
 
-class PolicyError(ValueError):
+class PolicyError(InputError):
     """A policy that cannot be used; the message names the file, the entry and the fix."""
 
 

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from impactscope.changes import Change, ChangeList, Kind, load_change_list, normalise
+from impactscope.errors import InputError
 from impactscope.surface.model import Surface
 
 # A harvested entry about the member itself (it goes) covers any change to it.
@@ -19,7 +20,7 @@ _MEMBER_KINDS = frozenset({Kind.REMOVED, Kind.RENAMED, Kind.MOVED})
 CHECKED_KINDS = _MEMBER_KINDS | {Kind.PARAMETER_REMOVED, Kind.PARAMETER_RENAMED, Kind.DEFAULT_CHANGED}
 
 
-class PreviousError(ValueError):
+class PreviousError(InputError):
     """A --previous that cannot be read as the previous release."""
 
 

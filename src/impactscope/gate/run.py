@@ -6,6 +6,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Mapping
 
+from impactscope.errors import InputError
 from impactscope.gate.locate import Place, library_lines
 from impactscope.gate.measures import measures_from_report
 from impactscope.gate.policy import Policy, load_policy
@@ -13,7 +14,7 @@ from impactscope.gate.previous import read_previous
 from impactscope.gate.rules import Verdict, evaluate
 
 
-class GateError(ValueError):
+class GateError(InputError):
     """Results the gate cannot judge (an interrupted scan, a missing library source)."""
 
 
