@@ -309,6 +309,39 @@ def demo(
     _guarded(lambda: run_demo(base, projects=projects, seed=seed, echo=typer.echo))
 
 
+@app.command()
+def gate(
+    results: Path = typer.Argument(..., help="A results file written by `scan`."),
+    policy: Path = typer.Option(..., "--policy", help="The policy (TOML; see docs/policy.md)."),
+    sarif: Optional[Path] = typer.Option(None, "--sarif", help="Write the verdict as SARIF 2.1.0 here."),
+    junit: Optional[Path] = typer.Option(None, "--junit", help="Write one JUnit test case per change and rule here."),
+    markdown: Optional[Path] = typer.Option(None, "--markdown", help="Write the verdict as Markdown here."),
+    previous: Optional[Path] = typer.Option(
+        None, "--previous", help="The previous release: its source folder, or the change list `harvest` drafted "
+        "from it (for the warned_before rule)."
+    ),
+    head_source: Optional[Path] = typer.Option(
+        None, "--head-source", help="The library's source as it will ship: SARIF results point at its lines."
+    ),
+    source_root: Optional[Path] = typer.Option(
+        None, "--source-root", help="The library's repository root; SARIF paths are relative to it (default: here)."
+    ),
+) -> None:
+    """Check the results against a policy: exit 0 when every rule holds, 1 when one fails, 2 on bad input."""
+    from impactscope.gate.junit import to_junit
+    from impactscope.gate.markdown import to_markdown
+    from impactscope.gate.run import run_gate
+    from impactscope.gate.sarif import to_sarif
+    from impactscope.gate.verdict import to_terminal
+
+    run = _guarded(lambda: run_gate(results, policy, previous=previous, head_source=head_source,
+                                    source_root=source_root))
+    for path, render in ((sarif, to_sarif), (junit, to_junit), (markdown, to_markdown)):
+        if path is not None:
+            _emit(render(run), path)
+    sys.stdout.write(to_terminal(run))
+    raise typer.Exit(0 if run.verdict.holds else 1)
+
 def main() -> None:
     """Run the command line. An exception that is not an input error is a bug of impactscope's:
     one line that says so and asks for a report, exit 3; `--debug` shows the traceback."""
