@@ -419,3 +419,130 @@ def test_a_full_disk_mid_scan_is_one_line_and_keeps_what_was_committed(tmp_path,
     committed = len(ResultStore.open(out).projects())
     summary = run_scan(changes, [tmp_path / "corpus"], out, jobs=1)
     assert summary.projects == 40 and summary.reused == committed
+
+
+# ---------------------------------------------------------------------------- input error or bug
+# docs/cli.md "Exit codes": 2 for an InputError (the user's to fix), 3 for anything else (a bug).
+def _input_cases(tmp_path: Path, changes: Path, corpus: Path) -> dict[str, tuple[list[str], str]]:
+    """One bad input per kind of input error: the arguments and a text its one line must hold."""
+    scanned = tmp_path / "scanned.sqlite"
+    assert invoke("scan", changes, corpus, "--out", scanned, "--jobs", "1", "--quiet").exit_code == 0
+    bad_toml = tmp_path / "bad.toml"
+    bad_toml.write_text(CHANGES.replace('release = "3.0"', 'release = "three"'), encoding="utf-8")
+    weights = tmp_path / "weights.csv"
+    weights.write_bytes(b"good,\xff\n")  # 0xff starts no UTF-8 sequence (RFC 3629)
+    population = tmp_path / "population.txt"
+    population.write_text("a\nb\n", encoding="utf-8")
+    out = str(tmp_path / "r.sqlite")
+    return {
+        "ChangeListError": (["scan", str(bad_toml), str(corpus), "--out", out], "'three' is not a PEP 440 version"),
+        "CorpusError": (["scan", str(changes), str(tmp_path / "absent"), "--out", out], "does not exist"),
+        "LimitsError": (["scan", str(changes), str(corpus), "--out", out, "--limit", "depth=0"], "depth"),
+        "ScanOptionError": (["scan", str(changes), str(corpus), "--out", out, "--library-source",
+                             str(tmp_path / "absent-lib")], "--library-source"),
+        "StoreError": (["report", str(bad_toml)], "not an impactscope results file"),
+        "SizingError": (["report", str(scanned), "--weights", str(weights)], "not UTF-8"),
+        "SurfaceError": (["surface", str(tmp_path / "absent-lib")], "no such file or folder"),
+        "SamplingError": (["sample", str(population), "--size", "5"], "exceeds the population"),
+        "EstimateError": (["sample", str(population), "--margin", "2"], "margin must be"),
+        "demo InputError": (["demo", "--projects", "5", "--dir", str(tmp_path / "demo")], "projects must be at least"),
+    }
+
+
+def test_each_kind_of_input_error_is_one_line_and_exit_2(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    for kind, (args, text) in _input_cases(tmp_path, changes, corpus).items():
+        result = invoke(*args)
+        assert result.exit_code == 2, (kind, result.exit_code, result.output, result.exception)
+        one_error_line(result, "impactscope: error: ", text)
+
+
+def test_every_error_class_of_ours_for_input_is_an_input_error() -> None:
+    """A ValueError subclass defined in impactscope that is not an InputError would be taken
+    for a bug (exit 3) when the user is the one to fix it."""
+    import importlib
+    import inspect
+    import pkgutil
+
+    import impactscope
+    from impactscope.errors import InputError
+
+    seen: dict[str, type] = {}
+    for info in pkgutil.walk_packages(impactscope.__path__, "impactscope."):
+        if info.name.startswith("impactscope.demo.heronframe"):
+            continue  # the fictional library the demo scans: read as text, never imported
+        module = importlib.import_module(info.name)
+        for name, value in vars(module).items():
+            if inspect.isclass(value) and issubclass(value, ValueError) and value.__module__ == info.name:
+                seen[f"{info.name}.{name}"] = value
+    assert "impactscope.changes.ChangeListError" in seen and "impactscope.store.StoreError" in seen
+    stray = sorted(name for name, cls in seen.items() if not issubclass(cls, InputError))
+    assert stray == [], f"subclass InputError instead of ValueError: {stray}"
+
+
+def _run_with_a_bug(tmp_path: Path, *args: str) -> subprocess.CompletedProcess[str]:
+    """The console entry point, with the scan driver made to raise a plain ValueError (as a bug
+    would); run in a child so that the traceback printed under --debug is Python's own."""
+    code = (
+        "import sys\n"
+        "import impactscope.scan.run as run\n"
+        "from impactscope.cli import main\n"
+        "def broken(*args, **kwargs):\n"
+        "    raise ValueError('an invariant of the scan did not hold')\n"
+        "run.run_scan = broken\n"
+        "sys.argv = ['impactscope', *sys.argv[1:]]\n"
+        "main()\n"
+    )
+    return subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True, timeout=120, cwd=tmp_path)
+
+
+def test_a_plain_value_error_is_a_bug_exit_3_without_traceback(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    done = _run_with_a_bug(tmp_path, "scan", str(changes), str(corpus), "--out", str(tmp_path / "r.sqlite"))
+    assert done.returncode == 3, done.stderr
+    lines = [ln for ln in done.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1, done.stderr
+    assert "Traceback" not in done.stderr
+    assert "ValueError: an invariant of the scan did not hold" in lines[0]
+    assert "bug in impactscope" in lines[0] and "not a problem with your input" in lines[0]
+    assert "report it to the impactscope maintainers with the command you ran" in lines[0]
+    assert "--debug" in lines[0]
+
+
+def test_a_bug_under_debug_shows_the_traceback(tmp_path: Path, changes: Path, corpus: Path) -> None:
+    done = _run_with_a_bug(tmp_path, "--debug", "scan", str(changes), str(corpus), "--out", str(tmp_path / "r.sqlite"))
+    assert done.returncode != 0 and done.returncode != 2, done.stderr
+    assert "Traceback (most recent call last)" in done.stderr
+    assert "in broken" in done.stderr  # the frame that raised it
+    assert done.stderr.rstrip().endswith("ValueError: an invariant of the scan did not hold")
+
+
+def test_an_input_error_is_not_a_bug_under_debug_either(tmp_path: Path, corpus: Path) -> None:
+    """--debug shows tracebacks of bugs only; bad input stays one line, exit 2."""
+    bad = tmp_path / "bad.toml"
+    bad.write_text(CHANGES.replace('kind = "removed"', 'kind = "deleted"'), encoding="utf-8")
+    done = subprocess.run(
+        [sys.executable, "-m", "impactscope.cli", "--debug", "scan", str(bad), str(corpus), "--out", str(tmp_path / "r.sqlite")],
+        capture_output=True, text=True, timeout=120,
+    )
+    assert done.returncode == 2, done.stderr
+    assert "Traceback" not in done.stderr
+    assert len([ln for ln in done.stderr.splitlines() if ln.strip()]) == 1
+
+
+def test_guarded_passes_anything_but_input_errors_on() -> None:
+    import typer
+
+    from impactscope.cli import _guarded
+    from impactscope.errors import InputError
+
+    def raise_(exc: BaseException):
+        def action():
+            raise exc
+        return action
+
+    with pytest.raises(typer.Exit) as stopped:
+        _guarded(raise_(InputError("x.toml: something to fix")))
+    assert stopped.value.exit_code == 2
+    with pytest.raises(ValueError, match="a bug"):
+        _guarded(raise_(ValueError("a bug")))
+    with pytest.raises(UnicodeDecodeError):  # a ValueError from the standard library is a bug too
+        _guarded(raise_(UnicodeDecodeError("utf-8", b"\xff", 0, 1, "invalid start byte")))
