@@ -1,0 +1,184 @@
+"""Rewrite one project: scan it as `scan` does, then turn its resolved sites into new file bytes.
+
+The files are read once: the scan's own reads are kept (a tar member can be read only while
+its archive is at that member), and only the files holding a finding are rewritten.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+from dataclasses import dataclass
+from typing import Callable, Iterator
+
+import libcst as cst
+
+from impactscope.changes import Change
+from impactscope.corpus import Entry, Project, SourceError, read_notebook
+from impactscope.findings import Finding
+from impactscope.resolve.query import Query
+from impactscope.rewrite.lines import Lines, apply, hunks
+from impactscope.rewrite.notebook import NotebookShapeError, cell_sources, splice
+from impactscope.rewrite.plan import Planner, Review, why_not_rewritten
+from impactscope.rewrite.pyfile import PyFile
+from impactscope.rewrite.transform import apply_edits
+from impactscope.scan.project import scan_project
+
+
+@dataclass(frozen=True)
+class FileRewrite:
+    path: str  # POSIX, relative to the project root
+    old: bytes
+    new: bytes
+
+
+@dataclass(frozen=True)
+class ProjectRewrite:
+    name: str
+    origin: str
+    files: tuple[FileRewrite, ...]
+    rewritten: tuple[Finding, ...]  # sites edited
+    review: tuple[Review, ...]
+    settled: int = 0  # resolved sites of a mechanical change that need no edit
+    scanned_files: int = 0
+
+
+def _keeping(project: Project, kept: dict[str, bytes]) -> Project:
+    """`project` whose source files' bytes are kept in `kept` as the scan reads them."""
+
+    def listing() -> Iterator[Entry]:
+        for entry in project.entries():
+            if entry.path.endswith((".py", ".pyw", ".ipynb")) and entry.skip is None and entry.error is None:
+                read = entry.read
+
+                def keep(read: Callable[[], bytes] = read, path: str = entry.path) -> bytes:
+                    data = read()
+                    kept[path] = data
+                    return data
+
+                entry = dataclasses.replace(entry, read=keep)
+            yield entry
+
+    return Project(project.name, project.origin, listing, project.limits)
+
+
+def rewrite_project(project: Project, query: Query) -> ProjectRewrite:
+    kept: dict[str, bytes] = {}
+    result = scan_project(_keeping(project, kept), query)
+    changes = {c.id: c for c in query.changes.changes}
+    model = query.model
+
+    def is_class(dotted: str) -> bool:
+        return bool(model.is_class(model.canonical(dotted)))
+
+    by_file: dict[str, list[Finding]] = {}
+    for finding in result.findings:
+        by_file.setdefault(finding.file, []).append(finding)
+    texts = {p: d.decode("utf-8", "replace") for p, d in kept.items()}
+    files: list[FileRewrite] = []
+    rewritten: list[Finding] = []
+    review: list[Review] = []
+    settled = 0
+    for path, findings in sorted(by_file.items()):
+        todo = [f for f in findings if why_not_rewritten(f, changes[f.change], is_class) is None]
+        if not todo or path not in kept:
+            for f in findings:
+                why = why_not_rewritten(f, changes[f.change], is_class)
+                review.append(Review(f, why or "the file could not be read again"))
+            continue
+        others = [t for p, t in texts.items() if p != path]
+
+        def spelled_elsewhere(name: str, others: list[str] = others) -> bool:
+            word = re.compile(rf"(?<!\w){re.escape(name)}(?!\w)")
+            return any(name in t and word.search(t) for t in others)
+
+        outcome = _rewrite_file(path, kept[path], findings, changes, is_class, spelled_elsewhere)
+        if isinstance(outcome, str):
+            review.extend(Review(f, why_not_rewritten(f, changes[f.change], is_class) or outcome) for f in findings)
+            continue
+        new, done, left, quiet = outcome
+        review.extend(left)
+        settled += quiet
+        if new != kept[path]:
+            files.append(FileRewrite(path, kept[path], new))
+            rewritten.extend(done)
+    return ProjectRewrite(result.name, result.origin, tuple(files), tuple(sorted(rewritten)), tuple(review), settled,
+                          len(result.files))
+
+
+_Outcome = tuple[bytes, list[Finding], list[Review], int]
+
+
+def _rewrite_file(path: str, data: bytes, findings: list[Finding], changes: dict[str, Change],
+                  is_class: Callable[[str], bool], spelled_elsewhere: Callable[[str], bool]) -> _Outcome | str:
+    """New bytes for one file, the sites rewritten, those left for review and the number that
+    need no edit; or the reason the whole file goes to review."""
+    if path.endswith(".ipynb"):
+        return _rewrite_notebook(path, data, findings, changes, is_class, spelled_elsewhere)
+    try:
+        file = PyFile.read(data)
+        module = cst.parse_module(file.lines.normalised)
+    except (SyntaxError, UnicodeDecodeError, LookupError, cst.ParserSyntaxError, RecursionError) as exc:
+        return f"cannot be parsed again for rewriting ({type(exc).__name__})"
+    plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere).run(findings)
+    new_code = apply_edits(plan.module, plan.edits).code
+    text = apply(file.lines, hunks(file.lines.normalised, new_code))
+    try:
+        new = file.encode(text)
+    except UnicodeEncodeError:
+        return f"a new name cannot be written in the file's encoding ({file.encoding})"
+    return new, plan.rewritten, plan.review, len(plan.settled)
+
+
+def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: dict[str, Change],
+                      is_class: Callable[[str], bool], spelled_elsewhere: Callable[[str], bool]) -> _Outcome | str:
+    try:
+        raw = data.decode("utf-8")
+        sources = cell_sources(raw)
+        source = read_notebook(data, path)
+    except (UnicodeDecodeError, NotebookShapeError, SourceError) as exc:
+        return f"notebook not rewritable: {exc}"
+    by_cell: dict[int | None, list[Finding]] = {}
+    for f in findings:
+        by_cell.setdefault(f.cell, []).append(f)
+    code_cells = {c.index: c for c in source.cells}
+    new_sources: dict[int, str] = {}
+    done: list[Finding] = []
+    left: list[Review] = []
+    quiet = 0
+    for index, cell_findings in sorted(by_cell.items(), key=lambda kv: -1 if kv[0] is None else kv[0]):
+        cell = code_cells.get(index) if index is not None else None
+        if cell is None or index not in sources:
+            left.extend(Review(f, "cell not read as Python (a cell magic of another language?)") for f in cell_findings)
+            continue
+        try:
+            module = cst.parse_module(cell.code)
+        except (cst.ParserSyntaxError, RecursionError):
+            left.extend(Review(f, "cell cannot be parsed again for rewriting") for f in cell_findings)
+            continue
+        offset = cell.first_line - 1
+        plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere,
+                       line_offset=offset).run(cell_findings)
+        left.extend(plan.review)
+        quiet += len(plan.settled)
+        if not plan.edits:
+            continue
+        original = Lines.of(sources[index].text(raw))
+        new_code = apply_edits(plan.module, plan.edits).code
+        changed = hunks(cell.code, new_code)
+        code_lines = cell.code.split("\n")
+        # IPython's transformer rewrote magic and shell lines: an edit may touch only lines
+        # that are the cell's own text.
+        if any(
+            hunk.start + offset + k >= len(original.bodies) or original.bodies[hunk.start + offset + k] != code_lines[hunk.start + k]
+            for hunk in changed
+            for k in range(hunk.stop - hunk.start)
+        ):
+            left.extend(Review(f, "on a line IPython rewrites (a magic or shell escape): edit it by hand") for f in plan.rewritten)
+            continue
+        shifted = [dataclasses.replace(h, start=h.start + offset, stop=h.stop + offset) for h in changed]
+        new_sources[index] = apply(original, shifted)
+        done.extend(plan.rewritten)
+    if not new_sources:
+        return data, done, left, quiet
+    return splice(raw, new_sources).encode("utf-8"), done, left, quiet
