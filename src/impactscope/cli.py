@@ -297,6 +297,45 @@ def sample(
 
 
 @app.command()
+def rewrite(
+    changes: Path = typer.Argument(..., help="The change list (TOML)."),
+    roots: List[Path] = typer.Argument(..., help="Corpus roots: folders or archives of projects."),
+    out: Path = typer.Option(..., "--out", help="Folder for PROJECT.patch files and review.md / review.json."),
+    single: bool = typer.Option(False, "--single", help="Treat each root as one project."),
+    jobs: int = typer.Option(1, "--jobs", help="Worker processes (0: one per core)."),
+    library_source: Optional[Path] = typer.Option(
+        None, "--library-source", help="Read the library's own source here (overrides \\[library] source in the change list)."
+    ),
+    apply: bool = typer.Option(False, "--apply", help="Rewrite folder projects in place instead of writing patches."),
+    check: bool = typer.Option(False, "--check", help="Exit 1 when any rewrite is pending (patches are still written)."),
+    quiet: bool = typer.Option(False, "--quiet", help="Print nothing but errors."),
+) -> None:
+    """Rewrite the proven uses of renamed, moved and re-parameterised members: patches and a review list."""
+    from impactscope.rewrite.run import run_rewrite
+    from impactscope.scan.progress import for_stream
+
+    if jobs < 0:
+        typer.echo("impactscope: error: --jobs must be 0 (one per core) or a positive number", err=True)
+        raise typer.Exit(2)
+    if apply and check:
+        typer.echo("impactscope: error: give --apply or --check, not both (--check only reports)", err=True)
+        raise typer.Exit(2)
+    summary = _guarded(
+        lambda: run_rewrite(changes, roots, out, single=single, jobs=jobs, library_source=library_source,
+                            apply=apply, progress=for_stream(sys.stderr, quiet=quiet))
+    )
+    if not quiet:
+        done = "rewrote in place" if summary.applied else "patched"
+        typer.echo(
+            f"{summary.projects} projects: {done} {summary.files} files in {summary.patched} projects "
+            f"({summary.rewritten} sites); {summary.review} sites to review -> {summary.out}",
+            err=True,
+        )
+    if check and summary.pending:
+        raise typer.Exit(1)
+
+
+@app.command()
 def demo(
     projects: int = typer.Option(240, "--projects", help="How many fictional projects to generate."),
     seed: int = typer.Option(7, "--seed", help="Seed of the corpus generator."),

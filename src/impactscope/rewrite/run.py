@@ -17,6 +17,7 @@ from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus import Project, check_roots, discover
 from impactscope.corpus.roots import archive_stem
 from impactscope.errors import InputError
+from impactscope.errors import InputError
 from impactscope.rewrite.patch import project_patch
 from impactscope.rewrite.plan import Review
 from impactscope.rewrite.project import ProjectRewrite, rewrite_project
@@ -171,7 +172,7 @@ def _apply(done: list[ProjectRewrite]) -> None:
     archives = [p.origin for p in done if p.files and _target(p, p.files[0].path) is None]
     if archives:
         raise RewriteOptionError(
-            f"--apply edits folder projects only; {archives[0]} is an archive or a loose file"
+            f"--apply edits folder projects only; {archives[0]} is an archive"
             f"{f' (and {len(archives) - 1} more)' if len(archives) > 1 else ''}: write patches without --apply and apply them"
         )
     for project in done:
