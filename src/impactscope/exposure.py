@@ -49,6 +49,8 @@ from packaging.utils import (
 )
 from packaging.version import InvalidVersion, Version
 
+from impactscope.errors import InputError
+
 __all__ = [
     "MANIFEST_PATTERNS",
     "Declared",
@@ -64,7 +66,7 @@ __all__ = [
 ]
 
 
-class ExposureError(ValueError):
+class ExposureError(InputError):
     """A release version or Python version given to the exposure check is not valid."""
 
 
@@ -506,7 +508,7 @@ def _poetry_range(constraint: str, shown: str, source: str, reader: _Reader) -> 
     return alternatives[0]
 
 
-class _ConstraintError(ValueError):
+class _ConstraintError(InputError):
     pass
 
 
