@@ -6,11 +6,11 @@ import sqlite3
 from pathlib import Path
 
 from impactscope.changes import parse_change_list
-from impactscope.findings import Confidence, Finding
-from impactscope.scan.project import FileOutcome, ProjectResult
 import pytest
 
-from impactscope.store import CachedProject, ResultStore, StoreError
+from impactscope.findings import Confidence, Finding, Reading
+from impactscope.outcomes import FileOutcome, FileStatus, ProjectResult
+from impactscope.store import FORMAT, CachedProject, ResultStore, StoreError
 
 TEXT = """\
 [library]
@@ -119,4 +119,54 @@ def test_rewriting_a_project_replaces_its_rows_and_prune_drops_the_gone(tmp_path
     assert store.prune({"p1"}) == 1
     assert [p.name for p in store.projects()] == ["p1"]
     assert store.manifests("p2") == {} and "p2" not in store.cached()
+    store.close()
+
+
+def test_outcomes_and_findings_come_back_as_values(tmp_path):
+    out = tmp_path / "r.sqlite"
+    store = ResultStore.create(out, _changes(), TEXT, settings="s1")
+    result = _result("p1")
+    token = Finding("p1", "old.py", None, 2, 0, "heronframe.stack", Confidence.POSSIBLE, "stack", Reading.TOKEN_LEVEL)
+    result.files.append(FileOutcome("old.py", FileStatus.UNPARSED, "python 2", digest="e", kind="module"))
+    result.findings.append(token)
+    store.add_project(result, "k1")
+    store.close()
+    reader = ResultStore.open(out)
+    files = dict((o.path, o) for _, o in reader.files())
+    assert files["b.txt"].status is FileStatus.SKIPPED and files["old.py"].status is FileStatus.UNPARSED
+    found = reader.findings()
+    assert token in found and found[found.index(token)].reading is Reading.TOKEN_LEVEL
+    assert {f.reading for f in found if f.file == "a.py"} == {Reading.SYNTAX_TREE}
+    reader.close()
+
+
+def _older_layout(path: Path) -> None:
+    """A results file as the version before `format` wrote it: no such meta key, no reading column."""
+    store = ResultStore.create(path, _changes(), TEXT, settings="s1")
+    store.add_project(_result("p1"), "k1")
+    store.close()
+    with sqlite3.connect(path) as db:
+        db.execute("DELETE FROM meta WHERE key = 'format'")
+        db.execute("ALTER TABLE findings DROP COLUMN reading")
+
+
+def test_a_file_of_an_older_layout_is_refused_for_reading_and_started_afresh_by_a_scan(tmp_path):
+    out = tmp_path / "r.sqlite"
+    _older_layout(out)
+    with pytest.raises(StoreError, match="older version .*lacks format.*--fresh"):
+        ResultStore.open(out)
+    store, kept = ResultStore.resume(out, _changes(), TEXT, settings="s1")
+    assert not kept and store.projects() == [] and store.meta()["format"] == FORMAT
+    store.close()
+
+
+def test_a_file_of_another_layout_is_refused_with_both_layouts_named(tmp_path):
+    out = tmp_path / "r.sqlite"
+    store = ResultStore.create(out, _changes(), TEXT, settings="s1")
+    store.set_meta(format="99")
+    store.close()
+    with pytest.raises(StoreError, match=f"layout 99, and this version reads layout {FORMAT}"):
+        ResultStore.open(out)
+    store, kept = ResultStore.resume(out, _changes(), TEXT, settings="s1")
+    assert not kept
     store.close()

@@ -19,12 +19,16 @@ from typing import Iterator
 from impactscope import __version__
 from impactscope.changes import ChangeList, parse_change_list
 from impactscope.errors import InputError
-from impactscope.findings import Confidence, Finding
+from impactscope.findings import Confidence, Finding, Reading
+from impactscope.outcomes import FileOutcome, FileStatus, ProjectResult
 from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
-from impactscope.scan.project import FileOutcome, ProjectResult
+
+# The layout of the tables below. A file of another layout is refused by `open` and started
+# afresh by `resume`. 2: findings.reading (before it, a "legacy: " prefix on the pattern).
+FORMAT = "2"
 
 # What every results file this version writes holds in `meta`, and `report` reads.
-_REQUIRED_META = frozenset({"library", "tool_version", "changes_toml"})
+_REQUIRED_META = frozenset({"library", "tool_version", "changes_toml", "format"})
 
 SCHEMA = """
 CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
@@ -35,7 +39,8 @@ CREATE TABLE IF NOT EXISTS files (
     digest TEXT, kind TEXT, PRIMARY KEY (project, path));
 CREATE TABLE IF NOT EXISTS findings (
     project TEXT NOT NULL, file TEXT NOT NULL, cell INTEGER, line INTEGER NOT NULL,
-    col INTEGER NOT NULL, change TEXT NOT NULL, confidence INTEGER NOT NULL, pattern TEXT NOT NULL);
+    col INTEGER NOT NULL, change TEXT NOT NULL, confidence INTEGER NOT NULL, pattern TEXT NOT NULL,
+    reading TEXT NOT NULL);
 CREATE INDEX IF NOT EXISTS findings_project ON findings (project);
 CREATE TABLE IF NOT EXISTS manifests (
     project TEXT NOT NULL, path TEXT NOT NULL, content BLOB NOT NULL, PRIMARY KEY (project, path));
@@ -94,6 +99,7 @@ class ResultStore:
             changes_path=str(changes.source or ""),
             changes_digest=changes.digest,
             tool_version=__version__,
+            format=FORMAT,
             scan_settings=settings,
             complete="0",
         )
@@ -116,6 +122,7 @@ class ResultStore:
                 meta, db = {}, None
             if db is not None and meta.get("scan_settings") == settings and settings and (
                 meta.get("changes_digest") == changes.digest and meta.get("tool_version") == __version__
+                and meta.get("format") == FORMAT
             ):
                 db.executescript(SCHEMA)
                 store = cls(p, db)
@@ -178,6 +185,13 @@ class ResultStore:
             raise StoreError(
                 f"{p}: not an impactscope results file, or one from an older version (it lacks "
                 f"{', '.join(missing)}); scan again with `impactscope scan CHANGES ROOT --out {p} --fresh`"
+            )
+        found = db.execute("SELECT value FROM meta WHERE key = 'format'").fetchone()[0]
+        if found != FORMAT:
+            db.close()
+            raise StoreError(
+                f"{p}: a results file of layout {found}, and this version reads layout {FORMAT}; "
+                f"scan again with `impactscope scan CHANGES ROOT --out {p} --fresh`"
             )
         return cls(p, db)
 
@@ -251,12 +265,12 @@ class ResultStore:
         self._delete_project(result.name)
         self._db.executemany(
             "INSERT INTO files VALUES (?, ?, ?, ?, ?, ?, ?)",
-            [(result.name, f.path, f.status, f.reason, f.detail, f.digest, f.kind) for f in result.files],
+            [(result.name, f.path, f.status.value, f.reason, f.detail, f.digest, f.kind) for f in result.files],
         )
         self._db.executemany(
-            "INSERT INTO findings VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+            "INSERT INTO findings VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
             [
-                (f.project, f.file, f.cell, f.line, f.column, f.change, int(f.confidence), f.pattern)
+                (f.project, f.file, f.cell, f.line, f.column, f.change, int(f.confidence), f.pattern, f.reading.value)
                 for f in result.findings
             ],
         )
@@ -287,22 +301,23 @@ class ResultStore:
             "SELECT project, path, status, reason, detail, digest, kind FROM files ORDER BY project, path"
         )
         for project, path, status, reason, detail, digest, kind in rows:
-            yield project, FileOutcome(path, status, reason, detail or "", digest, kind)
+            yield project, FileOutcome(path, FileStatus(status), reason, detail or "", digest, kind)
 
     def findings(self) -> list[Finding]:
         rows = self._db.execute(
-            "SELECT project, file, cell, line, col, change, confidence, pattern FROM findings"
+            "SELECT project, file, cell, line, col, change, confidence, pattern, reading FROM findings"
         )
         return sorted(
-            Finding(p, f, c, ln, col, ch, Confidence(conf), pat) for p, f, c, ln, col, ch, conf, pat in rows
+            Finding(p, f, c, ln, col, ch, Confidence(conf), pat, Reading(how))
+            for p, f, c, ln, col, ch, conf, pat, how in rows
         )
 
     def fault_counts(self) -> dict[str, int]:
         """Files by reason of failure: an unexpected exception on the file ("analysis error") or
         its project's worker process dying ("worker died")."""
         rows = self._db.execute(
-            "SELECT reason, COUNT(*) FROM files WHERE status = 'unparsed' AND reason IN (?, ?) GROUP BY reason",
-            (ANALYSIS_ERROR, WORKER_DIED),
+            "SELECT reason, COUNT(*) FROM files WHERE status = ? AND reason IN (?, ?) GROUP BY reason",
+            (FileStatus.UNPARSED.value, ANALYSIS_ERROR, WORKER_DIED),
         )
         return {reason: count for reason, count in rows}
 

@@ -61,7 +61,7 @@ def run_demo(base: Path, *, projects: int, seed: int, echo: Callable[[str], None
     finally:
         store.close()
     echo(to_table(document))
-    scores = score(findings, truth.to_json()["expected"], [c["id"] for c in document["changes"]])
+    scores = score(findings, truth.to_json()["expected"], [c.id for c in document.changes])
     echo("Check against the generator's ground truth (resolved findings, per change):")
     for change, s in scores.items():
         echo(

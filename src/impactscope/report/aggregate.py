@@ -1,22 +1,33 @@
-"""Aggregate the store into the report document (DESIGN.md's JSON keys, plus additions)."""
+"""Aggregate the store into the report model (`report.model.Report`), once per report."""
 
 from __future__ import annotations
 
 import json
 from collections import Counter
-from typing import Any
 
 import pandas as pd
 
-from impactscope.findings import Confidence
+from impactscope.findings import Confidence, Finding, Reading
+from impactscope.outcomes import FileOutcome, FileStatus
 from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.report.model import (
+    ByCertainty,
+    CertaintyGroup,
+    ChangeReport,
+    FailedFile,
+    FileReason,
+    NotProject,
+    PatternRow,
+    PerLevel,
+    ProjectFiles,
+    Report,
+    Totals,
+)
 from impactscope.report.sizing import SizingOptions, change_sizing, corpus_sizing, project_facts
 from impactscope.store import ResultStore
 
-LEVELS = (Confidence.RESOLVED, Confidence.INFERRED, Confidence.POSSIBLE)
 
-
-def build_report(store: ResultStore, options: SizingOptions | None = None) -> dict[str, Any]:
+def build_report(store: ResultStore, options: SizingOptions | None = None) -> Report:
     options = options or SizingOptions()
     changes = store.change_list()
     projects = store.projects()
@@ -24,22 +35,20 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
     file_rows = list(store.files())
 
     status = Counter(outcome.status for _, outcome in file_rows)
-    reasons: Counter[tuple[str, str]] = Counter(
-        (outcome.status, outcome.reason or "") for _, outcome in file_rows if outcome.status != "parsed"
+    reasons: Counter[tuple[FileStatus, str]] = Counter(
+        (outcome.status, outcome.reason or "") for _, outcome in file_rows if outcome.status is not FileStatus.PARSED
     )
-    totals = {
-        "projects": len(projects),
-        "projects_using_library": sum(p.uses_library for p in projects),
-        "files": len(file_rows),
-        "files_parsed": status["parsed"],
-        "files_skipped": status["skipped"],
-        "files_unparsed": status["unparsed"],
-        # Part of files_unparsed: an unexpected exception met on the file (a bug to report), and
-        # files of projects whose worker process died twice.
-        "files_analysis_error": reasons[("unparsed", ANALYSIS_ERROR)],
-        "files_worker_died": reasons[("unparsed", WORKER_DIED)],
-    }
-    by_project: dict[str, list] = {}
+    totals = Totals(
+        projects=len(projects),
+        projects_using_library=sum(p.uses_library for p in projects),
+        files=len(file_rows),
+        files_parsed=status[FileStatus.PARSED],
+        files_skipped=status[FileStatus.SKIPPED],
+        files_unparsed=status[FileStatus.UNPARSED],
+        files_analysis_error=reasons[(FileStatus.UNPARSED, ANALYSIS_ERROR)],
+        files_worker_died=reasons[(FileStatus.UNPARSED, WORKER_DIED)],
+    )
+    by_project: dict[str, list[FileOutcome]] = {}
     for project, outcome in file_rows:
         by_project.setdefault(project, []).append(outcome)
     facts = project_facts(
@@ -50,89 +59,90 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> di
         findings,
         options,
     )
-    frame = pd.DataFrame(
-        [(f.project, f.file, f.change, int(f.confidence), f.pattern) for f in findings],
-        columns=["project", "file", "change", "confidence", "pattern"],
-    )
+    frame = _frame(findings)
     out_changes = []
     for change in changes.changes:
         rows = frame[frame["change"] == change.id]
-        counts = {
-            level.label: int(rows[rows["confidence"] >= int(level)]["project"].nunique()) for level in LEVELS
-        }
-        patterns = []
-        if not rows.empty:
-            rows = rows.assign(where=rows["project"] + "\0" + rows["file"])
-            grouped = rows.groupby("pattern").agg(
-                projects=("project", "nunique"), sites=("project", "size"), files=("where", "nunique"),
-                strongest=("confidence", "max"),
-            )
-            grouped = grouped.reset_index().sort_values(["projects", "sites", "pattern"], ascending=[False, False, True])
-            patterns = [
-                {
-                    "pattern": r.pattern, "projects": int(r.projects), "sites": int(r.sites), "files": int(r.files),
-                    "confidence": Confidence(int(r.strongest)).label,
-                }
-                for r in grouped.itertuples(index=False)
-            ]
+        sizing = change_sizing(change.id, findings, facts, options)
         out_changes.append(
-            {
-                "id": change.id,
-                "member": change.member,
-                "kind": change.kind.value,
-                "certainty": change.certainty,  # as a draft wrote it; None when written by hand
-                "replacement": change.replacement,
-                "note": change.note,
-                "projects": counts,
-                "sites": int(len(rows)),
-                "files": int(rows[["project", "file"]].drop_duplicates().shape[0]) if not rows.empty else 0,
-                "patterns": patterns,
-                **change_sizing(change.id, findings, facts, options),
-            }
+            ChangeReport(
+                id=change.id,
+                member=change.member,
+                kind=change.kind,
+                certainty=change.certainty,
+                replacement=change.replacement,
+                note=change.note,
+                projects=PerLevel.build(lambda level: int(rows[rows["confidence"] >= int(level)]["project"].nunique())),
+                sites=int(len(rows)),
+                files=int(rows[["project", "file"]].drop_duplicates().shape[0]) if not rows.empty else 0,
+                patterns=_patterns(rows),
+                share=sizing.share,
+                exposure=sizing.exposure,
+                projects_fork_collapsed=sizing.projects_fork_collapsed,
+                legacy_sites=sizing.legacy_sites,
+                weighted_share=sizing.weighted_share,
+            )
         )
-    affected = frame["project"].nunique() if not frame.empty else 0
-    # Low-certainty draft entries are counted apart, so that a guess does not swell the totals.
     low = {c.id for c in changes.changes if c.uncertain}
     apart = {
-        name: {
-            "changes": sum(1 for c in changes.changes if (c.id in low) == is_low),
-            "projects_affected": int(frame[frame["change"].isin(low) == is_low]["project"].nunique()) if not frame.empty else 0,
-        }
-        for name, is_low in (("low", True), ("other", False))
+        is_low: CertaintyGroup(
+            changes=sum(1 for c in changes.changes if (c.id in low) == is_low),
+            projects_affected=int(frame[frame["change"].isin(low) == is_low]["project"].nunique()) if not frame.empty else 0,
+        )
+        for is_low in (True, False)
     }
     meta = store.meta()
-    return {
-        "library": changes.library,
-        "release": str(changes.release) if changes.release else None,
-        "complete": meta.get("complete") == "1",
-        "totals": totals,
-        "file_reasons": [
-            {"status": s, "reason": r, "files": n} for (s, r), n in sorted(reasons.items())
-        ],
-        "projects_affected": int(affected),
-        "by_certainty": apart,
-        # What the roots held besides projects (hidden entries, stray files, unsafe archive paths).
-        "not_projects": [
-            {"path": path, "reason": reason} for path, reason in json.loads(meta.get("not_projects") or "[]")
-        ],
-        "changes": out_changes,
-        "corpus": corpus_sizing(by_project, facts),
-        "projects": [facts[p.name] for p in projects],
-        "findings": [f.to_json() for f in findings],
-        "files_by_project": _per_project(file_rows),
-        # Each file the scan failed on, with its one-line detail: what a bug report needs.
-        "failed_files": [
-            {"project": project, "file": o.path, "reason": o.reason, "detail": o.detail}
+    return Report(
+        library=changes.library,
+        release=str(changes.release) if changes.release else None,
+        complete=meta.get("complete") == "1",
+        totals=totals,
+        file_reasons=tuple(FileReason(s, r, n) for (s, r), n in sorted(reasons.items())),
+        projects_affected=int(frame["project"].nunique()) if not frame.empty else 0,
+        by_certainty=ByCertainty(low=apart[True], other=apart[False]),
+        not_projects=tuple(NotProject(path, reason) for path, reason in json.loads(meta.get("not_projects") or "[]")),
+        changes=tuple(out_changes),
+        corpus=corpus_sizing(by_project, facts),
+        projects=tuple(facts[p.name] for p in projects),
+        findings=tuple(findings),
+        files_by_project=_per_project(file_rows),
+        failed_files=tuple(
+            FailedFile(project, o.path, o.reason, o.detail)
             for project, o in file_rows
-            if o.status == "unparsed" and o.reason in (ANALYSIS_ERROR, WORKER_DIED)
-        ],
-    }
+            if o.status is FileStatus.UNPARSED and o.reason in (ANALYSIS_ERROR, WORKER_DIED)
+        ),
+    )
 
 
-def _per_project(file_rows: list) -> dict[str, dict[str, int]]:
-    out: dict[str, dict[str, int]] = {}
+def _frame(findings: list[Finding]) -> pd.DataFrame:
+    """One row per finding; `label` is the pattern as reports show it, so patterns group by it."""
+    return pd.DataFrame(
+        [(f.project, f.file, f.change, int(f.confidence), f.pattern, f.reading.value, f.label) for f in findings],
+        columns=["project", "file", "change", "confidence", "pattern", "reading", "label"],
+    )
+
+
+def _patterns(rows: pd.DataFrame) -> tuple[PatternRow, ...]:
+    """A change's patterns, most projects first, then most sites, then by label."""
+    if rows.empty:
+        return ()
+    rows = rows.assign(where=rows["project"] + "\0" + rows["file"])
+    grouped = rows.groupby(["label", "pattern", "reading"]).agg(
+        projects=("project", "nunique"), sites=("project", "size"), files=("where", "nunique"),
+        strongest=("confidence", "max"),
+    )
+    grouped = grouped.reset_index().sort_values(["projects", "sites", "label"], ascending=[False, False, True])
+    return tuple(
+        PatternRow(r.pattern, Reading(r.reading), int(r.projects), int(r.sites), int(r.files), Confidence(int(r.strongest)))
+        for r in grouped.itertuples(index=False)
+    )
+
+
+def _per_project(file_rows: list[tuple[str, FileOutcome]]) -> tuple[ProjectFiles, ...]:
+    counts: dict[str, Counter[FileStatus]] = {}
     for project, outcome in file_rows:
-        row = out.setdefault(project, {"files": 0, "parsed": 0, "skipped": 0, "unparsed": 0})
-        row["files"] += 1
-        row[outcome.status] += 1
-    return out
+        counts.setdefault(project, Counter())[outcome.status] += 1
+    return tuple(
+        ProjectFiles(project, sum(c.values()), c[FileStatus.PARSED], c[FileStatus.SKIPPED], c[FileStatus.UNPARSED])
+        for project, c in counts.items()
+    )

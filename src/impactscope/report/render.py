@@ -1,77 +1,75 @@
-"""Renderers: the same report document as a terminal table, JSON, or Markdown."""
+"""Renderers: the report model as a terminal table, JSON, or Markdown. They read only the model."""
 
 from __future__ import annotations
 
 import io
 import json
-from typing import Any
 
 from rich.console import Console
 from rich.table import Table
 
+from impactscope.report.model import ChangeReport, Report
+
 FAILED_ROWS = 20  # the terminal table lists this many failed files; JSON lists them all
 
 
-def to_json(report: dict[str, Any]) -> str:
-    return json.dumps(report, indent=2, sort_keys=False) + "\n"
+def to_json(report: Report) -> str:
+    return json.dumps(report.to_json(), indent=2, sort_keys=False) + "\n"
 
 
-def _confidence(report: dict[str, Any]) -> str:
-    for c in report["changes"]:
-        if c.get("share"):
-            return f"{c['share']['confidence']:.0%}"
-    return "95%"
+def _confidence(report: Report) -> str:
+    level = report.interval_confidence
+    return f"{level:.0%}" if level is not None else "95%"
 
 
-def _bounds(change: dict[str, Any]) -> str:
-    p = change["projects"]
-    return f"{p['resolved']} / {p['inferred']} / {p['possible']}"
+def _bounds(change: ChangeReport) -> str:
+    p = change.projects
+    return f"{p.resolved} / {p.inferred} / {p.possible}"
 
 
-def _share(change: dict[str, Any]) -> str:
-    share = change.get("share")
-    if not share or not share["denominator"]:
+def _share(change: ChangeReport) -> str:
+    share = change.share
+    if not share.denominator:
         return "n/a"
-    r, p = share["resolved"], share["possible"]
-    return f"{r['estimate']:.1%} ({r['low']:.1%}–{p['high']:.1%})"
+    r, p = share.levels.resolved, share.levels.possible
+    return f"{r.estimate:.1%} ({r.low:.1%}–{p.high:.1%})"
 
 
-def _exposed(change: dict[str, Any]) -> str:
-    e = change.get("exposure") or {}
-    return f"{e.get('exposed', 0)} / {e.get('shielded', 0)} / {e.get('unconstrained', 0)}"
+def _exposed(change: ChangeReport) -> str:
+    e = change.exposure
+    return f"{e.exposed} / {e.shielded} / {e.unconstrained}"
 
 
-def _legacy_rows(report: dict[str, Any]) -> list[tuple[str, int, int]]:
+def _legacy_rows(report: Report) -> list[tuple[str, int, int]]:
     rows = []
-    for c in report["changes"]:
-        sites = [f for f in report["findings"] if f["change"] == c["id"] and f["pattern"].startswith("legacy:")]
+    for c in report.changes:
+        sites = [f for f in report.findings if f.change == c.id and f.token_level]
         if sites:
-            rows.append((c["id"], len({f["project"] for f in sites}), len(sites)))
+            rows.append((c.id, len({f.project for f in sites}), len(sites)))
     return rows
 
 
-def _faults(report: dict[str, Any]) -> str:
+def _faults(report: Report) -> str:
     """How many files the scan failed on (bugs to report), as part of the unparsed count."""
-    t = report["totals"]
-    text = f"{t.get('files_analysis_error', 0)} with an analysis error"
-    if t.get("files_worker_died"):
-        text += f", {t['files_worker_died']} in projects whose worker died"
+    t = report.totals
+    text = f"{t.files_analysis_error} with an analysis error"
+    if t.files_worker_died:
+        text += f", {t.files_worker_died} in projects whose worker died"
     return text
 
 
-def _users(report: dict[str, Any]) -> str:
-    t = report["totals"]
-    return f"{t['projects_using_library']} projects that use {report['library']}"
+def _users(report: Report) -> str:
+    return f"{report.totals.projects_using_library} projects that use {report.library}"
 
 
-def to_markdown(report: dict[str, Any]) -> str:
-    t = report["totals"]
+def to_markdown(report: Report) -> str:
+    t = report.totals
     lines = [
-        f"# Impact of {report['library']} {report['release'] or ''}".rstrip(),
+        f"# Impact of {report.library} {report.release or ''}".rstrip(),
         "",
-        f"Scanned {t['projects']} projects ({t['projects_using_library']} use {report['library']}); "
-        f"{t['files']} files: {t['files_parsed']} parsed, {t['files_skipped']} skipped, "
-        f"{t['files_unparsed']} unparsed ({_faults(report)}).",
+        f"Scanned {t.projects} projects ({t.projects_using_library} use {report.library}); "
+        f"{t.files} files: {t.files_parsed} parsed, {t.files_skipped} skipped, "
+        f"{t.files_unparsed} unparsed ({_faults(report)}).",
         "",
         "Projects hit are given as proven / likely / at most (resolved, inferred, possible). "
         f"Share is of the {_users(report)}: the proven share, with the interval running from the low end "
@@ -84,72 +82,71 @@ def to_markdown(report: dict[str, Any]) -> str:
     sure, low = _by_certainty(report)
     for c in sure:
         lines.append(
-            f"| {c['id']} | `{c['member']}` | {c['kind']} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c['sites']} |"
+            f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
         )
     if low:
         lines += ["", f"## Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts", "",
                   "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
                   "|---|---|---|---|---|---|---|"]
-        lines += [f"| {c['id']} | `{c['member']}` | {c['kind']} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c['sites']} |"
+        lines += [f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
                   for c in low]
     legacy = _legacy_rows(report)
     if legacy:
         lines += ["", "## Python 2 files (token-level reading, all at possible)", "",
                   "| change | projects | sites |", "|---|---|---|"]
         lines += [f"| {cid} | {p} | {n} |" for cid, p, n in legacy]
-    for c in report["changes"]:
-        if not c["patterns"]:
+    for c in report.changes:
+        if not c.patterns:
             continue
-        lines += ["", f"## {c['id']}: `{c['member']}` ({c['kind']})", ""]
-        if c.get("note"):
-            lines += [c["note"], ""]
+        lines += ["", f"## {c.id}: `{c.member}` ({c.kind.value})", ""]
+        if c.note:
+            lines += [c.note, ""]
         lines += ["| call pattern | how sure | projects | sites |", "|---|---|---|---|"]
-        for p in c["patterns"]:
-            lines.append(f"| `{p['pattern']}` | {p.get('confidence', '')} | {p['projects']} | {p['sites']} |")
-    if report["file_reasons"]:
+        for p in c.patterns:
+            lines.append(f"| `{p.label}` | {p.confidence.label} | {p.projects} | {p.sites} |")
+    if report.file_reasons:
         lines += ["", "## Files not analysed", "", "| status | reason | files |", "|---|---|---|"]
-        for r in report["file_reasons"]:
-            lines.append(f"| {r['status']} | {r['reason']} | {r['files']} |")
-    failed = report.get("failed_files") or []
+        for r in report.file_reasons:
+            lines.append(f"| {r.status.value} | {r.reason} | {r.files} |")
+    failed = report.failed_files
     if failed:
         lines += ["", "## Files the scan failed on (please report these)", "",
                   "| project | file | reason | detail |", "|---|---|---|---|"]
         for f in failed:
-            detail = f["detail"].replace("|", "\\|")
-            lines.append(f"| {f['project']} | `{f['file']}` | {f['reason']} | {detail} |")
-    if report.get("not_projects"):
+            detail = f.detail.replace("|", "\\|")
+            lines.append(f"| {f.project} | `{f.file}` | {f.reason} | {detail} |")
+    if report.not_projects:
         lines += ["", "## In the roots but not projects", "", "| reason | items |", "|---|---|"]
         for reason, count in _not_projects(report):
             lines.append(f"| {reason} | {count} |")
     return "\n".join(lines) + "\n"
 
 
-def _by_certainty(report: dict[str, Any]) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
+def _by_certainty(report: Report) -> tuple[list[ChangeReport], list[ChangeReport]]:
     """The changes, and apart from them those a draft marked `certainty = "low"`."""
-    low = [c for c in report["changes"] if c.get("certainty") == "low"]
-    return [c for c in report["changes"] if c.get("certainty") != "low"], low
+    return [c for c in report.changes if not c.low_certainty], [c for c in report.changes if c.low_certainty]
 
 
-def _low_line(report: dict[str, Any]) -> str:
-    counts = (report.get("by_certainty") or {}).get("low") or {}
-    return f"{counts.get('changes', 0)} changes, {counts.get('projects_affected', 0)} projects hit at most"
+def _low_line(report: Report) -> str:
+    low = report.by_certainty.low
+    return f"{low.changes} changes, {low.projects_affected} projects hit at most"
 
 
-def _not_projects(report: dict[str, Any]) -> list[tuple[str, int]]:
+def _not_projects(report: Report) -> list[tuple[str, int]]:
     counts: dict[str, int] = {}
-    for item in report.get("not_projects", []):
-        counts[item["reason"]] = counts.get(item["reason"], 0) + 1
+    for item in report.not_projects:
+        counts[item.reason] = counts.get(item.reason, 0) + 1
     return sorted(counts.items())
 
 
-def to_table(report: dict[str, Any], width: int = 150) -> str:
+def to_table(report: Report, width: int = 150) -> str:
     buffer = io.StringIO()
     console = Console(file=buffer, width=width, force_terminal=False, color_system=None, emoji=False)
-    t = report["totals"]
+    t = report.totals
     console.print(
-        f"{report['library']} {report['release'] or ''}: {t['projects']} projects scanned, "
-        f"{t['projects_using_library']} use the library; files {t['files']} = "
-        f"{t['files_parsed']} parsed + {t['files_skipped']} skipped + {t['files_unparsed']} unparsed "
+        f"{report.library} {report.release or ''}: {t.projects} projects scanned, "
+        f"{t.projects_using_library} use the library; files {t.files} = "
+        f"{t.files_parsed} parsed + {t.files_skipped} skipped + {t.files_unparsed} unparsed "
         f"({_faults(report)})"
     )
     summary = Table(
@@ -161,7 +158,7 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
         summary.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
     sure, low = _by_certainty(report)
     for c in sure:
-        summary.add_row(c["id"], c["member"], c["kind"], _bounds(c), _share(c), _exposed(c), str(c["sites"]))
+        summary.add_row(c.id, c.member, c.kind.value, _bounds(c), _share(c), _exposed(c), str(c.sites))
     console.print(summary)
     if low:
         apart = Table(title=f"Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts",
@@ -169,7 +166,7 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
         for column in ("change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"):
             apart.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
         for c in low:
-            apart.add_row(c["id"], c["member"], c["kind"], _bounds(c), _share(c), _exposed(c), str(c["sites"]))
+            apart.add_row(c.id, c.member, c.kind.value, _bounds(c), _share(c), _exposed(c), str(c.sites))
         console.print(apart)
     legacy = _legacy_rows(report)
     if legacy:
@@ -179,37 +176,37 @@ def to_table(report: dict[str, Any], width: int = 150) -> str:
         for cid, p, n in legacy:
             table.add_row(cid, str(p), str(n))
         console.print(table)
-    for c in report["changes"]:
-        if not c["patterns"]:
+    for c in report.changes:
+        if not c.patterns:
             continue
-        table = Table(title=f"{c['id']} {c['member']}: call patterns", title_justify="left")
+        table = Table(title=f"{c.id} {c.member}: call patterns", title_justify="left")
         table.add_column("pattern")
         table.add_column("how sure")
         table.add_column("projects", justify="right")
         table.add_column("sites", justify="right")
-        for p in c["patterns"][:8]:
-            table.add_row(p["pattern"], p.get("confidence", ""), str(p["projects"]), str(p["sites"]))
-        if len(c["patterns"]) > 8:
-            table.add_row(f"... {len(c['patterns']) - 8} more", "", "")
+        for p in c.patterns[:8]:
+            table.add_row(p.label, p.confidence.label, str(p.projects), str(p.sites))
+        if len(c.patterns) > 8:
+            table.add_row(f"... {len(c.patterns) - 8} more", "", "")
         console.print(table)
-    if report["file_reasons"]:
+    if report.file_reasons:
         reasons = Table(title="Files not analysed", title_justify="left")
         for column in ("status", "reason", "files"):
             reasons.add_column(column, justify="right" if column == "files" else "left")
-        for r in report["file_reasons"]:
-            reasons.add_row(r["status"], r["reason"], str(r["files"]))
+        for r in report.file_reasons:
+            reasons.add_row(r.status.value, r.reason, str(r.files))
         console.print(reasons)
-    failed = report.get("failed_files") or []
+    failed = report.failed_files
     if failed:
         table = Table(title="Files the scan failed on (please report these)", title_justify="left")
         for column in ("project", "file", "reason", "detail"):
             table.add_column(column)
         for f in failed[:FAILED_ROWS]:
-            table.add_row(f["project"], f["file"], f["reason"], f["detail"])
+            table.add_row(f.project, f.file, f.reason, f.detail)
         if len(failed) > FAILED_ROWS:
             table.add_row(f"... {len(failed) - FAILED_ROWS} more (see --format json)", "", "", "")
         console.print(table)
-    if report.get("not_projects"):
+    if report.not_projects:
         stray = Table(title="In the roots but not projects", title_justify="left")
         stray.add_column("reason")
         stray.add_column("items", justify="right")

@@ -9,19 +9,19 @@ from __future__ import annotations
 
 import csv
 import io
+from collections import Counter
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Mapping, Sequence
+from typing import Mapping, Sequence
 
 from impactscope.changes import ChangeList
 from impactscope.errors import InputError
 from impactscope.estimate import Interval, weighted_share, wilson_interval
-from impactscope.exposure import classify, environment_for_python, read_manifests
+from impactscope.exposure import Exposure, classify, environment_for_python, read_manifests
 from impactscope.findings import Confidence, Finding
 from impactscope.forks import fork_families, unique_sources
-from impactscope.scan.project import FileOutcome
-
-LEVELS = (Confidence.RESOLVED, Confidence.INFERRED, Confidence.POSSIBLE)
+from impactscope.outcomes import FileStatus, FileOutcome
+from impactscope.report.model import CorpusFacts, Estimate, ExposureCounts, PerLevel, ProjectFacts, Share, WeightedShare
 
 
 class SizingError(InputError):
@@ -62,8 +62,8 @@ def read_weights(path: Path) -> dict[str, float]:
     return out
 
 
-def _interval_json(interval: Interval) -> dict[str, float]:
-    return {"estimate": round(interval.estimate, 6), "low": round(interval.low, 6), "high": round(interval.high, 6)}
+def _estimate(interval: Interval) -> Estimate:
+    return Estimate(round(interval.estimate, 6), round(interval.low, 6), round(interval.high, 6))
 
 
 def project_facts(
@@ -73,7 +73,7 @@ def project_facts(
     manifests: Mapping[str, Mapping[str, bytes]],
     findings: Sequence[Finding],
     options: SizingOptions,
-) -> dict[str, dict[str, Any]]:
+) -> dict[str, ProjectFacts]:
     """Per project: uses_library, exposure, constraint, legacy_python, fork_family."""
     hashes = {
         name: {f.path: f.digest for f in files.get(name, []) if f.digest and f.path.endswith(".py")}
@@ -83,88 +83,85 @@ def project_facts(
     environment = environment_for_python(options.python)
     excludes_py2 = changes.requires_python is not None and not changes.requires_python.contains("2.7", prereleases=True)
     resolved_projects = {f.project for f in findings if f.confidence is Confidence.RESOLVED}
-    out: dict[str, dict[str, Any]] = {}
+    out: dict[str, ProjectFacts] = {}
     for name, uses in projects:
         outcomes = files.get(name, [])
         py2 = [f for f in outcomes if f.reason == "python 2"]
-        py3 = [f for f in outcomes if f.status == "parsed" and f.kind == "module"]
+        py3 = [f for f in outcomes if f.status is FileStatus.PARSED and f.kind == "module"]
         legacy = bool(py2)
         read = read_manifests(manifests.get(name, {}), changes.library)
         declared = read.declared
-        exposure: str | None = None
+        exposure: Exposure | None = None
         if name in resolved_projects:
             if changes.release is not None:
                 exposure = classify(declared, changes.release, environment, python=read.python,
-                                    release_python=changes.requires_python).value
+                                    release_python=changes.requires_python)
             else:
-                exposure = "unconstrained"
-        out[name] = {
-            "project": name,
-            "uses_library": uses,
-            "exposure": exposure,
-            "constraint": "; ".join(d.text for d in declared) or None,
-            "legacy_python": legacy,
+                exposure = Exposure.UNCONSTRAINED
+        out[name] = ProjectFacts(
+            project=name,
+            uses_library=uses,
+            exposure=exposure,
+            constraint="; ".join(d.text for d in declared) or None,
+            legacy_python=legacy,
             # Python 2 only: some files are Python 2 and none of the analysed modules is Python 3.
-            "outside_release": bool(legacy and not py3 and excludes_py2),
-            "fork_family": families.get(name),
-            "manifest_problems": list(read.problems),
-        }
+            outside_release=bool(legacy and not py3 and excludes_py2),
+            fork_family=families.get(name),
+            manifest_problems=tuple(read.problems),
+        )
     return out
+
+
+@dataclass(frozen=True)
+class ChangeSizing:
+    """What sizing adds to one change's counts."""
+
+    share: Share
+    exposure: ExposureCounts
+    projects_fork_collapsed: PerLevel[int]
+    legacy_sites: int
+    weighted_share: WeightedShare | None
 
 
 def change_sizing(
     change_id: str,
     findings: Sequence[Finding],
-    facts: Mapping[str, Mapping[str, Any]],
+    facts: Mapping[str, ProjectFacts],
     options: SizingOptions,
-) -> dict[str, Any]:
-    users = [name for name, f in facts.items() if f["uses_library"]]
-    denominator = len(users)
+) -> ChangeSizing:
+    users = {name for name, f in facts.items() if f.uses_library}
     mine = [f for f in findings if f.change == change_id]
-    share: dict[str, Any] = {}
-    weighted: dict[str, Any] = {}
-    families: dict[str, int] = {}
-    for level in LEVELS:
-        hit = {f.project for f in mine if f.confidence >= level}
-        k = len(hit & set(users)) if users else 0
-        share[level.label] = _interval_json(
-            wilson_interval(k, denominator, options.confidence, options.population)
-        )
-        families[level.label] = len({facts[p]["fork_family"] or p for p in hit})
-        if options.weights is not None:
-            all_w = [options.weights.get(p, 0.0) for p in users]
-            hit_w = [options.weights.get(p, 0.0) for p in users if p in hit]
-            if sum(all_w) > 0:
-                weighted[level.label] = _interval_json(weighted_share(hit_w, all_w, options.confidence))
-    share["confidence"] = options.confidence
-    share["denominator"] = denominator
-    if options.population is not None:
-        share["population"] = options.population
-    resolved = {f.project for f in mine if f.confidence is Confidence.RESOLVED}
-    exposure = {"exposed": 0, "shielded": 0, "unconstrained": 0}
-    for p in resolved:
-        state = facts[p]["exposure"] or "unconstrained"
-        exposure[state] += 1
-    legacy_sites = sum(1 for f in mine if f.pattern.startswith("legacy:"))
-    out: dict[str, Any] = {
-        "share": share,
-        "exposure": exposure,
-        "projects_fork_collapsed": families,
-        "legacy_sites": legacy_sites,
-    }
-    if weighted:
-        weighted["confidence"] = options.confidence
-        out["weighted_share"] = weighted
-    return out
+    hit = PerLevel.build(lambda level: {f.project for f in mine if f.confidence >= level})
+    share = PerLevel.build(
+        lambda level: _estimate(wilson_interval(len(hit[level] & users), len(users), options.confidence, options.population))
+    )
+    families = PerLevel.build(lambda level: len({facts[p].fork_family or p for p in hit[level]}))
+    weighted: WeightedShare | None = None
+    if options.weights is not None:
+        ordered = [name for name in facts if name in users]
+        all_w = [options.weights.get(p, 0.0) for p in ordered]
+        if sum(all_w) > 0:
+            levels = PerLevel.build(lambda level: _estimate(weighted_share(
+                [options.weights.get(p, 0.0) for p in ordered if p in hit[level]], all_w, options.confidence  # type: ignore[union-attr]
+            )))
+            weighted = WeightedShare(levels, options.confidence)
+    exposure = Counter(facts[p].exposure or Exposure.UNCONSTRAINED for p in hit[Confidence.RESOLVED])
+    return ChangeSizing(
+        share=Share(share, options.confidence, len(users), options.population),
+        exposure=ExposureCounts(*(exposure[e] for e in (Exposure.EXPOSED, Exposure.SHIELDED, Exposure.UNCONSTRAINED))),
+        projects_fork_collapsed=families,
+        legacy_sites=sum(1 for f in mine if f.token_level),
+        weighted_share=weighted,
+    )
 
 
-def corpus_sizing(files: Mapping[str, list[FileOutcome]], facts: Mapping[str, Mapping[str, Any]]) -> dict[str, Any]:
+def corpus_sizing(files: Mapping[str, list[FileOutcome]], facts: Mapping[str, ProjectFacts]) -> CorpusFacts:
     hashes = {name: {f.path: f.digest for f in outcomes if f.digest} for name, outcomes in files.items()}
-    return {
-        "unique_sources": unique_sources(hashes),
-        "fork_families": len({f["fork_family"] for f in facts.values() if f["fork_family"]}),
-        "legacy_python_projects": sum(1 for f in facts.values() if f["legacy_python"]),
-    }
+    return CorpusFacts(
+        unique_sources=unique_sources(hashes),
+        fork_families=len({f.fork_family for f in facts.values() if f.fork_family}),
+        legacy_python_projects=sum(1 for f in facts.values() if f.legacy_python),
+    )
 
 
-__all__ = ["SizingOptions", "SizingError", "read_weights", "project_facts", "change_sizing", "corpus_sizing"]
+__all__ = ["ChangeSizing", "SizingOptions", "SizingError", "read_weights", "project_facts", "change_sizing", "corpus_sizing"]

@@ -71,7 +71,7 @@ def _capitalised(*parents: str) -> bool:
 
 def why_not_rewritten(finding: Finding, change: Change, is_class: Callable[[str], bool]) -> str | None:
     """The reason a finding is left for review before its node is looked at, or None."""
-    if finding.pattern.startswith("legacy:"):
+    if finding.token_level:
         return "read at token level (Python 2 or nested too deeply): no syntax tree to rewrite"
     if finding.confidence is not Confidence.RESOLVED:
         if change.kind.about_parameter and "*" in finding.pattern:

@@ -18,7 +18,7 @@ def review_json(items: Iterable[Review]) -> str:
             "column": r.finding.column,
             "change": r.finding.change,
             "confidence": r.finding.confidence.label,
-            "pattern": r.finding.pattern,
+            "pattern": r.finding.label,
             "why": r.why,
         }
         for r in _ordered(items)

@@ -5,7 +5,6 @@ from __future__ import annotations
 import dataclasses
 import hashlib
 import re
-from dataclasses import dataclass, field
 from typing import Callable
 
 from impactscope.corpus.roots import EntryError, Project
@@ -18,7 +17,8 @@ from impactscope.corpus.sources import (
     without_outputs,
 )
 from impactscope.exposure import is_manifest
-from impactscope.findings import Confidence, Finding
+from impactscope.findings import Confidence, Finding, Reading
+from impactscope.outcomes import FileOutcome, ProjectResult
 from impactscope.resolve.faults import ANALYSIS_ERROR, describe
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import FileAnalysis, ProjectResolver
@@ -30,26 +30,6 @@ from impactscope.scan.slicing import narrow
 
 NO_CANDIDATE = "no candidate"
 TOO_DEEP = "too deeply nested"
-
-
-@dataclass(frozen=True)
-class FileOutcome:
-    path: str
-    status: str  # parsed | skipped | unparsed
-    reason: str | None = None
-    detail: str = ""
-    digest: str | None = None  # sha256 of the content, for sources that were read
-    kind: str | None = None  # module | notebook, for sources
-
-
-@dataclass
-class ProjectResult:
-    name: str
-    origin: str
-    files: list[FileOutcome] = field(default_factory=list)
-    findings: list[Finding] = field(default_factory=list)
-    uses_library: bool = False
-    manifests: dict[str, bytes] = field(default_factory=dict)
 
 
 def _is_manifest(path: str, size: int) -> bool:
@@ -263,6 +243,6 @@ def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[F
                 shape = f"?.{hit.name}" if "." in hit.dotted else hit.name
                 out.add(
                     Finding(project, path, None, hit.line, hit.column, cc.change.id, Confidence.POSSIBLE,
-                            f"legacy: {shape}")
+                            shape, Reading.TOKEN_LEVEL)
                 )
     return sorted(out)
