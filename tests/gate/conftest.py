@@ -13,6 +13,7 @@ POLICIES = REPO / "examples" / "policies"
 DEMO = demo_changes_path().parent
 PREVIOUS = DEMO / "heronframe"  # heronframe 2.4, the release before the demo's 3.0
 HEAD = DEMO / "heronframe_3_0" / "heronframe"
+SOURCE_ROOT = DEMO.parents[2]  # the checkout that holds src/impactscope/demo: SARIF paths start there
 
 
 @pytest.fixture(scope="session")

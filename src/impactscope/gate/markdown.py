@@ -5,6 +5,10 @@ from __future__ import annotations
 from impactscope.gate.rules import Outcome, Status
 from impactscope.gate.run import GateRun
 
+# A pull-request comment holds at most 65,536 characters on GitHub (recalled from memory, not
+# measured): the rows stop short of it, and say how many are left out.
+MAX_CHARS = 60_000
+
 
 def _cell(text: str) -> str:
     # A table cell ends at a newline or an unescaped pipe; change lists and patterns may hold both.
@@ -17,7 +21,7 @@ def _row(o: Outcome) -> str:
             f"{_cell(o.message)} | {m.proven} / {m.likely} / {m.possible} |")
 
 
-def to_markdown(run: GateRun) -> str:
+def to_markdown(run: GateRun, max_chars: int = MAX_CHARS) -> str:
     verdict = run.verdict
     m = verdict.measures
     failed, waived = verdict.failed, verdict.with_status(Status.WAIVED)
@@ -32,12 +36,29 @@ def to_markdown(run: GateRun) -> str:
         f"{len(unchecked)} not checked. Downstream: {m.projects} projects scanned, {m.users} use {m.library}.",
         "",
     ]
-    header = ["| change | member | kind | rule | message | projects (proven / likely / at most) |",
-              "|---|---|---|---|---|---|"]
-    for title, outcomes in (("Failed", failed), ("Waived", waived), ("Not checked", unchecked)):
-        if outcomes:
-            lines += [f"### {title}", "", *header, *(_row(o) for o in outcomes), ""]
+    if unchecked:  # one line per rule: the reason is the same for every change
+        reasons: dict[str, list[Outcome]] = {}
+        for o in unchecked:
+            reasons.setdefault(o.rule.id, []).append(o)
+        lines += [f"Not checked: `{rule}` for {len(mine)} changes ({_cell(mine[0].message)})."
+                  for rule, mine in reasons.items()] + [""]
     if verdict.unused_waivers:
         lines += ["Waivers not needed (the rule holds): "
                   + ", ".join(f"{_cell(w.change)} `{w.rule}`" for w in verdict.unused_waivers), ""]
+    header = ["| change | member | kind | rule | message | projects (proven / likely / at most) |",
+              "|---|---|---|---|---|---|"]
+    size = sum(len(line) + 1 for line in lines)
+    for title, outcomes in (("Failed", failed), ("Waived", waived)):
+        if not outcomes:
+            continue
+        lines += [f"### {title}", "", *header]
+        size += sum(len(line) + 1 for line in lines[-4:])
+        for shown, outcome in enumerate(outcomes):
+            row = _row(outcome)
+            if size + len(row) + 200 > max_chars:
+                lines.append(f"\n... and {len(outcomes) - shown} more rows: the JUnit file lists them all")
+                break
+            lines.append(row)
+            size += len(row) + 1
+        lines.append("")
     return "\n".join(lines)
