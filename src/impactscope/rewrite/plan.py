@@ -196,7 +196,7 @@ class Planner:
                     self.plan.add(statement, MoveImport(index, module, new_name))
                 else:
                     # The binding keeps its name: other modules, `__all__` or unproven uses need it.
-                    self.plan.add(statement, MoveImport(index, module, f"{new_name} as {written}"))
+                    self.plan.add(statement, MoveImport(index, module, new_name, written))
             else:
                 self.plan.add(statement, MoveImport(index, module, new_name))
             self.plan.rewritten.append(finding)

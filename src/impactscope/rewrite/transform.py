@@ -64,6 +64,7 @@ class MoveImport:
     index: int
     module: str | None
     name: str
+    asname: str | None = None  # set: the alias binds this name (the old one, kept for its users)
 
 
 Edit = Union[RenameName, ReplaceExpression, RenameString, RenameKeyword, AddKeyword, DropArgument, MoveImport]
@@ -150,6 +151,10 @@ class _Rewriter(cst.CSTTransformer):
             move = by_index.get(i)
             if move is not None:
                 alias = alias.with_changes(name=cst.Name(move.name))
+                if move.asname is not None:
+                    alias = alias.with_changes(asname=cst.AsName(
+                        whitespace_before_as=cst.SimpleWhitespace(" "), whitespace_after_as=cst.SimpleWhitespace(" "),
+                        name=cst.Name(move.asname)))
             if move is None or move.module is None:
                 stay.append(alias)
             else:
