@@ -30,8 +30,7 @@ from impactscope.corpus.sources import (
     read_python,
     without_outputs,
 )
-from impactscope.corpus.limits import Limits
-from impactscope.corpus.roots import MAX_FILE_SIZE
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 
 
 def reference_decode(data: bytes) -> str:
@@ -445,28 +444,28 @@ def plotted_notebook(code: list[str], image_bytes: int, version: int = 4) -> byt
 @pytest.mark.parametrize("version", [3, 4])
 def test_outputs_do_not_count_towards_the_size_limit(version: int) -> None:
     code = ["import heronframe as hf\nt = hf.read_table('a')", "t.stack_rows(1)"]
-    data = plotted_notebook(code, MAX_FILE_SIZE, version)
-    assert len(data) > 2 * MAX_FILE_SIZE
+    data = plotted_notebook(code, DEFAULT_LIMITS.file_bytes, version)
+    assert len(data) > 2 * DEFAULT_LIMITS.file_bytes
     assert notebook_text(data, "n.ipynb") == "\n".join(code)
     assert [(c.index, c.code) for c in read_notebook(data, "n.ipynb").cells] == reference_code_cells(data)
 
 
 def test_code_over_the_size_limit_is_too_large() -> None:
-    big = "x = 1  # " + "#" * (MAX_FILE_SIZE // 2)
+    big = "x = 1  # " + "#" * (DEFAULT_LIMITS.file_bytes // 2)
     data = plotted_notebook([big, big], 1000)
     for read in (notebook_text, read_notebook):
         with pytest.raises(SourceError) as caught:
             read(data, "n.ipynb")
         assert caught.value.reason == "notebook code too large" and caught.value.skipped
-        assert "n.ipynb" in caught.value.detail and str(MAX_FILE_SIZE) in caught.value.detail
+        assert "n.ipynb" in caught.value.detail and str(DEFAULT_LIMITS.file_bytes) in caught.value.detail
     # The bound is the caller's to set.
     small = Limits(notebook_code_bytes=len(big))
     for read in (notebook_text, read_notebook):
         with pytest.raises(SourceError, match="notebook_code_bytes"):
             read(plotted_notebook([big, "y = 2"], 10), "n.ipynb", limits=small)
         read(plotted_notebook([big], 10), "n.ipynb", limits=small)
-    just_under = plotted_notebook([big[: MAX_FILE_SIZE // 2 - 1]] * 2, 1000)  # two halves and a newline
-    assert len(notebook_text(just_under, "n.ipynb").encode()) == MAX_FILE_SIZE - 1
+    just_under = plotted_notebook([big[: DEFAULT_LIMITS.file_bytes // 2 - 1]] * 2, 1000)  # two halves and a newline
+    assert len(notebook_text(just_under, "n.ipynb").encode()) == DEFAULT_LIMITS.file_bytes - 1
     read_notebook(just_under, "n.ipynb")
 
 
@@ -538,8 +537,8 @@ def test_scan_decides_a_notebook_by_its_code(tmp_path) -> None:
     project = tmp_path / "corpus" / "analysis"
     project.mkdir(parents=True)
     uses = "import heronframe\nt = heronframe.Table()\nt.stack_rows()"
-    (project / "plots.ipynb").write_bytes(plotted_notebook([uses], MAX_FILE_SIZE))
-    (project / "huge.ipynb").write_bytes(plotted_notebook([uses + "\n#" + "x" * MAX_FILE_SIZE], 1000))
+    (project / "plots.ipynb").write_bytes(plotted_notebook([uses], DEFAULT_LIMITS.file_bytes))
+    (project / "huge.ipynb").write_bytes(plotted_notebook([uses + "\n#" + "x" * DEFAULT_LIMITS.file_bytes], 1000))
     runner = CliRunner()
     out = tmp_path / "r.sqlite"
     scanned = runner.invoke(app, ["scan", str(changes), str(tmp_path / "corpus"), "--out", str(out), "--jobs", "1"])

@@ -9,6 +9,9 @@ from pathlib import Path
 
 import pytest
 
+import impactscope.corpus.archives.tar as tar_module
+import impactscope.corpus.archives.zip as zip_module
+import impactscope.corpus.folders as folders_module
 import impactscope.corpus.roots as roots_module
 from impactscope.corpus.roots import discover
 from impactscope.scan import cache as cache_module
@@ -55,8 +58,9 @@ def test_warm_rescan_reuses_everything_and_reads_no_file(corpus, tmp_path, monke
             raise AssertionError(f"{name} called during a warm rescan")
         return refuse
 
-    for name in ("_read_path", "_read_zip", "_read_tar", "_archive_file_entries", "_file_entries"):
-        monkeypatch.setattr(roots_module, name, counting(name))
+    for module, name in ((folders_module, "read_path"), (zip_module, "read_zip"), (tar_module, "read_tar"),
+                         (roots_module, "archive_file_entries"), (roots_module, "file_entries")):
+        monkeypatch.setattr(module, name, counting(name))
     warm = run_scan(changes, roots, out, jobs=1)
     assert reads == []
     assert warm.reused == warm.projects == cold.projects

@@ -2,7 +2,9 @@
 
 from .files import FileRefused, read_regular, refusal
 from .limits import Limits, LimitsError
-from .roots import CorpusError, Entry, EntryError, Project, check_roots, classify, discover
+from .classification import classify
+from .entries import CorpusError, Entry, EntryError, Project
+from .roots import NotAProject, check_roots, discover, survey
 from .sources import (
     CodeCell,
     Source,
@@ -21,6 +23,7 @@ __all__ = [
     "FileRefused",
     "Limits",
     "LimitsError",
+    "NotAProject",
     "Project",
     "Source",
     "SourceError",
@@ -33,4 +36,5 @@ __all__ = [
     "read_python",
     "read_regular",
     "refusal",
+    "survey",
 ]

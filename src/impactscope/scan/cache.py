@@ -31,7 +31,8 @@ from typing import Iterable, Iterator, Sequence
 from impactscope import __version__
 from impactscope.changes import ChangeList
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
-from impactscope.corpus.roots import MAX_FILE_SIZE, Entry, EntryError, Project, archive_stem
+from impactscope.corpus.entries import Entry, EntryError, Project, hold, may_be_read, replaying
+from impactscope.corpus.names import archive_stem
 
 KEY_SCHEMA = "2"  # 2: the library source is keyed by content, not by file stamps
 
@@ -115,40 +116,22 @@ def streamed(project: Project) -> bool:
 # ------------------------------------------------------------------ replayable projects
 
 
-def _give(data: bytes) -> bytes:
-    return data
-
-
-def _raise(exc: BaseException) -> bytes:
-    raise exc
-
-
-def _wants_bytes(entry: Entry) -> bool:
-    # Whatever a scan might read: sources, and any small file (manifests and the files they
-    # include are picked by scan_project's own rules, which are not repeated here).
-    return entry.error is None and (entry.skip is None or entry.size < MAX_FILE_SIZE)
-
-
-def held(entry: Entry) -> Entry:
+def held(entry: Entry, limits: Limits = DEFAULT_LIMITS) -> Entry:
     """`entry` with its bytes (or the error reading them) read now and held in memory."""
-    if not _wants_bytes(entry):
+    if not may_be_read(entry, limits):
         # Never read by a scan; drop the reader, which may hold an open archive.
-        refuse = functools.partial(_raise, EntryError(f"{entry.path}: not kept in memory"))
+        refuse = functools.partial(_refuse, f"{entry.path}: not kept in memory")
         return dataclasses.replace(entry, read=refuse)
-    try:
-        read = functools.partial(_give, entry.read())
-    except Exception as exc:  # noqa: BLE001 - replayed as it happened
-        read = functools.partial(_raise, exc)
-    return dataclasses.replace(entry, read=read)
+    return hold(entry)[0]
 
 
-def _replay(entries: tuple[Entry, ...]) -> Iterator[Entry]:
-    return iter(entries)
+def _refuse(message: str) -> bytes:
+    raise EntryError(message)
 
 
 def replayed(project: Project, entries: Iterable[Entry]) -> Project:
     """A picklable project that lists `entries` (already held) again and again."""
-    return Project(project.name, project.origin, functools.partial(_replay, tuple(entries)), project.limits)
+    return Project(project.name, project.origin, replaying(*entries), project.limits)
 
 
 __all__ = [

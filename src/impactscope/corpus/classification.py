@@ -1,0 +1,135 @@
+"""Which files of a project are read, and the reason each other file is not (`classify`)."""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Callable, Collection, Iterable, Iterator
+from dataclasses import dataclass
+
+from impactscope.corpus.entries import Entry, add_note, unique_paths
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
+from impactscope.corpus.names import is_source_name, join
+
+_VERSION_CONTROL = frozenset({".git", ".hg", ".svn"})
+_CACHES = frozenset({"__pycache__", ".ipynb_checkpoints", ".mypy_cache", ".pytest_cache", ".tox"})
+_INSTALL_DIRS = frozenset({"site-packages", "dist-packages"})
+_VENV_NAMES = frozenset({".venv", "venv", "env"})
+_ACTIVATE_SCRIPTS = ("bin/activate", "Scripts/activate")
+
+@dataclass(frozen=True)
+class Layout:
+    """Directory facts that need a project's full file list ("" is the project root)."""
+
+    venvs: frozenset[str]  # directories holding a virtual environment
+    vendored: frozenset[str]  # directories holding a copy of the target library
+
+    @classmethod
+    def of(cls, paths: Iterable[str], library: str) -> Layout:
+        files = set(paths)
+        dirs = {""}
+        for path in files:
+            parts = path.split("/")
+            dirs.update("/".join(parts[:depth]) for depth in range(1, len(parts)))
+        venvs = {
+            d
+            for d in dirs
+            if join(d, "pyvenv.cfg") in files
+            or (
+                d.rpartition("/")[2] in _VENV_NAMES
+                and any(join(d, script) in files for script in _ACTIVATE_SCRIPTS)
+            )
+        }
+        vendored = {
+            d for d in dirs if d.rpartition("/")[2] == library and join(d, "__init__.py") in files
+        }
+        return cls(frozenset(venvs), frozenset(vendored))
+
+
+def classify(
+    path: str,
+    size: int,
+    *,
+    library: str,
+    siblings: Collection[str] | None = None,
+    limits: Limits = DEFAULT_LIMITS,
+) -> str | None:
+    """The reason not to read the file at `path` (POSIX, relative to its project), or None.
+
+    `siblings` are the paths of all files in the project. The rules, first
+    match wins: "version control", "cache", "node modules", "virtual
+    environment", "vendored library", "not source", then the size bounds of
+    `limits`: "notebook too large" for a notebook over `notebook_bytes`, "too
+    large" for another file over `file_bytes`. (A notebook's size is mostly
+    outputs, so `sources` bounds the code it holds separately.)
+
+    Without `siblings` (as in a tar stream, where later members are not known
+    yet) only names count: a virtual environment is any directory named
+    `.venv`, `venv` or `env` or under `site-packages` / `dist-packages`, and
+    any directory named `library` is a vendored copy, without looking for
+    `pyvenv.cfg`, activate scripts or `__init__.py`.
+    """
+    layout = None if siblings is None else Layout.of(siblings, library)
+    return classify_path(path, size, library, layout, limits)
+
+
+def classify_path(
+    path: str, size: int, library: str, layout: Layout | None, limits: Limits = DEFAULT_LIMITS
+) -> str | None:
+    parts = path.split("/")
+    segments = set(parts)
+    if segments & _VERSION_CONTROL:
+        return "version control"
+    if segments & _CACHES:
+        return "cache"
+    if "node_modules" in segments:
+        return "node modules"
+    directories = set(parts[:-1])
+    if layout is None:
+        venv = bool(directories & (_INSTALL_DIRS | _VENV_NAMES))
+        vendored = library in directories
+    elif not layout.venvs and not layout.vendored:  # the usual project: no ancestor to look up
+        venv, vendored = bool(directories & _INSTALL_DIRS), False
+    else:
+        ancestors = ["/".join(parts[:depth]) for depth in range(len(parts))]
+        venv = bool(directories & _INSTALL_DIRS) or any(d in layout.venvs for d in ancestors)
+        vendored = any(d in layout.vendored for d in ancestors)
+    if venv:
+        return "virtual environment"
+    if vendored:
+        return "vendored library"
+    if not is_source_name(parts[-1]):
+        return "not source"
+    return _size_reason(parts[-1], size, limits)
+
+
+def _size_reason(name: str, size: int, limits: Limits) -> str | None:
+    name_limit = "notebook_bytes" if name.endswith(".ipynb") else "file_bytes"
+    return limits.reason(name_limit) if size > getattr(limits, name_limit) else None
+
+
+def read_limit(path: str, limits: Limits) -> tuple[int, str]:
+    """The most bytes `Entry.read` returns for the file at `path`, and the reason beyond it."""
+    name_limit = "notebook_bytes" if path.endswith(".ipynb") else "file_bytes"
+    return getattr(limits, name_limit), limits.reason(name_limit)
+
+
+def classified(
+    entries: Iterable[Entry],
+    library: str,
+    limits: Limits,
+    late: Callable[[Entry], tuple[str, str] | None] | None = None,
+) -> Iterator[Entry]:
+    """Entries in path order, each readable one given its skip reason: the classification's,
+    else `late`'s (a reason and a note known without reading, such as a declared ratio)."""
+    ordered = sorted(entries, key=lambda entry: entry.path)
+    ordered = list(unique_paths(ordered, reserved={entry.path for entry in ordered}))
+    readable = [entry for entry in ordered if entry.skip is None and entry.error is None]
+    layout = Layout.of((entry.path for entry in readable), library)
+    for entry in ordered:
+        if entry.skip is None and entry.error is None:
+            reason = classify_path(entry.path, entry.size, library, layout, limits)
+            if reason is not None:
+                entry = dataclasses.replace(entry, skip=reason)
+            elif late is not None and (found := late(entry)) is not None:
+                entry = dataclasses.replace(entry, skip=found[0], note=add_note(entry.note, found[1]))
+        yield entry
