@@ -138,7 +138,8 @@ def _free_path(path: str, taken: _Either | Collection[str]) -> str:
 
 
 def add_note(note: str, more: str) -> str:
-    return f"{note}; {more}" if note else more
+    """A file's note (a renamed duplicate, what a limit left out) and what happened to it."""
+    return "; ".join(part for part in (note, more) if part)
 
 
 def skipped_entry(path: str, size: int, stamp: str, reason: str, note: str = "") -> Entry:

@@ -7,7 +7,7 @@ import hashlib
 import re
 from typing import Callable
 
-from impactscope.corpus.roots import EntryError, Project
+from impactscope.corpus.entries import EntryError, Project, add_note
 from impactscope.corpus.sources import (
     Source,
     SourceError,
@@ -52,7 +52,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     clock = FileClock(project.limits.file_seconds)  # every per-file stage below is charged to its file
     for entry in project.entries():
         order.append(entry.path)
-        if entry.error is None and entry.size < 2_000_000 and _is_manifest(entry.path, entry.size):
+        if entry.error is None and entry.size < project.limits.file_bytes and _is_manifest(entry.path, entry.size):
             try:
                 result.manifests[entry.path] = entry.read()
             except Exception:  # noqa: BLE001 - an unreadable manifest only loses its constraint
@@ -68,11 +68,11 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         except EntryError as exc:  # a damaged member, or a limit reached while reading
             limit = exc.reason != "unreadable"
             outcomes[entry.path] = FileOutcome(entry.path, "skipped" if limit else "unparsed", exc.reason,
-                                               _also(entry.note, str(exc)))
+                                               add_note(entry.note, str(exc)))
             continue
         except Exception as exc:  # noqa: BLE001 - a damaged member is counted, the scan goes on
             outcomes[entry.path] = FileOutcome(entry.path, "unparsed", "unreadable",
-                                               _also(entry.note, f"{type(exc).__name__}: {exc}"))
+                                               add_note(entry.note, f"{type(exc).__name__}: {exc}"))
             continue
         digest = hashlib.sha256(data).hexdigest()
         kind = "notebook" if entry.path.endswith(".ipynb") else "module"
@@ -87,7 +87,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
                 sources[entry.path] = read_python(data, entry.path)
         except SourceError as exc:
             status = "skipped" if exc.skipped else "unparsed"  # a notebook's code size
-            outcomes[entry.path] = FileOutcome(entry.path, status, exc.reason, _also(entry.note, exc.detail), digest, kind)
+            outcomes[entry.path] = FileOutcome(entry.path, status, exc.reason, add_note(entry.note, exc.detail), digest, kind)
             continue
         outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, entry.note, digest, kind)
 
@@ -151,7 +151,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         if path in faults:
             continue
         prior = outcomes[path]
-        outcomes[path] = FileOutcome(path, fa.status, fa.reason, _also(prior.detail, fa.detail), prior.digest, prior.kind)
+        outcomes[path] = FileOutcome(path, fa.status, fa.reason, add_note(prior.detail, fa.detail), prior.digest, prior.kind)
         result.findings.extend(fa.findings)
         if fa.reason in ("python 2", TOO_DEEP):
             token_level.add(path)
@@ -214,11 +214,6 @@ def _without_deep_cells(source: Source) -> Source | None:
         cells=tuple(cell for cell in source.cells if all(cell is not d for d in deep)),
         skipped_cells=(*source.skipped_cells, *((cell.index, TOO_DEEP) for cell in deep)),
     )
-
-
-def _also(note: str, more: str) -> str:
-    """A file's note (a renamed duplicate, what a limit left out) and what happened to it."""
-    return "; ".join(part for part in (note, more) if part)
 
 
 def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool]:
