@@ -74,7 +74,7 @@ def splice(notebook: str, new_sources: Mapping[int, str]) -> str:
     for index, new in new_sources.items():
         cell = cells[index]
         if not cell.is_list:
-            edits.append((cell.start, cell.end, _dump(new, notebook[cell.start : cell.end])))
+            edits.append((cell.start, cell.end, _dump(new, notebook)))
             continue
         edits.extend(_list_edits(notebook, cell, new))
     for start, end, text in sorted(edits, reverse=True):
@@ -92,11 +92,10 @@ def _list_edits(notebook: str, cell: CellSource, new: str) -> Iterator[tuple[int
         notebook[cell.parts[0][1] : cell.parts[1][0]] if len(cell.parts) > 1 else ",\n" + _indent_before(notebook, cell)
     )
     matcher = difflib.SequenceMatcher(None, old, lines, autojunk=False)
-    sample = old_tokens[0] if old_tokens else '""'
     for tag, i1, i2, j1, j2 in matcher.get_opcodes():
         if tag == "equal":
             continue
-        written = separator.join(_dump(line, sample) for line in lines[j1:j2])
+        written = separator.join(_dump(line, notebook) for line in lines[j1:j2])
         if i1 < i2:
             start, end = cell.parts[i1][0], cell.parts[i2 - 1][1]
             if not written:  # lines removed: their separator goes with them
@@ -130,10 +129,10 @@ def _indent_before(notebook: str, cell: CellSource) -> str:
     return " " * (len(indent) - len(indent.lstrip())) + "  "
 
 
-def _dump(text: str, sample: str) -> str:
-    """`text` as a JSON string token, escaped the way `sample` (a token of the file) is."""
-    ascii_only = "\\u" in sample and not any(ord(c) > 127 for c in sample)
-    return json.dumps(text, ensure_ascii=ascii_only)
+def _dump(text: str, notebook: str) -> str:
+    """`text` as a JSON string token, escaped as the file escapes: non-ASCII as `\\uXXXX` when
+    the file holds such escapes and no raw non-ASCII character (`json.dumps(ensure_ascii=True)`)."""
+    return json.dumps(text, ensure_ascii=notebook.isascii() and "\\u" in notebook)
 
 
 # ------------------------------------------------------------------ JSON scanning (RFC 8259)
