@@ -12,6 +12,13 @@ from dataclasses import dataclass, field
 from impactscope.findings import Finding
 
 
+# The reasons of an unparsed file that are failures of the scan, not of the file: an unexpected
+# exception met on it (resolve.faults describes it), and a project whose worker process died
+# twice while scanning it (scan.executor). Reports list these files apart, as bugs to report.
+ANALYSIS_ERROR = "analysis error"
+WORKER_DIED = "worker died"
+
+
 class FileStatus(str, enum.Enum):
     """What became of a file; the value is what the results file and the JSON report hold."""
 
@@ -52,4 +59,4 @@ class ProjectResult:
     manifests: dict[str, bytes] = field(default_factory=dict)
 
 
-__all__ = ["FileStatus", "FileOutcome", "ProjectResult"]
+__all__ = ["ANALYSIS_ERROR", "WORKER_DIED", "FileStatus", "FileOutcome", "ProjectResult"]

@@ -20,8 +20,7 @@ from impactscope import __version__
 from impactscope.changes import ChangeList, parse_change_list
 from impactscope.errors import InputError
 from impactscope.findings import Confidence, Finding, Reading
-from impactscope.outcomes import FileOutcome, FileStatus, ProjectResult
-from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED, FileOutcome, FileStatus, ProjectResult
 
 # The layout of the tables below. A file of another layout is refused by `open` and started
 # afresh by `resume`. 2: findings.reading (before it, a "legacy: " prefix on the pattern).

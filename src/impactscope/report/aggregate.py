@@ -8,8 +8,7 @@ from collections import Counter
 import pandas as pd
 
 from impactscope.findings import Confidence, Finding, Reading
-from impactscope.outcomes import FileOutcome, FileStatus
-from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED, FileOutcome, FileStatus
 from impactscope.report.model import (
     ByCertainty,
     CertaintyGroup,

@@ -13,9 +13,7 @@ import traceback
 
 import libcst as cst
 
-ANALYSIS_ERROR = "analysis error"
-# A project whose worker process died twice while scanning it (scan.executor): its files say so.
-WORKER_DIED = "worker died"
+from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED
 _DETAIL_LIMIT = 300
 
 
