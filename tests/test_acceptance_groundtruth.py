@@ -17,7 +17,7 @@ private defining module, members a library subclass inherits, `from heronframe i
 `__all__`), chains through return annotations not in [types], overrides in subclasses of
 `heronframe.GroupedTable`. They are `resolved` in the truth, so the precision and recall above cover them.
 
-The report keys are the fixed interface of DESIGN.md ("Findings and the JSON report").
+The report keys are the fixed interface of docs/report-json.md.
 """
 
 from __future__ import annotations

@@ -1,8 +1,8 @@
 """Acceptance of issue 3, the library surface model, on the generated heronframe corpus.
 
-The issue's acceptance, as this file checks it (DESIGN.md, roadmap item 2: "canonical names,
-re-exports, signatures and return types read statically from the library's own source ...; draft
-change lists from two versions"):
+The issue's acceptance, as this file checks it (the library surface model: canonical names,
+re-exports, signatures and return types read statically from the library's own source; draft
+change lists from two versions):
 
 (i)   a change written against the library's private defining path
       (`heronframe.core.table.Table.stack_rows`) and the same change written against its public
@@ -20,8 +20,8 @@ change lists from two versions"):
       with identical signatures in both versions, which a comparison of two surfaces cannot see.
 
 The CLI runs in-process (typer's CliRunner on impactscope.cli.app: `scan CHANGES ROOT --out R
---jobs 1`, then `report R --format json`); the report keys are DESIGN.md's fixed interface
-("Findings and the JSON report"). The corpus is scanned three times in this module: the public
+--jobs 1`, then `report R --format json`); the report keys are the fixed interface of
+docs/report-json.md. The corpus is scanned three times in this module: the public
 list, the private list and the drafted list.
 """
 

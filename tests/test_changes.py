@@ -1,8 +1,8 @@
-"""The change list loader (impactscope.changes): the format of DESIGN.md "Change list (TOML)".
+"""The change list loader (impactscope.changes): the format of docs/change-list.md.
 
 Error messages must name the file, the [[change]] entry (1-based index and id) and the fix
-(DESIGN.md: "Unknown keys, unknown kinds, bad versions and duplicate ids are errors that name
-the file and the entry"; "A bad input prints one clear message (what, where, how to fix)").
+(docs/change-list.md, "The file": every error names the file, the entry, what is wrong and what
+to write instead; docs/command-line.md: one line, exit code 2).
 """
 
 from __future__ import annotations
@@ -73,7 +73,7 @@ new_parameter = "delimiter"
     assert (first.id, first.kind, first.replacement, first.deprecated_in, first.note) == (
         "HF-1", Kind.RENAMED, "heronframe.Table.append_rows", Version("2.4"), "free text",
     )
-    # DESIGN.md: "id ... optional; unique; default derived from member".
+    # docs/change-list.md, `id`: optional, unique, default the member.
     assert second_.id and "sort_by" in second_.id
     assert (second_.parameter, second_.position) == ("inplace", 1)
     assert (third.parameter, third.new_parameter) == ("sep", "delimiter")
@@ -84,7 +84,7 @@ new_parameter = "delimiter"
 
 @pytest.mark.parametrize("kind", [k.value for k in Kind])
 def test_every_documented_kind_is_accepted(kind: str) -> None:
-    # DESIGN.md lists the kinds: removed | renamed | moved | parameter-removed |
+    # docs/change-list.md lists the kinds: removed | renamed | moved | parameter-removed |
     # parameter-renamed | default-changed | behaviour-changed.
     extra = ""
     if kind in ("renamed", "moved"):
@@ -98,7 +98,7 @@ def test_every_documented_kind_is_accepted(kind: str) -> None:
 
 
 def test_documented_kind_names_are_exactly_these() -> None:
-    # DESIGN.md, "Change list (TOML)", the comment beside `kind`.
+    # docs/change-list.md, "The kinds and what each one matches".
     assert {k.value for k in Kind} == {
         "removed", "renamed", "moved", "parameter-removed", "parameter-renamed",
         "default-changed", "behaviour-changed",
@@ -248,7 +248,7 @@ def test_load_from_disk(tmp_path: Path) -> None:
 
 
 def test_errors_are_value_errors() -> None:
-    # DESIGN.md: errors subclass ValueError (the packaging style the design points to).
+    # docs/command-line.md: input errors subclass InputError, a ValueError (packaging's style).
     assert issubclass(ChangeListError, ValueError)
 
 
@@ -309,7 +309,7 @@ def test_label_names_the_file_and_the_entry() -> None:
 
 
 def test_certainty_key() -> None:
-    # DESIGN.md "Findings and the JSON report": a change may carry certainty = "high"|"medium"|"low";
+    # docs/change-list.md, `certainty`: a change may carry certainty = "high"|"medium"|"low";
     # drafts write it, hand-written entries leave it out.
     cl = parse(second('member = "heronframe.stack"\nkind = "removed"\ncertainty = "low"\n'))
     assert [c.certainty for c in cl.changes] == [None, "low"]

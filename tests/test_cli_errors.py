@@ -1,10 +1,9 @@
 """Bad input at the command line: exit 2, one clear line, no traceback; damaged corpus files
 are counted, not fatal.
 
-Source: DESIGN.md "Command line (typer)" ("Exit codes: 0 success, 1 a gate failed, 2 bad input
-or usage. A bad input prints one clear message (what, where, how to fix) and no traceback") and
-"Corpus layout" ("Every file of every project is accounted for in the totals: parsed, skipped
-... or unparsed (with reason: syntax error, Python 2, encoding)").
+Source: docs/command-line.md, "Exit codes" (2: bad input or usage, one line saying what, where
+and how to fix, no traceback; 3: a bug) and docs/corpus.md, "Every file is accounted for"
+(parsed, skipped or unparsed, each with its reason).
 """
 
 from __future__ import annotations
@@ -186,9 +185,9 @@ def test_damaged_files_are_counted_as_unparsed(tmp_path: Path, changes: Path, co
     assert reported.exit_code == 0, reported.output
     doc = json.loads(reported.stdout)
     totals = doc["totals"]
-    # DESIGN.md: every file is accounted for.
+    # docs/corpus.md: every file is accounted for.
     assert totals["files"] == totals["files_parsed"] + totals["files_skipped"] + totals["files_unparsed"]
-    # good, damaged, archived, tarred (DESIGN.md "Corpus layout": each child is a project).
+    # good, damaged, archived, tarred (docs/corpus.md, "Projects": each child is a project).
     assert totals["projects"] == 4
     assert totals["files_unparsed"] == 8
     assert totals["files_parsed"] == 1
@@ -210,7 +209,7 @@ def test_projects_with_findings_count_as_using_the_library(tmp_path: Path, chang
     out = tmp_path / "r.sqlite"
     assert invoke("scan", changes, corpus, "--out", out, "--jobs", "1", "--quiet").exit_code == 0
     doc = json.loads(invoke("report", out, "--format", "json").stdout)
-    # DESIGN.md: findings "arise only in files that import the library", so every project with
+    # docs/findings.md: findings come only from files that import the library, so every project with
     # a finding (here also the one whose only reader is the Python 2 fallback) uses it.
     with_findings = {f["project"] for f in doc["findings"]}
     assert "good" in with_findings
@@ -221,7 +220,7 @@ def test_corrupt_archive_as_the_root(tmp_path: Path, changes: Path) -> None:
     root = tmp_path / "corpus.zip"
     root.write_bytes(b"PK but not really")
     out = tmp_path / "r.sqlite"
-    # roots.discover: "A corrupt archive does not stop discovery"; DESIGN.md: every file is
+    # roots.discover: "A corrupt archive does not stop discovery"; docs/corpus.md: every file is
     # accounted for.
     scanned = invoke("scan", changes, root, "--out", out, "--jobs", "1", "--quiet")
     assert scanned.exit_code == 0, scanned.output
@@ -339,7 +338,7 @@ def test_another_programs_sqlite_file_is_refused_in_one_line(tmp_path) -> None:
 
 
 def test_a_bug_is_reported_as_one_and_exits_3(monkeypatch, capsys) -> None:
-    """DESIGN.md, exit codes: 3 is an internal error; the traceback only with --debug."""
+    """docs/command-line.md, exit codes: 3 is an internal error; the traceback only with --debug."""
     from impactscope import cli
 
     def broken(*args, **kwargs):
@@ -422,7 +421,7 @@ def test_a_full_disk_mid_scan_is_one_line_and_keeps_what_was_committed(tmp_path,
 
 
 # ---------------------------------------------------------------------------- input error or bug
-# docs/cli.md "Exit codes": 2 for an InputError (the user's to fix), 3 for anything else (a bug).
+# docs/command-line.md "Exit codes": 2 for an InputError (the user's to fix), 3 for anything else (a bug).
 def _input_cases(tmp_path: Path, changes: Path, corpus: Path) -> dict[str, tuple[list[str], str]]:
     """One bad input per kind of input error: the arguments and a text its one line must hold."""
     scanned = tmp_path / "scanned.sqlite"

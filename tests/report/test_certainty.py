@@ -1,6 +1,6 @@
 """Low-certainty draft entries in every report format: marked, and counted apart (issue 10).
 
-DESIGN.md ("Findings and the JSON report"): a change may carry certainty = "high"|"medium"|"low"
+docs/change-list.md (`certainty`) and docs/report-json.md (`by_certainty`): a change may carry certainty = "high"|"medium"|"low"
 (drafts write it); reports show low-certainty changes apart.
 """
 

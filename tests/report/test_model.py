@@ -130,7 +130,7 @@ def test_the_json_report_reads_back_into_the_same_model(tmp_path: Path) -> None:
 def test_the_demo_report_reads_back_into_the_same_model(scanned_demo_corpus) -> None:
     report = _report(scanned_demo_corpus.results)
     assert _round_trip(report) == report
-    # DESIGN.md ("Findings and the JSON report"): the keys every JSON report has.
+    # docs/report-json.md: keys every JSON report has.
     document = json.loads(to_json(report))
     assert {"library", "release", "totals", "changes", "findings"} <= set(document)
     assert {"projects", "projects_using_library", "files", "files_parsed", "files_skipped",

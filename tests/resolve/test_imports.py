@@ -310,9 +310,9 @@ def test_project_that_never_imports_the_library_has_no_findings() -> None:
         ),
         "helpers.py": "table = object()\n",
     }
-    # DESIGN.md: "inferred and possible findings arise only in files that import the library,
-    # directly or through the project's own modules; a project that never uses the library
-    # has no findings."
+    # docs/findings.md: inferred and possible findings come only from files that import the
+    # library, directly or through the project's own modules; a project that never uses the
+    # library has no findings.
     assert all_findings(files) == []
 
 
@@ -321,7 +321,7 @@ def test_file_without_import_in_a_project_that_uses_the_library_elsewhere() -> N
         "uses.py": "import heronframe as hf\nhf.stack()\n",
         "main.py": "x.stack_rows()\n",
     }
-    # DESIGN.md: guesses only in files that import the library directly or through project
+    # docs/findings.md: guesses only in files that import the library directly or through project
     # modules; main.py does neither.
     assert findings(files) == []
     assert at(findings(files, "uses.py"), 2, "HF-2") == "resolved"
@@ -481,14 +481,14 @@ def test_functions_and_classes_imported_from_project_modules() -> None:
     # gives what they return / an instance whose MRO contains heronframe.Table.
     assert at(found, 2, "HF-1") == "resolved"
     assert at(found, 3, "HF-1") == "resolved"
-    # DESIGN.md: an override in a subclass of a library class (here through a re-exported one).
+    # docs/change-list.md: an override in a subclass of a library class (here through a re-exported one).
     assert at(found, 5, "HF-1") == "resolved"
 
 
 def test_guesses_are_allowed_in_files_that_reach_the_library_through_project_modules() -> None:
     files = {"helpers.py": "import heronframe as hf\n", "main.py": "import helpers\nx.stack_rows()\n"}
-    # DESIGN.md: inferred findings arise in files that import the library "directly or through
-    # the project's own modules".
+    # docs/findings.md: inferred findings come from files that import the library directly or
+    # through the project's own modules.
     assert at(findings(files), 2, "HF-1") == "inferred"
 
 
@@ -502,7 +502,7 @@ def test_an_import_cycle_does_not_hide_the_library() -> None:
     # §5.3.1 (the module cache): with main importing b, b imports a, a's `import b` finds the
     # partly initialised b in sys.modules and continues, binding a.hf to heronframe before b
     # reads it. b.py reaches the library through a project module, so it gets at least the
-    # guess that DESIGN.md allows there.
+    # guess that docs/findings.md allows there.
     b_sites = [f for f in found if f.file == "b.py" and f.line == 2 and f.change == "HF-2"]
     assert b_sites, found
 

@@ -329,7 +329,7 @@ _RECEIVERS = {
 def test_every_matching_name_is_found_unless_proven_otherwise(
     query: Query, receivers: list[str], name: str, wrap: bool
 ) -> None:
-    """DESIGN.md, confidence levels: in a file that uses the library, every reference whose name
+    """docs/findings.md, confidence levels: in a file that uses the library, every reference whose name
     matches a changed member is a finding at some level unless a chain proves the receiver is
     something else. So the count at `possible` bounds the true count from above."""
     lines = ["import heronframe as hf"]

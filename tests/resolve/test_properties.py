@@ -7,7 +7,7 @@
     Reference §2.1.7 "Blank lines" and §2.1.3 "Comments": such lines are ignored by the
     parser and produce no tokens of the program).
 (c) Projects are independent: analysing them in any order gives each the same findings
-    (DESIGN.md: one project is one unit of analysis).
+    (docs/architecture.md: a project is the unit of work).
 
 Programs are built from a small grammar of statements over the test change list.
 """
@@ -140,7 +140,7 @@ def _project_findings(name: str) -> list:
 @settings(max_examples=30, deadline=None)
 @given(st.permutations(sorted(PROJECTS)))
 def test_order_of_projects_does_not_matter(order: list[str]) -> None:
-    # DESIGN.md: each project is analysed on its own; a shared compiled query must not carry
+    # docs/architecture.md: each project is analysed on its own; a shared compiled query must not carry
     # state from one project to the next.
     expected = {name: _project_findings(name) for name in sorted(PROJECTS)}
     got = {}

@@ -9,7 +9,7 @@ position of an attribute's `attr` Name, libcst the start of the whole node; ever
 statement is on one line).
 
 Import statements themselves get no qualified name from libcst, so import lines are left out of
-the comparison. Parameter changes match only some calls (DESIGN.md), which the reference knows
+the comparison. Parameter changes match only some calls (docs/change-list.md), which the reference knows
 nothing about, so they are left out too.
 """
 

@@ -1,6 +1,6 @@
 """Scopes and rebinding, checked against the Python Language Reference §4.2 "Naming and binding".
 
-Each expectation is stated as the confidence of the finding (DESIGN.md): `resolved` only when an
+Each expectation is stated as the confidence of the finding (docs/findings.md): `resolved` only when an
 unbroken chain proves the reference is the member; a name whose binding is not the library is
 at most a guess (`inferred` for a library-specific member name, or no finding at all when the
 value is known not to be the library).
@@ -245,7 +245,7 @@ def test_branch_merge_keeps_the_library_reading() -> None:
         """
     )
     # §8.1: either branch may run; on the path that skips it hf is the library and the call
-    # is the member (DESIGN.md: a library value wins the merge).
+    # is the member (docs/findings.md: a library value on a path that may run is kept after the branches).
     assert at(findings(code), 4, "HF-2") == "resolved"
 
 

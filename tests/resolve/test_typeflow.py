@@ -1,7 +1,7 @@
 """Type flow: return types from the change list's [types], assignments, annotations, context
-managers, user subclasses, and the parameter rules of DESIGN.md.
+managers, user subclasses, and the parameter rules of docs/change-list.md.
 
-The expected results follow DESIGN.md ("Change list", "Matching rules", the confidence levels)
+The expected results follow docs/change-list.md (the kinds and what each matches) and docs/findings.md (the confidence levels)
 and the Python Language Reference where the semantics of the code matter (cited per check).
 """
 
@@ -36,7 +36,7 @@ def test_constructor_and_return_type() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md [types]: "a class maps to itself"; "heronframe.read_table" = "heronframe.Table".
+    # docs/change-list.md [types]: a class maps to itself; "heronframe.read_table" = "heronframe.Table".
     assert at(found, 3, "HF-1") == "resolved"
     assert at(found, 5, "HF-1") == "resolved"
     # heronframe.stack has no entry in [types]: its result is unknown, only a guess remains.
@@ -48,8 +48,8 @@ def test_chained_calls() -> None:
     found = findings(code)
     # [types]: read_table -> Table, Table.filter_rows -> Table; so stack_rows is on a Table.
     assert at(found, 2, "HF-1") == "resolved"
-    # read_table is called without `sep`: DESIGN.md "default-changed matches calls that do not
-    # pass it at all".
+    # read_table is called without `sep`: docs/change-list.md, default-changed matches calls that
+    # do not pass it at all.
     assert at(found, 2, "HF-5") == "resolved"
 
 
@@ -187,8 +187,8 @@ def test_override_of_a_changed_member_is_a_finding_at_the_def_line() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md: "A user class that subclasses a library class and defines a method named like
-    # a changed member is a finding too (an override)."
+    # docs/change-list.md: a method of a downstream subclass of a library class, named like a
+    # changed member, is a finding (an override).
     assert at(found, 3, "HF-1") == "resolved"
     overrides = [f for f in found if f.line == 3 and f.change == "HF-1"]
     assert overrides and "override" in overrides[0].pattern
@@ -242,8 +242,8 @@ def test_parameter_removed_by_keyword_and_position() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md: "parameter-removed ... match calls that pass the parameter (by keyword, or at
-    # `position`)"; position is 0-based with self excluded, so inplace is the second argument.
+    # docs/change-list.md: parameter-removed matches calls that pass the parameter (by keyword,
+    # or at `position`); position is 0-based with self excluded, so inplace is the second argument.
     assert at(found, 3, "HF-4") == "resolved"
     assert at(found, 4, "HF-4") == "resolved"
     assert at(found, 5, "HF-4") is None
@@ -265,7 +265,7 @@ def test_star_arguments_make_parameter_findings_possible() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md confidence: the call may or may not pass the parameter; the receiver is proven
+    # docs/findings.md, possible: the call may or may not pass the parameter; the receiver is proven
     # but the match is not, so the finding is `possible`.
     assert at(found, 3, "HF-4") == "possible"
     assert at(found, 4, "HF-4") == "possible"
@@ -282,7 +282,7 @@ def test_default_changed_matches_calls_that_omit_the_parameter() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md: "default-changed matches calls that do not pass it at all" (and only calls).
+    # docs/change-list.md: default-changed matches calls that do not pass it at all (and only calls).
     assert at(found, 2, "HF-5") == "resolved"
     assert at(found, 3, "HF-5") is None
     assert at(found, 4, "HF-5") is None
@@ -299,7 +299,7 @@ def test_parameter_renamed() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md: parameter-renamed matches calls that pass the parameter by keyword or at its
+    # docs/change-list.md: parameter-renamed matches calls that pass the parameter by keyword or at its
     # position (position = 0 in the test change list).
     assert at(found, 3, "HF-8") == "resolved"
     assert at(found, 4, "HF-8") == "resolved"
@@ -321,7 +321,7 @@ def test_unknown_receiver_confidence_depends_on_how_common_the_name_is() -> None
         """
     )
     found = findings(code)
-    # DESIGN.md: `inferred` when the name is specific to the library ...
+    # docs/findings.md: `inferred` when the name is specific to the library ...
     assert at(found, 2, "HF-1") == "inferred"
     assert at(found, 5, "HF-4") == "inferred"
     # ... `possible` when builtin types have it too (common practice: dict.copy, list.copy,
@@ -362,7 +362,7 @@ def test_known_foreign_receiver_gives_no_finding() -> None:
 def test_pattern_names_the_receiver() -> None:
     code = HEAD + "t = hf.Table()\nt.stack_rows(1, key=2)\nx.stack_rows()\n"
     by_line = {f.line: f for f in findings(code) if f.change == "HF-1"}
-    # DESIGN.md: every finding carries a pattern (a normalised shape of the use).
+    # docs/findings.md: every finding carries a pattern (a normalised shape of the use).
     assert by_line[3].confidence is Confidence.RESOLVED
     assert "stack_rows" in by_line[3].pattern and "key" in by_line[3].pattern
     assert by_line[4].confidence is Confidence.INFERRED
@@ -371,7 +371,7 @@ def test_pattern_names_the_receiver() -> None:
 def test_findings_report_the_attribute_name_position() -> None:
     code = HEAD + "t = hf.Table()\nresult = t.stack_rows()\n"
     (f,) = [f for f in findings(code) if f.change == "HF-1"]
-    # DESIGN.md: line is 1-based; columns count from 0 (libcst PositionProvider convention).
+    # docs/findings.md: line is 1-based; columns count from 0 (libcst PositionProvider convention).
     assert (f.line, f.column) == (3, len("result = t."))
     assert f.file == "main.py" and f.cell is None and f.project == "demo"
 
@@ -456,7 +456,7 @@ def test_override_defined_under_a_condition_in_the_class_body() -> None:
     )
     found = findings(code)
     # §8.8: an `if` in a class body runs in the class scope, so either def binds a method of
-    # MyTable; DESIGN.md counts a method named like a changed member as an override.
+    # MyTable; docs/change-list.md counts a method named like a changed member as an override.
     assert at(found, 5, "HF-1") == "resolved"
     assert at(found, 8, "HF-1") == "resolved"
 
@@ -488,7 +488,7 @@ def test_override_kinds() -> None:
         """
     )
     found = findings(code)
-    # DESIGN.md: an override is a finding for every kind, parameter kinds included ...
+    # docs/change-list.md: an override is a finding for every kind, parameter kinds included ...
     assert at(found, 3, "HF-4") == "resolved"
     # ... async def defines a method too (§8.9.1 coroutine function definition) ...
     assert at(found, 5, "HF-1") == "resolved"

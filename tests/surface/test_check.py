@@ -1,6 +1,6 @@
 """check_members: a change list against the library's surface (and through library_model, where
-a scan builds its model). Messages follow DESIGN.md: one line naming the file, the entry and the
-fix; the error is a ValueError, so the CLI exits 2."""
+a scan builds its model). Messages follow docs/change-list.md: one line naming the file, the entry and the
+fix; the error is an InputError, so the CLI exits 2."""
 
 from __future__ import annotations
 
@@ -106,7 +106,7 @@ def test_library_model_runs_the_check(source, tmp_path) -> None:
 
 
 def test_scan_exits_2_on_a_typo_and_names_the_fix(source, tmp_path) -> None:
-    # DESIGN.md "Command line": exit code 2 for bad input, one clear message, no traceback. Twice:
+    # docs/command-line.md: exit code 2 for bad input, one clear message, no traceback. Twice:
     # first with the surface built, then with the surface file a good scan left beside the results.
     from typer.testing import CliRunner
 

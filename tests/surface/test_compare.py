@@ -12,9 +12,9 @@ from impactscope.surface.compare import Announcement, default_value
 
 from .helpers import NEW, OLD, write_tree
 
-# The keys DESIGN.md ("Change list (TOML)") allows; anything else is an error for the loader.
+# The keys docs/change-list.md allows; anything else is an error for the loader.
 LIBRARY_KEYS = {"name", "release", "requires_python"}
-# DESIGN.md "Findings and the JSON report": a change may carry certainty = "high"|"medium"|"low".
+# docs/change-list.md, `certainty`: a change may carry certainty = "high"|"medium"|"low".
 CHANGE_KEYS = {"id", "member", "kind", "replacement", "parameter", "new_parameter", "position", "deprecated_in", "note",
                "certainty"}
 KINDS = {"removed", "renamed", "moved", "parameter-removed", "parameter-renamed", "default-changed", "behaviour-changed"}

@@ -1,7 +1,7 @@
 """The report: one typed, immutable document built once from a results file.
 
 `report.aggregate.build_report` makes it; every renderer (table, JSON, Markdown, and those to
-come) reads only it. `Report.to_json()` is its serialisation, with the keys DESIGN.md documents
+come) reads only it. `Report.to_json()` is its serialisation, with the keys docs/report-json.md documents
 (and a few more); `Report.from_json` reads that back, so a saved JSON report is a report too.
 
 Counts per confidence level are `PerLevel` values, indexed by `Confidence`; statuses, kinds,

@@ -121,7 +121,7 @@ def summary(changes: Iterable[DraftChange]) -> str:
 
 def render_draft(changes: Iterable[DraftChange], library: str, release: str | None = None,
                  *, origin: str = "impactscope", left_out: Mapping[str, int] | None = None) -> str:
-    """The change-list TOML (keys as in DESIGN.md), sorted by certainty then member, ids C-1, C-2, ...
+    """The change-list TOML (keys as in docs/change-list.md), sorted by certainty then member, ids C-1, C-2, ...
 
     Entries may be DraftChange or anything with a `to_draft()` method (a HarvestedChange).
     `left_out` counts what the draft saw and chose not to write, by reason, for the header.
@@ -327,7 +327,7 @@ class _Comparison:
 
         These are low: a scan matches a change by the definition it names (a module's member) or
         by class and inheritance (a class's member), so it also counts the uses through the paths
-        that still work (DESIGN.md, matching rules). The count is an upper bound to review.
+        that still work (docs/change-list.md, what each kind matches). The count is an upper bound to review.
         """
         there = self.public(self.new, alive)
         over = "the scan also counts uses through the paths that still work (one definition)"
