@@ -1,0 +1,122 @@
+"""Small questions asked of `ast` nodes while modules are read and linked: dotted names, literal
+strings, guards, digests, and the outside names that make properties, type variables, `Self`."""
+
+from __future__ import annotations
+
+import ast
+import hashlib
+
+
+PROPERTY = frozenset({"property", "cached_property", "abstractproperty"})
+# Outside names whose call makes a property (the standard library's documentation of each).
+PROPERTY_FACTORIES = frozenset({
+    "property", "builtins.property", "functools.cached_property", "abc.abstractproperty",
+    "types.DynamicClassAttribute", "enum.property",
+})
+# Common practice: libraries name their caching property decorators after these (pandas and
+# statsmodels `cache_readonly`, Pyramid `reify`) or with "property" in the name.
+PROPERTY_WORDS = frozenset({"cache_readonly", "reify"})
+TYPEVAR = frozenset({"typing.TypeVar", "typing_extensions.TypeVar"})
+ACCESSOR = frozenset({"setter", "getter", "deleter"})
+PEP702 = frozenset({"warnings.deprecated", "typing_extensions.deprecated"})
+SELF_NAMES = frozenset({"typing.Self", "typing_extensions.Self"})
+TRIVIAL = frozenset({b"", b"...", b"pass", b"raise NotImplementedError", b"raise NotImplementedError()"})
+CALLABLE_KINDS = frozenset({"function", "method", "classmethod", "staticmethod", "property"})
+TRY_NODES = tuple(t for t in (ast.Try, getattr(ast, "TryStar", None)) if t is not None)
+TYPE_ALIAS_NODE = getattr(ast, "TypeAlias", None)  # Python 3.12 `type X = ...`
+
+
+def dotted_name(node: ast.expr | None) -> str | None:
+    """`a.b.c` for a Name/Attribute chain, else None."""
+    parts: list[str] = []
+    while isinstance(node, ast.Attribute):
+        parts.append(node.attr)
+        node = node.value
+    if not isinstance(node, ast.Name):
+        return None
+    parts.append(node.id)
+    return ".".join(reversed(parts))
+
+
+def last_part(text: str | None) -> str:
+    return (text or "").rpartition(".")[2]
+
+
+def is_type_checking(test: ast.expr) -> bool:
+    return last_part(dotted_name(test)) == "TYPE_CHECKING"
+
+
+def is_main_guard(test: ast.expr) -> bool:
+    return (
+        isinstance(test, ast.Compare)
+        and isinstance(test.left, ast.Name)
+        and test.left.id == "__name__"
+        and any(isinstance(c, ast.Constant) and c.value == "__main__" for c in test.comparators)
+    )
+
+
+def is_namespace_call(node: ast.expr) -> bool:
+    return (
+        isinstance(node, ast.Call)
+        and isinstance(node.func, ast.Name)
+        and node.func.id in ("globals", "vars")
+        and not node.args
+    )
+
+
+def string_value(node: ast.expr | None) -> str | None:
+    return node.value if isinstance(node, ast.Constant) and isinstance(node.value, str) else None
+
+
+def string_values(node: ast.expr | None) -> tuple[str, ...] | None:
+    """The strings of a literal collection (a dict: its keys), e.g. `("a", "b")`, `frozenset({"a"})`."""
+    if isinstance(node, ast.Call) and last_part(dotted_name(node.func)) in ("frozenset", "set", "tuple", "list") \
+            and len(node.args) == 1 and not node.keywords:
+        node = node.args[0]
+    if isinstance(node, (ast.List, ast.Tuple, ast.Set)):
+        items: list[ast.expr | None] = list(node.elts)
+    elif isinstance(node, ast.Dict):
+        items = list(node.keys)
+    else:
+        return None
+    found = [string_value(e) for e in items]
+    return None if None in found else tuple(s for s in found if s is not None)
+
+
+def doc_digest(node: ast.FunctionDef | ast.AsyncFunctionDef | ast.ClassDef | ast.Module) -> str:
+    """A digest of a definition's docstring with whitespace folded (re-indenting is not a change)."""
+    doc = ast.get_docstring(node, clean=False)
+    if not doc or not doc.strip():
+        return ""
+    return hashlib.blake2b(" ".join(doc.split()).encode(), digest_size=8).hexdigest()
+
+
+def changes_all(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+    """Whether a function adds to or rewrites the module's `__all__` when called."""
+    for sub in ast.walk(node):
+        if (isinstance(sub, ast.Call) and isinstance(sub.func, ast.Attribute) and isinstance(sub.func.value, ast.Name)
+                and sub.func.value.id == "__all__" and sub.func.attr in ("append", "extend", "insert", "remove")):
+            return True
+        if isinstance(sub, ast.Global) and "__all__" in sub.names:
+            return True
+    return False
+
+
+def returns_value(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+    """Whether a function returns a value somewhere (nested definitions aside)."""
+    todo: list[ast.AST] = list(node.body)
+    while todo:
+        sub = todo.pop()
+        if isinstance(sub, ast.Return) and sub.value is not None and not is_none(sub.value):
+            return True
+        if not isinstance(sub, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)):
+            todo.extend(ast.iter_child_nodes(sub))
+    return False
+
+
+def ends_in_raise(body: list[ast.stmt]) -> bool:
+    return bool(body) and isinstance(body[-1], ast.Raise)
+
+
+def is_none(node: ast.expr) -> bool:
+    return (isinstance(node, ast.Constant) and node.value is None) or dotted_name(node) == "None"
