@@ -1,0 +1,73 @@
+"""What every fuzz test runs: a scan of a generated corpus in this process, and what it recorded.
+
+A scan is run the way the command line runs it (`run_scan`, one job, the results file written),
+so that a name, a reason or a detail that the results file cannot hold fails here too.
+"""
+
+from __future__ import annotations
+
+import tempfile
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
+from impactscope.findings import Finding
+from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.scan.run import run_scan
+from impactscope.store import ResultStore
+
+if TYPE_CHECKING:
+    from impactscope.scan.project import FileOutcome
+
+CHANGES = """\
+[library]
+name = "heronframe"
+release = "3.0"
+
+[types]
+"heronframe.read_table" = "heronframe.Table"
+
+[[change]]
+id = "HF-1"
+member = "heronframe.Table.stack_rows"
+kind = "renamed"
+replacement = "heronframe.Table.append_rows"
+
+[[change]]
+id = "HF-2"
+member = "heronframe.stack"
+kind = "removed"
+"""
+USES = b"import heronframe as hf\nt = hf.read_table('a')\nt.stack_rows(t)\nhf.stack([t])\n"
+# The faults of impactscope itself: none may be met on any input.
+BUGS = (ANALYSIS_ERROR, WORKER_DIED)
+
+
+@dataclass(frozen=True)
+class Scan:
+    files: list[tuple[str, FileOutcome]]  # (project, outcome), as the results file holds them
+    findings: list[Finding]
+
+    def by_project(self) -> dict[str, list[FileOutcome]]:
+        out: dict[str, list[FileOutcome]] = {}
+        for project, outcome in self.files:
+            out.setdefault(project, []).append(outcome)
+        return out
+
+    def bugs(self) -> list[str]:
+        return [f"{p}/{f.path}: {f.detail}" for p, f in self.files if f.reason in BUGS]
+
+
+def scan_root(root: Path, *, single: bool = False, limits: Limits = DEFAULT_LIMITS) -> Scan:
+    """Scan `root` (a folder or an archive) with the change list above; what the results file holds."""
+    with tempfile.TemporaryDirectory(prefix="fuzz-scan-") as folder:
+        changes = Path(folder) / "changes.toml"
+        changes.write_text(CHANGES, encoding="utf-8")
+        out = Path(folder) / "results.sqlite"
+        run_scan(changes, [root], out, jobs=1, single=single, limits=limits)
+        store = ResultStore.open(out)
+        try:
+            return Scan(list(store.files()), store.findings())
+        finally:
+            store.close()
