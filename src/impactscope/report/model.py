@@ -24,6 +24,20 @@ U = TypeVar("U")
 Json = dict[str, Any]
 
 
+class _Plain:
+    """A record of plain values whose JSON object has its fields' names and order as keys."""
+
+    def to_json(self) -> Json:
+        return dict(vars(self))
+
+    @classmethod
+    def from_json(cls: type[R], data: Mapping[str, Any]) -> R:
+        return cls(**data)
+
+
+R = TypeVar("R", bound=_Plain)
+
+
 @dataclass(frozen=True)
 class PerLevel(Generic[T]):
     """One value per confidence level, strongest first (`resolved` is a lower bound, `possible`
@@ -49,19 +63,12 @@ class PerLevel(Generic[T]):
 
 
 @dataclass(frozen=True)
-class Estimate:
+class Estimate(_Plain):
     """A share (0..1) with the two ends of its interval, rounded to six places."""
 
     estimate: float
     low: float
     high: float
-
-    def to_json(self) -> Json:
-        return {"estimate": self.estimate, "low": self.low, "high": self.high}
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "Estimate":
-        return cls(data["estimate"], data["low"], data["high"])
 
 
 @dataclass(frozen=True)
@@ -101,7 +108,7 @@ class WeightedShare:
 
 
 @dataclass(frozen=True)
-class ExposureCounts:
+class ExposureCounts(_Plain):
     """Projects with a resolved finding, by how their declared requirement meets the release."""
 
     exposed: int = 0
@@ -110,13 +117,6 @@ class ExposureCounts:
 
     def __getitem__(self, exposure: Exposure) -> int:
         return getattr(self, exposure.value)  # type: ignore[no-any-return]
-
-    def to_json(self) -> Json:
-        return {e.value: self[e] for e in Exposure}
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "ExposureCounts":
-        return cls(**{e.value: data[e.value] for e in Exposure})
 
 
 @dataclass(frozen=True)
@@ -194,7 +194,7 @@ class ChangeReport:
 
 
 @dataclass(frozen=True)
-class Totals:
+class Totals(_Plain):
     """Every project and file of the corpus, accounted for."""
 
     projects: int
@@ -207,13 +207,6 @@ class Totals:
     # files of projects whose worker process died twice.
     files_analysis_error: int
     files_worker_died: int
-
-    def to_json(self) -> Json:
-        return dict(vars(self))
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "Totals":
-        return cls(**data)
 
 
 @dataclass(frozen=True)
@@ -233,16 +226,9 @@ class FileReason:
 
 
 @dataclass(frozen=True)
-class CertaintyGroup:
+class CertaintyGroup(_Plain):
     changes: int
     projects_affected: int  # projects with a finding at any level for one of these changes
-
-    def to_json(self) -> Json:
-        return {"changes": self.changes, "projects_affected": self.projects_affected}
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "CertaintyGroup":
-        return cls(data["changes"], data["projects_affected"])
 
 
 @dataclass(frozen=True)
@@ -261,32 +247,18 @@ class ByCertainty:
 
 
 @dataclass(frozen=True)
-class NotProject:
+class NotProject(_Plain):
     """Something the roots held besides projects (a hidden entry, a stray file, an unsafe path)."""
 
     path: str
     reason: str
 
-    def to_json(self) -> Json:
-        return {"path": self.path, "reason": self.reason}
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "NotProject":
-        return cls(data["path"], data["reason"])
-
 
 @dataclass(frozen=True)
-class CorpusFacts:
+class CorpusFacts(_Plain):
     unique_sources: int  # distinct file contents over all projects
     fork_families: int  # families of two or more projects that share most of their Python files
     legacy_python_projects: int  # projects with at least one Python 2 file
-
-    def to_json(self) -> Json:
-        return dict(vars(self))
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "CorpusFacts":
-        return cls(**data)
 
 
 @dataclass(frozen=True)
@@ -336,20 +308,13 @@ class ProjectFiles:
 
 
 @dataclass(frozen=True)
-class FailedFile:
+class FailedFile(_Plain):
     """A file the scan failed on (an analysis error, a dead worker): what a bug report needs."""
 
     project: str
     file: str
     reason: str
     detail: str
-
-    def to_json(self) -> Json:
-        return {"project": self.project, "file": self.file, "reason": self.reason, "detail": self.detail}
-
-    @classmethod
-    def from_json(cls, data: Mapping[str, Any]) -> "FailedFile":
-        return cls(data["project"], data["file"], data["reason"], data["detail"])
 
 
 @dataclass(frozen=True)
