@@ -7,9 +7,9 @@ report's shape, so a change of the report's model touches this function alone.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any, Mapping, Sequence
 
 from impactscope.changes import Change, ChangeList
+from impactscope.report.model import Report
 
 
 @dataclass(frozen=True)
@@ -50,11 +50,8 @@ class Measures:
     changes: tuple[ChangeMeasure, ...]
 
 
-def measures_from_report(report: Any, changes: ChangeList) -> Measures:
-    """The gate's view of `build_report`'s result: the typed `report.model.Report`, or the
-    document (a mapping of DESIGN.md's JSON keys) that earlier versions built."""
-    if isinstance(report, Mapping):
-        return _from_document(report, changes)
+def measures_from_report(report: Report, changes: ChangeList) -> Measures:
+    """The gate's view of the report (report/model.py)."""
     out = tuple(
         ChangeMeasure(
             change=changes.by_id(c.id),
@@ -77,43 +74,3 @@ def measures_from_report(report: Any, changes: ChangeList) -> Measures:
     t = report.totals
     return Measures(report.library, report.release, report.complete, t.projects, t.projects_using_library,
                     t.files_analysis_error + t.files_worker_died, out)
-
-
-def _from_document(report: Mapping[str, Any], changes: ChangeList) -> Measures:
-    out: list[ChangeMeasure] = []
-    for row in report["changes"]:
-        counts = row["projects"]
-        share = row["share"]
-        exposure = row["exposure"]
-        out.append(
-            ChangeMeasure(
-                change=changes.by_id(row["id"]),
-                proven=int(counts["resolved"]),
-                likely=int(counts["inferred"]),
-                possible=int(counts["possible"]),
-                share=float(share["resolved"]["estimate"]),
-                share_low=float(share["resolved"]["low"]),
-                share_high=float(share["possible"]["high"]),
-                users=int(share["denominator"]),
-                confidence=float(share["confidence"]),
-                exposed=int(exposure["exposed"]),
-                shielded=int(exposure["shielded"]),
-                unconstrained=int(exposure["unconstrained"]),
-                sites=int(row["sites"]),
-                patterns=_patterns(row["patterns"]),
-            )
-        )
-    totals = report["totals"]
-    return Measures(
-        library=report["library"],
-        release=report["release"],
-        complete=bool(report["complete"]),
-        projects=int(totals["projects"]),
-        users=int(totals["projects_using_library"]),
-        files_failed=int(totals.get("files_analysis_error", 0)) + int(totals.get("files_worker_died", 0)),
-        changes=tuple(out),
-    )
-
-
-def _patterns(rows: Sequence[Mapping[str, Any]]) -> tuple[Pattern, ...]:
-    return tuple(Pattern(str(r["pattern"]), int(r["projects"]), int(r["sites"])) for r in rows)
