@@ -104,6 +104,12 @@ class Policy:
                 )
 
 
+def _known(table: Mapping[str, Any], allowed: set[str], what: str, listed: str) -> None:
+    unknown = set(table) - allowed
+    if unknown:
+        raise PolicyError(f"{what} key(s) {', '.join(sorted(unknown))}; allowed are {listed}")
+
+
 def load_policy(path: str | os.PathLike[str]) -> Policy:
     p = Path(path)
     try:
@@ -126,12 +132,7 @@ def parse_policy(raw: bytes, path: Path) -> Policy:
         raise PolicyError(f"{where}: invalid TOML: {exc}") from None
     except RecursionError:
         raise PolicyError(f"{where}: TOML nested too deeply to read; a policy needs two levels at most") from None
-    unknown = set(data) - _TOP_KEYS
-    if unknown:
-        raise PolicyError(
-            f"{where}: unknown top-level key(s) {', '.join(sorted(unknown))}; "
-            "allowed are [limits], [limits.<kind>], [deprecation] and [[waiver]]"
-        )
+    _known(data, _TOP_KEYS, f"{where}: unknown top-level", "[limits], [limits.<kind>], [deprecation] and [[waiver]]")
     limits, by_kind = _limits(data.get("limits", {}), where)
     deprecation = _deprecation(data.get("deprecation", {}), where)
     waivers = _waivers(data.get("waiver", []), where)
@@ -156,12 +157,7 @@ def _limits(table: Any, where: str) -> tuple[Limits, dict[Kind, Limits]]:
 
 def _limit_values(table: Mapping[str, Any], label: str) -> Limits:
     allowed = COUNT_LIMITS + SHARE_LIMITS
-    unknown = set(table) - set(allowed)
-    if unknown:
-        raise PolicyError(
-            f"{label}: unknown key(s) {', '.join(sorted(unknown))}; allowed are {', '.join(allowed)} "
-            "(and [limits.<kind>] tables)"
-        )
+    _known(table, set(allowed), f"{label}: unknown", f"{', '.join(allowed)} (and [limits.<kind>] tables)")
     values: dict[str, Any] = {}
     for key, value in table.items():
         if key in COUNT_LIMITS:
@@ -181,11 +177,7 @@ def _deprecation(table: Any, where: str) -> Deprecation:
     label = f"{where}: [deprecation]"
     if not isinstance(table, dict):
         raise PolicyError(f"{label} must be a table, e.g. [deprecation]\\nmin_releases = 2")
-    unknown = set(table) - _DEPRECATION_KEYS
-    if unknown:
-        raise PolicyError(
-            f"{label}: unknown key(s) {', '.join(sorted(unknown))}; allowed are {', '.join(sorted(_DEPRECATION_KEYS))}"
-        )
+    _known(table, _DEPRECATION_KEYS, f"{label}: unknown", ", ".join(sorted(_DEPRECATION_KEYS)))
     values: dict[str, Any] = {}
     for key in ("min_releases", "min_days"):
         if key in table:
@@ -234,11 +226,7 @@ def _waivers(entries: Any, where: str) -> tuple[Waiver, ...]:
         label = f"{where}: [[waiver]] #{index + 1}"
         if not isinstance(entry, dict):
             raise PolicyError(f"{label}: must be a table with change, rule and reason")
-        unknown = set(entry) - _WAIVER_KEYS
-        if unknown:
-            raise PolicyError(
-                f"{label}: unknown key(s) {', '.join(sorted(unknown))}; allowed are change, rule, reason"
-            )
+        _known(entry, _WAIVER_KEYS, f"{label}: unknown", "change, rule, reason")
         for key in ("change", "rule", "reason"):
             value = entry.get(key)
             if not isinstance(value, str) or not value.strip():
