@@ -445,6 +445,8 @@ def _input_cases(tmp_path: Path, changes: Path, corpus: Path) -> dict[str, tuple
         "SamplingError": (["sample", str(population), "--size", "5"], "exceeds the population"),
         "EstimateError": (["sample", str(population), "--margin", "2"], "margin must be"),
         "demo InputError": (["demo", "--projects", "5", "--dir", str(tmp_path / "demo")], "projects must be at least"),
+        "PolicyError": (["gate", str(scanned), "--policy", str(tmp_path / "absent-policy.toml")], "policy not found"),
+        "RewriteOptionError": (["rewrite", str(changes), str(corpus), "--out", str(bad_toml)], "not a folder"),
     }
 
 
