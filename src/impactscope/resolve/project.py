@@ -13,6 +13,7 @@ import libcst as cst
 
 from impactscope.corpus.sources import Source, looks_like_python2
 from impactscope.findings import Finding
+from impactscope.import_names import module_name, package_of
 from impactscope.resolve.evaluate import ModuleEvaluator, ModuleResult, Ref
 from impactscope.resolve.faults import ANALYSIS_ERROR, describe, statement_line
 from impactscope.resolve.match import judge, pattern
@@ -37,16 +38,6 @@ class FileAnalysis:
     matched_refs: int = -1  # how many references `findings` were matched from
 
 
-def module_names(path: str) -> tuple[str, bool]:
-    """The dotted name a project file is imported by, and whether it is a package."""
-    stem = path.rsplit(".", 1)[0]
-    parts = stem.split("/")
-    is_package = parts[-1] == "__init__"
-    if is_package:
-        parts = parts[:-1]
-    return ".".join(parts), is_package
-
-
 class ProjectResolver:
     def __init__(self, project: str, query: Query, sources: Mapping[str, Source]) -> None:
         self.project = project
@@ -55,7 +46,7 @@ class ProjectResolver:
         self._index: dict[str, str] = {}  # dotted module name -> path
         self._module_of: dict[str, tuple[str, bool]] = {}
         for path in sorted(sources):
-            name, is_package = module_names(path)
+            name, is_package = module_name(path)
             self._module_of[path] = (name, is_package)
             if sources[path].kind != "module":
                 continue
@@ -140,7 +131,7 @@ class ProjectResolver:
             fa = self._parse(path)
             if fa.cells:
                 name, is_package = self._module_of[path]
-                importer = name if is_package else name.rpartition(".")[0]
+                importer = package_of(name, is_package)
                 evaluator = ModuleEvaluator(self.q, self, name, is_package, path, importer)
                 self._running[path] = evaluator
                 try:

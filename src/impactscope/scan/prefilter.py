@@ -24,7 +24,7 @@ import re
 from dataclasses import dataclass, field
 from typing import Iterable, Mapping
 
-from impactscope.resolve.project import module_names
+from impactscope.import_names import module_name
 
 _RELATIVE_IMPORT = re.compile(r"(?m)^[ \t]*from[ \t]+\.")
 _STAR_IMPORT = re.compile(r"(?m)^[ \t]*from[ \t]+([\w.]+)[ \t]+import[ \t]*\*")
@@ -100,7 +100,7 @@ class Prefilter:
         if not spelling:
             return Plan()  # no file spells a changed member: there can be no seed
         relative = {path for path, text in texts.items() if _RELATIVE_IMPORT.search(text)}
-        leaf = {path: module_names(path)[0].rpartition(".")[2] for path in texts}
+        leaf = {path: module_name(path)[0].rpartition(".")[2] for path in texts}
 
         # Modules that touch the library: name it, or name a touching module, or import relatively.
         touching = _close(library | relative, texts, leaf)

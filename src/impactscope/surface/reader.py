@@ -7,6 +7,8 @@ import ast
 import hashlib
 from dataclasses import dataclass
 
+from impactscope.import_names import package_of, resolve_relative
+
 from .model import Parameter
 from .parsing import ParsedModule
 from .served import ServedNames, lazy_attach
@@ -80,7 +82,7 @@ class ModuleReader:
         self.module = f.name
         self.stub = f.is_stub
         self.is_package = f.is_package
-        self.package = f.name if f.is_package else f.name.rpartition(".")[0]
+        self.package = package_of(f.name, f.is_package)
         self.library = library
         self.text = parsed.text
         self.raw = raw
@@ -438,7 +440,7 @@ class ModuleReader:
             return bound
         if st.module == "__future__":
             return bound
-        base = self._absolute(st.module, st.level)
+        base = self.absolute(st.module, st.level)
         if base is None:
             return bound
         for alias in st.names:
@@ -457,15 +459,9 @@ class ModuleReader:
         bind = Bind("import" if inside else "external", target, line, type_only, reexport, origin)
         self.ops.append(("bind", name, bind))
 
-    def _absolute(self, module: str | None, level: int) -> str | None:
-        if level == 0:
-            return module
-        package = self.package
-        for _ in range(level - 1):
-            package = package.rpartition(".")[0]
-        if not package:
-            return None
-        return f"{package}.{module}" if module else package
+    def absolute(self, module: str | None, level: int) -> str | None:
+        """The module a `from` import names, or None where the import system refuses it."""
+        return resolve_relative(self.package, level, module or "") if level else module
 
     # __all__ ---------------------------------------------------------------------------
 

@@ -32,7 +32,7 @@ class ServedNames:
                 for alias in sub.names:
                     self.imports[alias.asname or alias.name.partition(".")[0]] = alias.name if alias.asname else alias.name.partition(".")[0]
             elif isinstance(sub, ast.ImportFrom):
-                base = reader._absolute(sub.module, sub.level)
+                base = reader.absolute(sub.module, sub.level)
                 for alias in sub.names:
                     if base is not None and alias.name != "*":
                         self.imports[alias.asname or alias.name] = f"{base}.{alias.name}"
