@@ -88,6 +88,9 @@ def run_rewrite(
     done.sort(key=lambda r: r.name)
     if apply:
         _apply(done)
+    # An earlier run's patches are stale either way: applied now, or written again below.
+    for stale in _previous_patches(out):
+        (out / stale).unlink(missing_ok=True)
     written = [] if apply else _write_patches(done, out)
     reviews: list[Review] = [r for p in done for r in p.review]
     rewritten = sum(len(p.rewritten) for p in done)
@@ -140,8 +143,6 @@ def _patch_name(project: str) -> str:
 
 
 def _write_patches(done: list[ProjectRewrite], out: Path) -> list[str]:
-    for stale in _previous_patches(out):
-        (out / stale).unlink(missing_ok=True)
     written = []
     for project in done:
         if not project.files:
