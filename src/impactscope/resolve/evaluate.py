@@ -16,6 +16,7 @@ from libcst.helpers import get_full_name_for_node
 
 from impactscope.changes import Kind
 from impactscope.resolve.query import Query
+from impactscope.resolve.receivers import Receiver, ThroughSuper
 from impactscope.resolve.values import (
     UNKNOWN,
     Foreign,
@@ -87,7 +88,7 @@ class Ref:
     top: cst.CSTNode | None = None  # the top-level statement of its cell that holds it
     name: str | None = None
     attr: str | None = None
-    receiver: str = ""  # how the member was reached, for patterns: dotted, <Class>, super, ?
+    receiver: Receiver = ""  # how the member was reached, for patterns
     bound: bool = False
     call: CallShape | None = None
     import_text: str = ""
@@ -910,7 +911,7 @@ class ModuleEvaluator:
         kind = self.q.model.kind(receiver.name)
         return kind not in ("module", "class", "method", "function", "classmethod", "staticmethod")
 
-    def attribute(self, receiver: Value, attr: str) -> tuple[Value, str]:
+    def attribute(self, receiver: Value, attr: str) -> tuple[Value, Receiver]:
         """The value of `receiver.attr`, and how a pattern should name the receiver.
 
         An attribute of a library instance that the library types (a property, a typed
@@ -953,7 +954,7 @@ class ModuleEvaluator:
                     return found, ""
             bases = receiver.cls.all_lib_bases()
             if bases:
-                return Lib(f"{bases[0]}.{attr}", bound=True), f"super(<{bases[0]}>)"
+                return Lib(f"{bases[0]}.{attr}", bound=True), ThroughSuper(bases[0])
             return Foreign(None), ""
         if isinstance(receiver, Foreign):
             return Foreign(f"{receiver.name}.{attr}" if receiver.name and receiver.name != "literal" else None), ""

@@ -6,6 +6,7 @@ from impactscope.changes import Kind
 from impactscope.findings import Confidence
 from impactscope.resolve.evaluate import Ref
 from impactscope.resolve.query import CompiledChange, Query
+from impactscope.resolve.receivers import ThroughSuper
 
 
 def judge(ref: Ref, query: Query) -> list[tuple[CompiledChange, Confidence]]:
@@ -63,10 +64,11 @@ def pattern(ref: Ref, cc: CompiledChange, query: Query) -> str:
     args = ref.call.render() if ref.call is not None else ""
     shown = query.display(ref.name) if ref.name is not None else None
     receiver = ref.receiver
-    if receiver.startswith("<") and receiver.endswith(">"):
+    through_class = isinstance(receiver, ThroughSuper) or receiver.startswith("<")
+    if isinstance(receiver, ThroughSuper):
+        receiver = f"super(<{query.display(receiver.base)}>)"
+    elif receiver.startswith("<") and receiver.endswith(">"):
         receiver = f"<{query.display(receiver[1:-1])}>"
-    elif receiver.startswith("super(<"):
-        receiver = f"super(<{query.display(receiver[7:-2])}>)"
     if ref.context == "import":
         return ref.import_text
     if ref.context == "override":
@@ -82,7 +84,7 @@ def pattern(ref: Ref, cc: CompiledChange, query: Query) -> str:
     if shown is None:
         return f"?.{ref.attr}{args}"
     leaf = shown.rpartition(".")[2]
-    if receiver.startswith(("<", "super")):
+    if through_class:
         return f"{receiver}.{leaf}{args}"
     return f"{shown}{args}"
 
