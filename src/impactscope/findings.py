@@ -6,6 +6,8 @@ import enum
 from dataclasses import dataclass
 from typing import Any, Mapping
 
+from impactscope.errors import InputError
+
 
 class Confidence(enum.IntEnum):
     """How sure a finding is; higher is stronger, so `>=` reads as "at least".
@@ -26,7 +28,7 @@ class Confidence(enum.IntEnum):
         try:
             return cls[text.upper()]
         except KeyError:
-            raise ValueError(f"unknown confidence {text!r}; expected resolved, inferred or possible") from None
+            raise InputError(f"unknown confidence {text!r}; expected resolved, inferred or possible") from None
 
     @classmethod
     def strongest_first(cls) -> tuple["Confidence", ...]:
