@@ -14,14 +14,14 @@ from impactscope.estimate import wilson_interval
 
 
 def test_project_facts_match_the_ground_truth(scanned_demo_corpus) -> None:
-    truth = scanned_demo_corpus.truth["projects"]
+    truth = scanned_demo_corpus.truth.projects
     facts = {p["project"]: p for p in scanned_demo_corpus.report["projects"]}
     assert set(facts) == set(truth)
     wrong = [
-        (name, key, facts[name][key], expected[key])
+        (name, key, facts[name][key], getattr(expected, key))
         for name, expected in truth.items()
         for key in ("uses_library", "exposure", "fork_family", "legacy_python")
-        if facts[name][key] != expected[key]
+        if facts[name][key] != getattr(expected, key)
     ]
     assert not wrong, wrong[:10]
     # The corpus really exercises every class (else the comparison proves little).
@@ -37,7 +37,7 @@ def test_exposure_counts_per_change_cover_the_resolved_projects(scanned_demo_cor
 
 
 def test_python2_files_are_read_at_token_level_as_possible(scanned_demo_corpus) -> None:
-    truth = {(e["project"], e["file"], e["line"], e["change"]) for e in scanned_demo_corpus.truth["legacy"]}
+    truth = {(e.project, e.file, e.line, e.change) for e in scanned_demo_corpus.truth.legacy}
     found = {
         (f["project"], f["file"], f["line"], f["change"])
         for f in scanned_demo_corpus.report["findings"]

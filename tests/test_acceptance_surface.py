@@ -21,8 +21,9 @@ change lists from two versions):
 
 The CLI runs in-process (typer's CliRunner on impactscope.cli.app: `scan CHANGES ROOT --out R
 --jobs 1`, then `report R --format json`); the report keys are the fixed interface of
-docs/report-json.md. The corpus is scanned three times in this module: the public
-list, the private list and the drafted list.
+docs/report-json.md. The corpus and its scan with the demo list (the public names,
+`[library] source` the 2.4 source) are the session's (`scanned_demo_corpus`, tests/conftest.py);
+this module scans the corpus twice more: the private list and the drafted list.
 """
 
 from __future__ import annotations
@@ -37,11 +38,10 @@ from typing import Any
 import pytest
 
 from impactscope.changes import load_change_list
-from impactscope.demo import GroundTruth, generate_corpus
+from impactscope.demo import GroundTruth
+from impactscope.demo.run import demo_changes_path
 from impactscope.surface import build_surface, draft_changes
 
-SEED = 7
-PROJECTS = 240
 DEMO = Path(str(resources.files("impactscope.demo")))
 LIB_24 = DEMO / "heronframe"
 LIB_30 = DEMO / "heronframe_3_0" / "heronframe"
@@ -110,46 +110,41 @@ def _show(keys: set, limit: int = 12) -> str:
 
 
 # ---------------------------------------------------------------------------------------------
-# Module fixtures: one corpus, three scans.
+# Module fixtures: the session's corpus and demo scan, two more scans.
 
 
 @pytest.fixture(scope="module")
-def corpus(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, GroundTruth]:
-    root = tmp_path_factory.mktemp("surface-corpus") / "corpus"
-    return root, generate_corpus(root, projects=PROJECTS, seed=SEED)
+def corpus(demo_corpus) -> tuple[Path, GroundTruth]:
+    return demo_corpus.root, demo_corpus.truth
 
 
 @pytest.fixture(scope="module")
 def demo_list() -> dict[str, Any]:
-    with resources.as_file(resources.files("impactscope.demo") / "changes.toml") as path:
-        return tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    return tomllib.loads(demo_changes_path().read_text(encoding="utf-8"))
 
 
 @pytest.fixture(scope="module")
-def lists(tmp_path_factory: pytest.TempPathFactory, demo_list: dict[str, Any]) -> dict[str, Path]:
-    """The demo list at its public names, and the same list at the members' defining paths."""
-    folder = tmp_path_factory.mktemp("surface-lists")
+def private_list(tmp_path_factory: pytest.TempPathFactory, demo_list: dict[str, Any]) -> Path:
+    """The demo list with each member at its defining path, `[library] source` the same 2.4 source."""
     surface = build_surface(LIB_24)
     library = {**demo_list["library"], "source": str(LIB_24)}
-    public = {**demo_list, "library": library}
-    private = {**public, "change": [{**c, "member": surface.canonical(c["member"])} for c in demo_list["change"]]}
-    out = {}
-    for name, data in (("public", public), ("private", private)):
-        path = folder / f"{name}.toml"
-        path.write_text(_dump_change_list(data), encoding="utf-8")
-        load_change_list(path)  # the file itself is valid before any scan
-        out[name] = path
-    return out
+    private = {**demo_list, "library": library, "change": [{**c, "member": surface.canonical(c["member"])} for c in demo_list["change"]]}
+    path = tmp_path_factory.mktemp("surface-lists") / "private.toml"
+    path.write_text(_dump_change_list(private), encoding="utf-8")
+    load_change_list(path)  # the file itself is valid before any scan
+    return path
 
 
 @pytest.fixture(scope="module")
-def public_report(corpus: tuple[Path, GroundTruth], lists: dict[str, Path], tmp_path_factory: pytest.TempPathFactory) -> dict[str, Any]:
-    return _scan_and_report(lists["public"], corpus[0], tmp_path_factory.mktemp("r-public") / "r.sqlite")
+def public_report(scanned_demo_corpus) -> dict[str, Any]:
+    """The demo list as shipped: its members at their public names, its source the 2.4 source."""
+    assert load_change_list(demo_changes_path()).source == LIB_24.resolve()
+    return scanned_demo_corpus.report
 
 
 @pytest.fixture(scope="module")
-def private_report(corpus: tuple[Path, GroundTruth], lists: dict[str, Path], tmp_path_factory: pytest.TempPathFactory) -> dict[str, Any]:
-    return _scan_and_report(lists["private"], corpus[0], tmp_path_factory.mktemp("r-private") / "r.sqlite")
+def private_report(corpus: tuple[Path, GroundTruth], private_list: Path, tmp_path_factory: pytest.TempPathFactory) -> dict[str, Any]:
+    return _scan_and_report(private_list, corpus[0], tmp_path_factory.mktemp("r-private") / "r.sqlite")
 
 
 @pytest.fixture(scope="module")
@@ -175,12 +170,12 @@ def drafted_report(corpus: tuple[Path, GroundTruth], drafted: Path, tmp_path_fac
 # (i) private defining path == public re-export.
 
 
-def test_private_list_names_the_defining_paths(lists: dict[str, Path]) -> None:
-    private = {c["id"]: c["member"] for c in tomllib.loads(lists["private"].read_text())["change"]}
+def test_private_list_names_the_defining_paths(demo_list: dict[str, Any], private_list: Path) -> None:
+    private = {c["id"]: c["member"] for c in tomllib.loads(private_list.read_text())["change"]}
     assert private["HF-1"] == "heronframe.core.table.Table.stack_rows"
     assert private["HF-2"] == "heronframe.ops.stack"
     assert private["HF-6"] == "heronframe.io.read_table"
-    public = {c["id"]: c["member"] for c in tomllib.loads(lists["public"].read_text())["change"]}
+    public = {c["id"]: c["member"] for c in demo_list["change"]}
     assert public["HF-1"] == "heronframe.Table.stack_rows"
 
 

@@ -37,9 +37,10 @@ PROJECTS = 240
 
 
 @pytest.fixture(scope="module")
-def corpus(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, GroundTruth]:
-    root = tmp_path_factory.mktemp("demo") / "corpus"
-    return root, generate_corpus(root, projects=PROJECTS, seed=SEED)
+def corpus(demo_corpus) -> tuple[Path, GroundTruth]:
+    """The session's corpus (tests/conftest.py: 240 projects, seed 7), read only."""
+    assert (demo_corpus.truth.seed, len(demo_corpus.truth.projects)) == (SEED, PROJECTS)
+    return demo_corpus.root, demo_corpus.truth
 
 
 @pytest.fixture(scope="module")

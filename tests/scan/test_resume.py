@@ -1,4 +1,10 @@
-"""A scan killed at any point and started again ends with exactly an uninterrupted scan's results."""
+"""A scan killed at any point and started again ends with exactly an uninterrupted scan's results.
+
+The scans run as subprocesses (the signals are real) with the commit policy of scan/run.py set
+to "every COMMIT_EVERY finished projects" instead of "every half second": the first commit then
+comes after a few projects whatever the machine's speed, so a small corpus is still being
+scanned when the signal lands, and the size of every committed batch is known.
+"""
 
 from __future__ import annotations
 
@@ -13,12 +19,22 @@ import pytest
 
 from .helpers import build_corpus, snapshot, write_changes
 
-PROJECTS = 240  # large enough that the first commit (after 0.5 s) comes well before the end
-BULK = 60
+PROJECTS = 48  # plus the loose notebook: 12 batches, so a signal after the first commit lands mid-scan
+BULK = 20
+COMMIT_EVERY = 4
+
+#: `impactscope` with scan/run.py's commit policy made count-based (the same hook test_cli_errors patches).
+_ENTRY = f"""\
+import impactscope.scan.run as run
+assert isinstance(run.COMMIT_SECONDS, float) and isinstance(run.COMMIT_PROJECTS, int), "commit policy renamed"
+run.COMMIT_SECONDS, run.COMMIT_PROJECTS = 3600.0, {COMMIT_EVERY}
+from impactscope.cli import main
+main()
+"""
 
 
 def _cli(*args: object) -> list[str]:
-    return [sys.executable, "-m", "impactscope.cli", "scan", *map(str, args)]
+    return [sys.executable, "-c", _ENTRY, "scan", *map(str, args)]
 
 
 def _committed(results: Path) -> int:
@@ -42,6 +58,25 @@ def _interrupt_after_first_commit(cmd: list[str], results: Path, sig: int) -> su
     return subprocess.CompletedProcess(cmd, proc.returncode, out, err)
 
 
+def _only(snap: dict[str, object], names: set[str]) -> dict[str, object]:
+    """The part of a snapshot that belongs to the projects `names`."""
+    return {
+        "projects": [p for p in snap["projects"] if p.name in names],  # type: ignore[attr-defined]
+        "files": [f for f in snap["files"] if f[0] in names],  # type: ignore[attr-defined]
+        "findings": [f for f in snap["findings"] if f.project in names],  # type: ignore[attr-defined]
+        "manifests": {name: m for name, m in snap["manifests"].items() if name in names},  # type: ignore[attr-defined]
+    }
+
+
+def _check_partial(partial: dict[str, object], expected: dict[str, object]) -> set[str]:
+    """A partial results file: incomplete, and what it holds is exactly the uninterrupted results of those projects."""
+    assert partial["complete"] == "0"
+    names = {p.name for p in partial["projects"]}  # type: ignore[attr-defined]
+    assert 0 < len(names) < len(expected["projects"])  # type: ignore[arg-type]
+    assert _only(partial, names) == _only(expected, names)
+    return names
+
+
 @pytest.fixture(scope="module")
 def setup(tmp_path_factory):
     base = tmp_path_factory.mktemp("resume")
@@ -49,7 +84,9 @@ def setup(tmp_path_factory):
     changes = write_changes(base)
     whole = base / "whole.sqlite"
     subprocess.run(_cli(changes, root, "--out", whole, "--jobs", 1, "--quiet"), check=True)
-    return base, changes, root, snapshot(whole)
+    expected = snapshot(whole)
+    assert len(expected["projects"]) == PROJECTS + 1 and expected["findings"]
+    return base, changes, root, expected
 
 
 @pytest.mark.parametrize("jobs", [1, 2])
@@ -60,10 +97,10 @@ def test_sigkill_then_rerun_gives_the_uninterrupted_results(setup, jobs):
     killed = _interrupt_after_first_commit(cmd, out, signal.SIGKILL)
     assert killed.returncode == -signal.SIGKILL
     partial = snapshot(out)
-    assert partial["complete"] == "0"
-    assert 0 < len(partial["projects"]) < PROJECTS + 1
+    names = _check_partial(partial, expected)
+    assert len(names) % COMMIT_EVERY == 0, "a kill left part of a batch committed"
     rerun = subprocess.run(cmd[:-1], capture_output=True, text=True, check=True)  # without --quiet
-    assert "unchanged, reused" in rerun.stderr
+    assert f"{len(names)} unchanged, reused" in rerun.stderr, rerun.stderr
     assert snapshot(out) == expected
 
 
@@ -75,7 +112,7 @@ def test_ctrl_c_commits_exits_130_and_resumes(setup):
     assert stopped.returncode == 130, stopped.stderr
     assert "interrupted; finished projects are saved in" in stopped.stderr
     assert "Traceback" not in stopped.stderr
-    assert snapshot(out)["complete"] == "0"
+    _check_partial(snapshot(out), expected)
     subprocess.run(cmd + ["--quiet"], check=True)
     assert snapshot(out) == expected
 
@@ -89,6 +126,7 @@ def test_sigterm_commits_exits_143_and_resumes(setup):
     assert stopped.returncode == 143, stopped.stderr
     assert "interrupted; finished projects are saved in" in stopped.stderr
     assert "Traceback" not in stopped.stderr
+    _check_partial(snapshot(out), expected)
     subprocess.run(cmd + ["--quiet"], check=True)
     assert snapshot(out) == expected
 
@@ -97,6 +135,7 @@ def test_quiet_prints_nothing_and_logs_are_plain_lines(setup):
     base, changes, root, expected = setup
     quiet = subprocess.run(_cli(changes, root, "--out", base / "q.sqlite", "--quiet"), capture_output=True, text=True)
     assert quiet.returncode == 0 and quiet.stderr == "" and quiet.stdout == ""
+    assert snapshot(base / "q.sqlite") == expected
     logged = subprocess.run(_cli(changes, root, "--out", base / "q.sqlite"), capture_output=True, text=True)
     assert logged.stderr.splitlines()[0] == f"impactscope: scanning {PROJECTS + 1} projects"
     assert "\x1b[" not in logged.stderr  # no terminal control codes in a log
