@@ -34,3 +34,18 @@ def test_a_member_the_head_removed_points_at_what_held_it():
     assert line_of(place).startswith("class Table") and place.column == 1
     gone = lines.place(Change("X", "heronframe.nowhere.at_all", Kind.REMOVED))
     assert gone is not None and gone.line == 1 and gone.path.name == "__init__.py"
+
+
+def test_the_previous_surface_names_the_module_that_held_a_removed_member(tmp_path):
+    from impactscope.surface import build_surface
+
+    for release, body in (("old", "def f():\n    pass\n\n\ndef g():\n    pass\n"), ("new", "def g():\n    pass\n")):
+        package = tmp_path / release / "pkg"
+        package.mkdir(parents=True)
+        (package / "__init__.py").write_text("from .sub import *\n" if release == "old" else "from .sub import g\n")
+        (package / "sub.py").write_text(body)
+    lines = library_lines(tmp_path / "new" / "pkg", "pkg")
+    gone = Change("X", "pkg.f", Kind.REMOVED)
+    assert lines.place(gone).path.name == "__init__.py"  # the head alone knows only the package
+    place = lines.place(gone, build_surface(tmp_path / "old" / "pkg", "pkg"))
+    assert place.path.name == "sub.py" and place.what == "definition of pkg.sub" and place.line == 1

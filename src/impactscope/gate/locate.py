@@ -31,24 +31,37 @@ class LibraryLines:
     files: Mapping[str, Path]  # module name -> its file
     warnings: Mapping[str, tuple[HarvestedChange, ...]]  # canonical member -> its harvested warnings
 
-    def place(self, change: Change) -> Place | None:
-        name = self.surface.canonical(change.member)
-        warned = self.warnings.get(name, ())
-        if warned:
-            best = next((h for h in warned if change.parameter and h.parameter == change.parameter), warned[0])
-            path = self.files.get(best.module)
-            if path is not None:
-                return _place(path, best.line, "deprecation warning")
-        target = name
-        while target:
-            member = self.surface.members.get(target)
-            module = self.surface.module_of(target) if member is not None else None
-            path = self.files.get(module) if module is not None else None
-            if member is not None and path is not None:
-                what = "definition" if target == name else f"definition of {target}"
-                return _place(path, member.line if member.kind != "module" else 1, what)
-            target = target.rpartition(".")[0]
-        return None
+    def place(self, change: Change, before: Surface | None = None) -> Place | None:
+        """`before`, the previous release's surface, names where a member the head removed was
+        defined (`networkx.to_numpy_matrix` in `networkx.convert_matrix`), so the place is the
+        module or class that held it rather than the package."""
+        names = list(dict.fromkeys([self.surface.canonical(change.member)]
+                                   + ([before.canonical(change.member)] if before is not None else [])))
+        for name in names:
+            warned = self.warnings.get(name, ())
+            if warned:
+                best = next((h for h in warned if change.parameter and h.parameter == change.parameter), warned[0])
+                path = self.files.get(best.module)
+                if path is not None:
+                    return _place(path, best.line, "deprecation warning")
+        found: list[tuple[int, Place]] = []
+        for name in names:
+            target = name
+            while target:
+                place = self._definition(target, "definition" if target == name else f"definition of {target}")
+                if place is not None:
+                    found.append((target.count(".") + (target == name) * 1000, place))
+                    break
+                target = target.rpartition(".")[0]
+        return max(found, key=lambda pair: pair[0])[1] if found else None  # the member, else the closest holder
+
+    def _definition(self, target: str, what: str) -> Place | None:
+        member = self.surface.members.get(target)
+        module = self.surface.module_of(target) if member is not None else None
+        path = self.files.get(module) if module is not None else None
+        if member is None or path is None:
+            return None
+        return _place(path, member.line if member.kind != "module" else 1, what)
 
 
 def library_lines(source: Path, import_name: str) -> LibraryLines:

@@ -58,7 +58,7 @@ def run_gate(
     if head_source is not None:
         lines = library_lines(head_source, changes.import_name)
         for change in changes.changes:
-            place = lines.place(change)
+            place = lines.place(change, warned.surface if warned is not None else None)
             if place is not None:
                 places[change.id] = place
     verdict = evaluate(policy, measures, warned)
