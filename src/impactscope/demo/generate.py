@@ -122,6 +122,22 @@ class ExpectedSite:
 
 
 @dataclass(frozen=True, order=True)
+class ExpectedRewrite:
+    """A line `impactscope rewrite` must change, and its text after the rewrite (with the demo
+    change list plus the old defaults `inplace = false` for HF-4 and `sep = ","` for HF-6). A
+    text holding newlines is one line that becomes several. Every other line stays as it is."""
+
+    project: str
+    file: str
+    cell: int | None
+    line: int
+    text: str
+
+    def to_json(self) -> dict[str, object]:
+        return {"project": self.project, "file": self.file, "cell": self.cell, "line": self.line, "text": self.text}
+
+
+@dataclass(frozen=True, order=True)
 class LegacySite:
     """A textual use in a Python 2 file (unparsed, so not in `expected`)."""
 
@@ -167,6 +183,7 @@ class GroundTruth:
     projects: Mapping[str, ProjectTruth]
     files: Mapping[str, int]
     rules: Mapping[str, int] = field(default_factory=lambda: MappingProxyType({}))
+    rewrites: tuple[ExpectedRewrite, ...] = ()
 
     def sites(self, confidence: str) -> frozenset[tuple[str, str, int | None, int, str]]:
         return frozenset(site.key for site in self.expected if site.confidence == confidence)
@@ -186,6 +203,7 @@ class GroundTruth:
             "projects": {name: self.projects[name].to_json() for name in sorted(self.projects)},
             "files": {name: self.files[name] for name in sorted(self.files)},
             "rules": {name: self.rules[name] for name in sorted(self.rules)},
+            "rewrites": [item.to_json() for item in self.rewrites],
         }
 
     def dumps(self) -> str:
@@ -204,6 +222,7 @@ class GroundTruth:
             projects=MappingProxyType({name: ProjectTruth(**value) for name, value in data["projects"].items()}),
             files=MappingProxyType({str(name): int(count) for name, count in data["files"].items()}),
             rules=MappingProxyType({str(name): int(count) for name, count in data.get("rules", {}).items()}),
+            rewrites=tuple(ExpectedRewrite(**item) for item in data.get("rewrites", [])),
         )
 
 
@@ -393,6 +412,7 @@ class _Project:
     legacy_python: bool = False
     manifest: Manifest = Manifest(None, (), ())
     family: str | None = None
+    rewrites: list[tuple[str, int | None, int, str]] = field(default_factory=list)  # path, cell, line, text after
 
     def _put(self, path: str, data: bytes) -> None:
         if path in self.files:
@@ -403,12 +423,16 @@ class _Project:
         self._put(path, b.text().encode(encoding))
         self.sites.extend((path, None, line, expect) for line, expect in b.sites)
         self.legacy.extend((path, line, expect) for line, expect in b.legacy_sites)
+        self.rewrites.extend((path, None, line, text) for line, text in b.rewrites)
 
-    def add_notebook(self, path: str, nb: NotebookBuilder, data: bytes) -> None:
+    def add_notebook(self, path: str, nb: NotebookBuilder, data: bytes, *, rewritable: bool = True) -> None:
+        """`rewritable`: the rewrite edits this notebook (nbformat 4; a v3 one goes to review)."""
         self._put(path, data)
         for index, (kind, b) in enumerate(nb.cells):
             if kind == "code":
                 self.sites.extend((path, index, line, expect) for line, expect in b.sites)
+                if rewritable:
+                    self.rewrites.extend((path, index, line, text) for line, text in b.rewrites)
 
     def add_bytes(self, path: str, data: bytes) -> None:
         self._put(path, data)
@@ -424,7 +448,7 @@ class _Project:
     def copy_as(self, name: str) -> _Project:
         return _Project(
             name, self.container, dict(self.files), list(self.sites), list(self.legacy), Counter(self.notes),
-            self.uses_library, self.legacy_python, self.manifest, self.family,
+            self.uses_library, self.legacy_python, self.manifest, self.family, list(self.rewrites),
         )
 
 
@@ -504,7 +528,8 @@ class _Generator:
         c = self.ctx(rng, project)
         nb = sn.library_notebook(c, self.deck.draw, version=version, title=title)
         warning = "DeprecationWarning: stack is deprecated, use Table.stack_rows\n"
-        project.add_notebook(path, nb, nb.render(version, rng, warning if rng.random() < 0.4 else ""))
+        project.add_notebook(path, nb, nb.render(version, rng, warning if rng.random() < 0.4 else ""),
+                             rewritable=version == 4)
 
     def plain_notebook(self, rng: random.Random, project: _Project, path: str, title: str, *, version: int) -> None:
         c = self.ctx(rng, project)
@@ -889,6 +914,7 @@ def generate_corpus(out_dir: Path, *, projects: int = 240, seed: int = 0, filler
     truths: dict[str, ProjectTruth] = {}
     files: dict[str, int] = {}
     rules: Counter[str] = Counter()
+    rewrites: list[ExpectedRewrite] = []
     for project in sorted(built, key=lambda item: item.name):
         if project.name in truths:
             raise RuntimeError(f"duplicate project name {project.name}")
@@ -910,6 +936,7 @@ def generate_corpus(out_dir: Path, *, projects: int = 240, seed: int = 0, filler
             manifest=project.manifest.kind,
         )
         files[project.name] = len(project.files)
+        rewrites.extend(ExpectedRewrite(project.name, path, cell, line, text) for path, cell, line, text in project.rewrites)
         rules.update(project.notes)
         rules.update(site.rule for site in sites)
         rules.update(f"legacy:{expect.change}" for _, _, expect in project.legacy)
@@ -926,6 +953,7 @@ def generate_corpus(out_dir: Path, *, projects: int = 240, seed: int = 0, filler
         projects=MappingProxyType(truths),
         files=MappingProxyType(files),
         rules=MappingProxyType(dict(sorted(rules.items()))),
+        rewrites=tuple(sorted(rewrites, key=lambda r: (r.project, r.file, -1 if r.cell is None else r.cell, r.line))),
     )
     truth_path(root).write_text(truth.dumps(), encoding="utf-8")
     return truth

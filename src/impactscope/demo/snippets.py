@@ -113,6 +113,30 @@ def pos(change: str, rule: str, token: str = "", *, unknowable: bool = False) ->
     return Expect(change, rule, POSSIBLE, token, unknowable)
 
 
+def renamed(old: str, new: str) -> Callable[[str], str]:
+    """The expected rewrite of a line: the first `old` spelled `new`."""
+
+    def change(text: str) -> str:
+        if old not in text:
+            raise ValueError(f"{old!r} is not in {text!r}")
+        return text.replace(old, new, 1)
+
+    return change
+
+
+def sep_passed_first(text: str) -> str:
+    """As `sep_passed`, for the first call of a chain: `read_table("...")` gets `sep=","`."""
+    open_ = text.index("read_table(")
+    close = text.index(")", open_)
+    return text[:close] + ', sep=","' + text[close:]
+
+
+def sep_passed(text: str) -> str:
+    """The expected rewrite of a call that relied on `sep`'s old default: `sep=","` passed last."""
+    close = text.rindex(")")
+    return text[:close] + ', sep=","' + text[close:]
+
+
 class SourceBuilder:
     """Lines of one module or one notebook cell, with the expectations attached to them."""
 
@@ -120,18 +144,25 @@ class SourceBuilder:
         self._lines: list[str] = []
         self._sites: list[tuple[int, Expect]] = []
         self._legacy: list[tuple[int, Expect]] = []
+        self._becomes: list[tuple[int, str]] = []
 
     @property
     def next_line(self) -> int:
         return len(self._lines) + 1
 
-    def line(self, text: str = "", *expects: Expect) -> int:
-        """Append one line; `expects` are findings on it. Returns its 1-based number."""
+    def line(self, text: str = "", *expects: Expect, becomes: Callable[[str], str] | None = None) -> int:
+        """Append one line; `expects` are findings on it. Returns its 1-based number.
+
+        `becomes` gives the text `impactscope rewrite` is expected to turn the line into (with
+        the demo change list plus the old defaults `inplace = false` and `sep = ","`); a line
+        without it stays as it is."""
         if "\n" in text:
             raise ValueError(f"one line at a time: {text!r}")
         self._lines.append(text)
         number = len(self._lines)
         self._sites.extend((number, expect) for expect in expects)
+        if becomes is not None:
+            self._becomes.append((number, becomes(text)))
         return number
 
     def legacy(self, text: str, *expects: Expect) -> int:
@@ -157,6 +188,11 @@ class SourceBuilder:
     @property
     def legacy_sites(self) -> tuple[tuple[int, Expect], ...]:
         return tuple(self._legacy)
+
+    @property
+    def rewrites(self) -> tuple[tuple[int, str], ...]:
+        """(line, expected text after the rewrite) of the lines a rewrite changes."""
+        return tuple(self._becomes)
 
     @property
     def source_lines(self) -> tuple[str, ...]:
@@ -226,15 +262,17 @@ class Ctx:
 
 
 Snippet = Callable[[SourceBuilder, Ctx], None]
-Line = tuple[str, Expect | None, str]  # text, expectation, rule noted when there is none
+# text, expectation, rule noted when there is none[, the line's expected rewrite]
+Line = tuple[str, Expect | None, str] | tuple[str, Expect | None, str, Callable[[str], str]]
 
 
 def _emit(b: SourceBuilder, c: Ctx, lines: Sequence[Line]) -> None:
-    for text, expect, note in lines:
+    for text, expect, note, *becomes in lines:
+        after = becomes[0] if becomes else None
         if expect is not None:
-            b.line(text, expect)
+            b.line(text, expect, becomes=after)
         else:
-            b.line(text)
+            b.line(text, becomes=after)
             if note:
                 c.note(note)
 
@@ -259,11 +297,11 @@ def _probe(b: SourceBuilder, c: Ctx, alias: str, rule: str) -> None:
     if kind == 0:
         b.line(f"{c.fresh('combined')} = {alias}.stack({c.fresh('batches')})", res("HF-2", rule))
     elif kind == 1:
-        b.line(f'{c.fresh("raw")} = {alias}.read_table("{c.path()}")', res("HF-6", rule))
+        b.line(f'{c.fresh("raw")} = {alias}.read_table("{c.path()}")', res("HF-6", rule), becomes=sep_passed)
     elif kind == 2:
         b.line(f'{c.fresh("empty")} = {alias}.Table({{"{c.col()}": []}}).copy()', res("HF-8", rule))
     else:
-        b.line(f'{alias}.plotting.scatter_grid({alias}.Table(), "{c.col()}", "{c.col()}")', res("HF-3", rule))
+        b.line(f'{alias}.plotting.scatter_grid({alias}.Table(), "{c.col()}", "{c.col()}")', res("HF-3", rule), becomes=renamed(".plotting.", ".viz."))
 
 
 HEADER_KINDS: tuple[str, ...] = (
@@ -338,14 +376,14 @@ def prologue(b: SourceBuilder, c: Ctx, title: str) -> None:
 
 def s_read_then_stack(b: SourceBuilder, c: Ctx) -> None:
     m, t, u = c.mod, c.table(), c.table()
-    b.line(f'{t} = {m}.read_table("{c.path()}")', res("HF-6", "default-nosep"))
+    b.line(f'{t} = {m}.read_table("{c.path()}")', res("HF-6", "default-nosep"), becomes=sep_passed)
     if c.chance(0.5):
         b.line(f'{u} = {m}.read_table("{c.path()}", sep="{c.sep()}")')
         c.note("default-sep-keyword")
     else:
         b.line(f'{u} = {m}.read_table("{c.path()}", "{c.sep()}")')
         c.note("default-sep-positional")
-    b.line(f"{t}.stack_rows({u})", res("HF-1", "typeflow-read"))
+    b.line(f"{t}.stack_rows({u})", res("HF-1", "typeflow-read"), becomes=renamed("stack_rows", "append_rows"))
 
 
 def s_stack_call(b: SourceBuilder, c: Ctx) -> None:
@@ -358,7 +396,7 @@ def s_plot_chain(b: SourceBuilder, c: Ctx) -> None:
     f = c.fresh(c.choice(["plot_overview", "draw_grid", "quick_look"]))
     x, y = c.cols(2)
     b.line(f"def {f}(tbl):")
-    b.line(f'    {c.mod}.plotting.scatter_grid(tbl, "{x}", "{y}")', res("HF-3", "chain"))
+    b.line(f'    {c.mod}.plotting.scatter_grid(tbl, "{x}", "{y}")', res("HF-3", "chain"), becomes=renamed(".plotting.", ".viz."))
     b.line("    return tbl")
 
 
@@ -383,10 +421,11 @@ def s_from_import_stack(b: SourceBuilder, c: Ctx) -> None:
 def s_from_import_plot(b: SourceBuilder, c: Ctx) -> None:
     if c.chance(0.5):
         name = "scatter_grid"
-        b.line("from heronframe.plotting import scatter_grid", res("HF-3", "import-site"))
+        b.line("from heronframe.plotting import scatter_grid", res("HF-3", "import-site"), becomes=renamed("plotting", "viz"))
     else:
         name = c.fresh(c.choice(["grid_plot", "sgrid", "plot_points"]))
-        b.line(f"from heronframe.plotting import scatter_grid as {name}", res("HF-3", "import-site"))
+        b.line(f"from heronframe.plotting import scatter_grid as {name}", res("HF-3", "import-site"),
+               becomes=renamed("plotting", "viz"))
     f = c.fresh(c.choice(["show_points", "preview", "plot_pair"]))
     x, y = c.cols(2)
     b.line("")
@@ -415,7 +454,8 @@ def s_import_plotting(b: SourceBuilder, c: Ctx) -> None:
     b.line("")
     b.line("")
     b.line(f"def {f}(tbl):")
-    b.line(f'    return {callee}.scatter_grid(tbl, "{x}", "{y}")', res("HF-3", "chain"))
+    b.line(f'    return {callee}.scatter_grid(tbl, "{x}", "{y}")', res("HF-3", "chain"),
+           becomes=renamed(".plotting.", ".viz.") if variant == 0 else None)
 
 
 def s_sort_params(b: SourceBuilder, c: Ctx) -> None:
@@ -426,7 +466,8 @@ def s_sort_params(b: SourceBuilder, c: Ctx) -> None:
     pool: list[list[Line]] = [
         [(f'    {t}.sort_by("{col}", inplace=True)', res("HF-4", "param-keyword"), "")],
         [(f'    {t}.sort_by("{col}", False, True)', res("HF-4", "param-positional"), "")],
-        [(f'    {t}.sort_by("{col}", ascending=False, inplace=False)', res("HF-4", "param-keyword"), "")],
+        [(f'    {t}.sort_by("{col}", ascending=False, inplace=False)', res("HF-4", "param-keyword"), "",
+          renamed(", inplace=False", ""))],
         [
             (f"    {t}.sort_by(", res("HF-4", "multiline-call"), ""),
             (f'        "{col}",', None, ""),
@@ -467,13 +508,14 @@ def s_pivot(b: SourceBuilder, c: Ctx) -> None:
     w = c.fresh("wide")
     pool: list[list[Line]] = [
         [(f'    {w} = {t}.pivot("{i}", "{k}", "{v}", 0)', res("HF-5", "param-positional"), "")],
-        [(f'    {w} = {t}.pivot(index="{i}", columns="{k}", values="{v}", fill=0.0)', res("HF-5", "param-keyword"), "")],
+        [(f'    {w} = {t}.pivot(index="{i}", columns="{k}", values="{v}", fill=0.0)', res("HF-5", "param-keyword"), "",
+          renamed("fill=", "fill_value="))],
         [
             (f"    {w} = {t}.pivot(", res("HF-5", "multiline-call"), ""),
             (f'        "{i}",', None, ""),
             (f'        "{k}",', None, ""),
             (f'        values="{v}",', None, ""),
-            ("        fill=0,", None, ""),
+            ("        fill=0,", None, "", renamed("fill=", "fill_value=")),
             ("    )", None, ""),
         ],
         [(f'    {w} = {t}.pivot("{i}", "{k}", "{v}")', None, "param-nomatch")],
@@ -492,11 +534,11 @@ def s_read_variants(b: SourceBuilder, c: Ctx) -> None:
     a = c.fresh("frame")
     s = c.sep()
     pool: list[list[Line]] = [
-        [(f"    {a} = {c.mod}.read_table(path, header=True)", res("HF-6", "default-nosep"), "")],
+        [(f"    {a} = {c.mod}.read_table(path, header=True)", res("HF-6", "default-nosep"), "", sep_passed)],
         [
             (f"    {a} = {c.mod}.read_table(", res("HF-6", "multiline-call"), ""),
             ("        path,", None, ""),
-            ("        header=False,", None, ""),
+            ("        header=False,", None, "", lambda text: text + '\n        sep=",",'),
             ("    )", None, ""),
         ],
         [(f"    {a} = {c.mod}.read_table(path, **kw)", pos("HF-6", "default-star", unknowable=True), "")],
@@ -515,7 +557,7 @@ def s_func_alias(b: SourceBuilder, c: Ctx) -> None:
     m, rt, t = c.mod, c.fresh(c.choice(["rt", "reader", "load"])), c.table()
     b.line(f"{rt} = {m}.read_table")
     c.note("param-ref-no-call")
-    b.line(f'{t} = {rt}("{c.path()}")', res("HF-6", "alias-assign-func", token=rt))
+    b.line(f'{t} = {rt}("{c.path()}")', res("HF-6", "alias-assign-func", token=rt), becomes=sep_passed)
     b.line(f"{t}.describe()", res("HF-7", "typeflow-alias-call"))
     if c.chance(0.6):
         st, r = c.fresh(c.choice(["stack_fn", "concat", "glue_all"])), c.fresh("merged")
@@ -524,7 +566,7 @@ def s_func_alias(b: SourceBuilder, c: Ctx) -> None:
     if c.chance(0.5):
         sg = c.fresh(c.choice(["grid", "plot_fn"]))
         x, y = c.cols(2)
-        b.line(f"{sg} = {m}.plotting.scatter_grid", res("HF-3", "alias-assign-ref"))
+        b.line(f"{sg} = {m}.plotting.scatter_grid", res("HF-3", "alias-assign-ref"), becomes=renamed(".plotting.", ".viz."))
         b.line(f'{sg}({t}, "{x}", "{y}")', res("HF-3", "alias-assign-func", token=sg))
 
 
@@ -552,7 +594,7 @@ def s_annotations(b: SourceBuilder, c: Ctx) -> None:
             b.line(f"    print({t}.describe())", res("HF-7", "typeflow-annot-param"))
         elif variant == 1:
             b.line(f'def {c.fresh("extend")}({t}: "{m}.Table", other):')
-            b.line(f"    return {t}.stack_rows(other)", res("HF-1", "typeflow-annot-str"))
+            b.line(f"    return {t}.stack_rows(other)", res("HF-1", "typeflow-annot-str"), becomes=renamed("stack_rows", "append_rows"))
         elif variant == 2:
             if c.chance(0.5):
                 b.line("from typing import Optional")
@@ -573,7 +615,7 @@ def s_annotations(b: SourceBuilder, c: Ctx) -> None:
             b.line(f"    return {t}.describe()", res("HF-7", "typeflow-union"))
         else:
             b.line(f"{t}: {m}.Table = fetch_latest()")
-            b.line(f"{t}.stack_rows({t})", res("HF-1", "typeflow-annassign"))
+            b.line(f"{t}.stack_rows({t})", res("HF-1", "typeflow-annassign"), becomes=renamed("stack_rows", "append_rows"))
 
 
 def s_store(b: SourceBuilder, c: Ctx) -> None:
@@ -604,6 +646,7 @@ def s_chain(b: SourceBuilder, c: Ctx) -> None:
                 f'{c.fresh("joined")} = {m}.read_table("{c.path()}").filter_rows(lambda row: row["{col}"]).stack_rows({m}.Table())',
                 res("HF-6", "default-nosep"),
                 res("HF-1", "typeflow-chain"),
+                becomes=lambda text: sep_passed_first(renamed("stack_rows", "append_rows")(text)),
             )
         elif option == 1:
             b.line(
@@ -627,7 +670,7 @@ def s_local_import(b: SourceBuilder, c: Ctx) -> None:
         b.line(f"    import heronframe as {a}")
         b.line("")
         b.line(f'    {t} = {a}.read_table(path, sep="{c.sep()}")')
-        b.line(f"    return {t}.stack_rows(other)", res("HF-1", "alias-local-import"))
+        b.line(f"    return {t}.stack_rows(other)", res("HF-1", "alias-local-import"), becomes=renamed("stack_rows", "append_rows"))
     else:
         b.line(f"def {f}(left, right):")
         b.line("    from heronframe import stack", res("HF-2", "import-site"))
@@ -657,7 +700,7 @@ def s_subclass_describe(b: SourceBuilder, c: Ctx) -> None:
     b.line("        return summary")
     b.line("")
     b.line("    def with_extra(self, other):")
-    b.line("        self.stack_rows(other)", res("HF-1", "self-call"))
+    b.line("        self.stack_rows(other)", res("HF-1", "self-call"), becomes=renamed("stack_rows", "append_rows"))
     b.line("        return self.describe()")
     c.note("self-overridden")
     b.line("")
@@ -673,7 +716,7 @@ def s_subclass_stack_rows(b: SourceBuilder, c: Ctx) -> None:
     b.line(f"class {name}({base}):")
     c.note("class-base")
     b.line("    def stack_rows(self, other):", res("HF-1", "override"))
-    b.line("        return super().stack_rows(other)", res("HF-1", "super-call"))
+    b.line("        return super().stack_rows(other)", res("HF-1", "super-call"), becomes=renamed("stack_rows", "append_rows"))
     b.line("")
     b.line("    def stack_twice(self, other):")
     b.line("        self.stack_rows(other)")
@@ -845,7 +888,7 @@ def s_private_path(b: SourceBuilder, c: Ctx) -> None:
     b.line("")
     b.line(f'{o} = {c.mod}.read_table("{c.path()}", sep="{c.sep()}")')
     c.note("default-sep-keyword")
-    b.line(f'{j} = Table({{"{col}": [1, 2]}}).stack_rows({o})', res("HF-1", "surface-private-ctor"))
+    b.line(f'{j} = Table({{"{col}": [1, 2]}}).stack_rows({o})', res("HF-1", "surface-private-ctor"), becomes=renamed("stack_rows", "append_rows"))
     b.line(f"{s} = {mod}.Table.describe({o})", res("HF-7", "surface-private-module"))
 
 
@@ -855,7 +898,7 @@ def s_grouped(b: SourceBuilder, c: Ctx) -> None:
     b.line(f'{t} = {m}.read_table("{c.path()}", sep="{c.sep()}")')
     c.note("default-sep-keyword")
     b.line(f'{g} = {t}.group_by("{key}")')
-    b.line(f"{c.fresh('merged')} = {g}.stack_rows({t})", res("HF-1", "surface-inherited-typeflow"))
+    b.line(f"{c.fresh('merged')} = {g}.stack_rows({t})", res("HF-1", "surface-inherited-typeflow"), becomes=renamed("stack_rows", "append_rows"))
     b.line(
         f'{c.fresh("profile")} = {m}.GroupedTable({{"{key}": [1, 1, 2]}}, key="{key}").describe()',
         res("HF-7", "surface-inherited-ctor"),
@@ -868,7 +911,7 @@ def s_star_import(b: SourceBuilder, c: Ctx) -> None:
     b.line("from heronframe import *  # noqa: F403")
     c.note("import-nonsite")
     b.line("")
-    b.line(f'{t} = read_table("{c.path()}")', res("HF-6", "surface-star-import"))
+    b.line(f'{t} = read_table("{c.path()}")', res("HF-6", "surface-star-import"), becomes=sep_passed)
     b.line(f"{c.fresh('combined')} = stack([{t}, {t}])", res("HF-2", "surface-star-import"))
 
 
@@ -909,7 +952,7 @@ def s_subclass_grouped(b: SourceBuilder, c: Ctx) -> None:
     b.line("        return summary")
     b.line("")
     b.line("    def extended(self, other):")
-    b.line("        return self.stack_rows(other)", res("HF-1", "surface-self-call"))
+    b.line("        return self.stack_rows(other)", res("HF-1", "surface-self-call"), becomes=renamed("stack_rows", "append_rows"))
 
 
 #: The module-level body templates, drawn from a shuffled deck so each appears often.
@@ -983,7 +1026,7 @@ def helpers_module(c: Ctx, project_title: str) -> SourceBuilder:
     b.line("")
     b.line("")
     b.line("def load_clean(path):")
-    b.line(f"    {t} = load_table(path)", res("HF-6", "reexport-source", token="load_table"))
+    b.line(f"    {t} = load_table(path)", res("HF-6", "reexport-source", token="load_table"), becomes=sep_passed)
     b.line(f"    return {t}.filter_rows(lambda row: all(value != '' for value in row.values()))")
     b.line("")
     b.line("")
@@ -1001,7 +1044,7 @@ def reexport_header(b: SourceBuilder, c: Ctx, source: str, rule: str) -> None:
     c.mod = "hf"
     t = c.table()
     b.line("")
-    b.line(f'{t} = load_table("{c.path()}")', res("HF-6", rule, token="load_table"))
+    b.line(f'{t} = load_table("{c.path()}")', res("HF-6", rule, token="load_table"), becomes=sep_passed)
     b.line(f"{t}.describe()", res("HF-7", rule))
     if c.chance(0.5):
         b.line(f"{c.fresh('merged')} = hf.stack([{t}, {t}])", res("HF-2", rule))
@@ -1023,7 +1066,7 @@ def dotted_reexport_module(c: Ctx, package: str) -> SourceBuilder:
     c.names.reserve("h")
     t = c.table()
     b.line("")
-    b.line(f'{t} = h.load_table("{c.path()}")', res("HF-6", "reexport-dotted", token="load_table"))
+    b.line(f'{t} = h.load_table("{c.path()}")', res("HF-6", "reexport-dotted", token="load_table"), becomes=sep_passed)
     b.line(f"{c.fresh('merged')} = h.hf.stack([{t}, {t}])", res("HF-2", "reexport-dotted"))
     b.line(f"{t}.copy()", res("HF-8", "reexport-dotted"))
     return b
@@ -1459,11 +1502,11 @@ def library_notebook(c: Ctx, draw: Callable[[], str], *, version: int, title: st
         shell.line("!pip install heronframe==2.4.1")
         c.note("nb-shell")
         if c.chance(0.5):
-            shell.line(f'{c.fresh("raw")} = {m}.read_table("{c.path()}")', res("HF-6", "nb-after-shell"))
+            shell.line(f'{c.fresh("raw")} = {m}.read_table("{c.path()}")', res("HF-6", "nb-after-shell"), becomes=sep_passed)
     t = c.table()
     flow = nb.code()
     if c.chance(0.5):
-        flow.line(f'{t} = {m}.read_table("{c.path()}")', res("HF-6", "default-nosep"))
+        flow.line(f'{t} = {m}.read_table("{c.path()}")', res("HF-6", "default-nosep"), becomes=sep_passed)
     else:
         flow.line(f'{t} = {m}.read_table("{c.path()}", sep="{c.sep()}")')
         c.note("default-sep-keyword")
@@ -1480,7 +1523,7 @@ def library_notebook(c: Ctx, draw: Callable[[], str], *, version: int, title: st
     if version == 4 and c.chance(0.6):
         timed = nb.code()
         timed.line("%%time")
-        timed.line(f"{t}.stack_rows({t})", res("HF-1", "nb-cell-magic"))
+        timed.line(f"{t}.stack_rows({t})", res("HF-1", "nb-cell-magic"), becomes=renamed("stack_rows", "append_rows"))
         timed.line(f"{c.fresh('backup')} = {t}.copy()", res("HF-8", "nb-cell-magic"))
     if version == 4 and c.chance(0.4):
         bash = nb.code()

@@ -98,6 +98,7 @@ class Planner:
         changes: dict[str, Change],
         is_class: Callable[[str], bool],
         spelled_elsewhere: Callable[[str], bool],
+        binds_top: Callable[[str, str], bool] = lambda name, top: False,
         line_offset: int = 0,
     ) -> None:
         wrapper = MetadataWrapper(module)
@@ -105,6 +106,7 @@ class Planner:
         self.changes = changes
         self.is_class = is_class
         self.spelled_elsewhere = spelled_elsewhere
+        self.binds_top = binds_top  # whether a name is bound to a top module (name, top) in this file
         self.offset = line_offset
         self.positions = wrapper.resolve(PositionProvider)
         self.parents = wrapper.resolve(ParentNodeProvider)
@@ -261,7 +263,7 @@ class Planner:
             return None
         chain = (get_full_name_for_node(attribute) or "").split(".")
         member = change.member.split(".")
-        if len(chain) == len(member) and chain[1:] == member[1:] and self._binds_top(chain[0], member[0]):
+        if len(chain) == len(member) and chain[1:] == member[1:] and self.binds_top(chain[0], member[0]):
             self.plan.add(attribute, ReplaceExpression(".".join([chain[0], *change.replacement.split(".")[1:]])))
             self.plan.rewritten.append(finding)
             return None
@@ -271,34 +273,6 @@ class Planner:
         return any(
             isinstance(node, cst.ImportStar) for node in self.positions
         )
-
-    def _binds_top(self, name: str, top: str) -> bool:
-        """`name` is bound in this cell to the library's top module: `import top [as name]`,
-        `import top.sub` (binds `top`), `name = __import__("top...")` or
-        `name = importlib.import_module("top")` (the Language Reference, "The import statement";
-        the standard library's `__import__` returns the top package)."""
-        for node in self.positions:
-            if isinstance(node, cst.Import):
-                for alias in node.names:
-                    dotted = get_full_name_for_node(alias.name) or ""
-                    if alias.asname is not None:
-                        if alias.asname.name.value == name and dotted == top:  # type: ignore[union-attr]
-                            return True
-                    elif name == top and dotted.split(".")[0] == top:
-                        return True
-            elif isinstance(node, cst.Assign) and isinstance(node.value, cst.Call):
-                if not any(isinstance(t.target, cst.Name) and t.target.value == name for t in node.targets):
-                    continue
-                func = get_full_name_for_node(node.value.func) or ""
-                args = node.value.args
-                if not args or not isinstance(args[0].value, cst.SimpleString):
-                    continue
-                spelled = args[0].value.evaluated_value
-                if func == "__import__" and isinstance(spelled, str) and spelled.split(".")[0] == top:
-                    return True
-                if func in ("importlib.import_module", "import_module") and spelled == top:
-                    return True
-        return False
 
     # ------------------------------------------------------------------ calls
     def _call_site(self, finding: Finding, change: Change, node: cst.Name) -> str | None:
@@ -326,7 +300,7 @@ class Planner:
             if keyword is not None:
                 self.plan.settled.append(finding)
                 return None
-            self.plan.add(call, AddKeyword(change.parameter, self._in_style(change.default)))
+            self.plan.add(call, AddKeyword(change.parameter, self._in_style(change.default, call)))
             self.plan.rewritten.append(finding)
             return None
         # parameter-removed
@@ -345,18 +319,19 @@ class Planner:
         self.plan.rewritten.append(finding)
         return None
 
-    def _in_style(self, literal: str) -> str:
-        """A string default written with the quotes this cell uses most (a formatter's choice, kept)."""
+    def _in_style(self, literal: str, call: cst.Call) -> str:
+        """A string default in the quotes of the call's own strings, else those this cell uses
+        most, double on a tie (a formatter's choice is kept; double is black's, common practice)."""
         try:
             value = ast.literal_eval(literal)
         except (ValueError, SyntaxError):
             return literal
-        if not isinstance(value, str):
+        if not isinstance(value, str) or '"' in value or "'" in value or "\\" in repr(value):
             return literal
-        quotes = [n.quote for n in self.positions if isinstance(n, cst.SimpleString)]
-        if quotes.count('"') > quotes.count("'") and '"' not in value and "\\" not in repr(value):
-            return '"' + value + '"'
-        return literal
+        own = [a.value.quote for a in call.args if isinstance(a.value, cst.SimpleString)]
+        quotes = own or [n.quote for n in self.positions if isinstance(n, cst.SimpleString)]
+        quote = "'" if quotes.count("'") > quotes.count('"') else '"'
+        return quote + value + quote
 
     def _positional_index(self, finding: Finding, change: Change, args: list[cst.Arg]) -> int | None:
         if change.position is None:
@@ -379,3 +354,51 @@ def _same_literal(code: str, default: str) -> bool:
     except (ValueError, SyntaxError, TypeError, MemoryError, RecursionError):
         return False
     return type(value) is type(old) and value == old
+
+
+def top_bindings(module: cst.Module, top: str) -> set[str]:
+    """Names `module` binds to the library's top module: `import top [as name]`, `import top.sub`
+    (binds `top`), `name = __import__("top...")`, `name = importlib.import_module("top")` (the
+    Language Reference, "The import statement"; `__import__` returns the top-level package)."""
+    out: set[str] = set()
+
+    class Bindings(cst.CSTVisitor):
+        def visit_Import(self, node: cst.Import) -> None:
+            for alias in node.names:
+                dotted = get_full_name_for_node(alias.name) or ""
+                if alias.asname is not None and isinstance(alias.asname.name, cst.Name):
+                    if dotted == top:
+                        out.add(alias.asname.name.value)
+                elif dotted.split(".")[0] == top:
+                    out.add(top)
+
+        def visit_Assign(self, node: cst.Assign) -> None:
+            if not isinstance(node.value, cst.Call) or not node.value.args:
+                return
+            first = node.value.args[0].value
+            if not isinstance(first, cst.SimpleString) or not isinstance(first.evaluated_value, str):
+                return
+            func, spelled = get_full_name_for_node(node.value.func) or "", first.evaluated_value
+            if (func == "__import__" and spelled.split(".")[0] == top) or (
+                func in ("importlib.import_module", "import_module") and spelled == top
+            ):
+                out.update(t.target.value for t in node.targets if isinstance(t.target, cst.Name))
+
+    module.visit(Bindings())
+    return out
+
+
+def imported_names(module: cst.Module) -> set[str]:
+    """Names `module` binds with `from M import name [as other]` from a non-library module."""
+    out: set[str] = set()
+
+    class Imports(cst.CSTVisitor):
+        def visit_ImportFrom(self, node: cst.ImportFrom) -> None:
+            if isinstance(node.names, cst.ImportStar):
+                return
+            for alias in node.names:
+                if alias.asname is None and isinstance(alias.name, cst.Name):
+                    out.add(alias.name.value)
+
+    module.visit(Imports())
+    return out

@@ -19,7 +19,7 @@ from impactscope.findings import Finding
 from impactscope.resolve.query import Query
 from impactscope.rewrite.lines import Lines, apply, hunks
 from impactscope.rewrite.notebook import NotebookShapeError, cell_sources, splice
-from impactscope.rewrite.plan import Planner, Review, why_not_rewritten
+from impactscope.rewrite.plan import Planner, Review, imported_names, top_bindings, why_not_rewritten
 from impactscope.rewrite.pyfile import PyFile
 from impactscope.rewrite.transform import apply_edits
 from impactscope.scan.project import scan_project
@@ -92,7 +92,13 @@ def rewrite_project(project: Project, query: Query) -> ProjectRewrite:
             word = re.compile(rf"(?<!\w){re.escape(name)}(?!\w)")
             return any(name in t and word.search(t) for t in others)
 
-        outcome = _rewrite_file(path, kept[path], findings, changes, is_class, spelled_elsewhere)
+        tops = sorted(query.changes.top_modules)
+
+        def bound_elsewhere(name: str, top: str, others: list[str] = others) -> bool:
+            return any(name in t and _binds_in_text(t, name, top) for t in others)
+
+        outcome = _rewrite_file(path, kept[path], findings, changes, is_class, spelled_elsewhere,
+                                _TopNames(tops, bound_elsewhere))
         if isinstance(outcome, str):
             review.extend(Review(f, why_not_rewritten(f, changes[f.change], is_class) or outcome) for f in findings)
             continue
@@ -109,18 +115,54 @@ def rewrite_project(project: Project, query: Query) -> ProjectRewrite:
 _Outcome = tuple[bytes, list[Finding], list[Review], int]
 
 
+class _TopNames:
+    """Which names of a file are the library's top module: bound so in the file (any cell of a
+    notebook), or imported from a project module that binds them so."""
+
+    def __init__(self, tops: list[str], bound_elsewhere: Callable[[str, str], bool]) -> None:
+        self.tops = tops
+        self.bound_elsewhere = bound_elsewhere
+        self.local: dict[str, set[str]] = {top: set() for top in tops}
+        self.imported: set[str] = set()
+
+    def read(self, modules: list[cst.Module]) -> "_TopNames":
+        for module in modules:
+            for top in self.tops:
+                self.local[top] |= top_bindings(module, top)
+            self.imported |= imported_names(module)
+        return self
+
+    def __call__(self, name: str, top: str) -> bool:
+        if name in self.local.get(top, ()):
+            return True
+        return name in self.imported and self.bound_elsewhere(name, top)
+
+
+def _binds_in_text(text: str, name: str, top: str) -> bool:
+    """A module-level `import top as name`, `import top` (name == top), or `name = __import__(
+    "top...")` / `importlib.import_module("top")` in a project file's text."""
+    n, t = re.escape(name), re.escape(top)
+    patterns = [rf"^import[ \t]+{t}(?:\.[\w.]+)?[ \t]+as[ \t]+{n}[ \t]*(?:#.*)?$",
+                rf"^{n}[ \t]*=[ \t]*(?:__import__\([ \t]*['\"]{t}[.'\"]|(?:importlib\.)?import_module\([ \t]*['\"]{t}['\"])"]
+    if name == top:
+        patterns.append(rf"^import[ \t]+{t}(?:\.[\w.]+)?[ \t]*(?:#.*)?$")
+    return any(re.search(p, text, re.MULTILINE) for p in patterns)
+
+
 def _rewrite_file(path: str, data: bytes, findings: list[Finding], changes: dict[str, Change],
-                  is_class: Callable[[str], bool], spelled_elsewhere: Callable[[str], bool]) -> _Outcome | str:
+                  is_class: Callable[[str], bool], spelled_elsewhere: Callable[[str], bool],
+                  top_names: _TopNames) -> _Outcome | str:
     """New bytes for one file, the sites rewritten, those left for review and the number that
     need no edit; or the reason the whole file goes to review."""
     if path.endswith(".ipynb"):
-        return _rewrite_notebook(path, data, findings, changes, is_class, spelled_elsewhere)
+        return _rewrite_notebook(path, data, findings, changes, is_class, spelled_elsewhere, top_names)
     try:
         file = PyFile.read(data)
         module = cst.parse_module(file.lines.normalised)
     except (SyntaxError, UnicodeDecodeError, LookupError, cst.ParserSyntaxError, RecursionError) as exc:
         return f"cannot be parsed again for rewriting ({type(exc).__name__})"
-    plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere).run(findings)
+    plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere,
+                   binds_top=top_names.read([module])).run(findings)
     new_code = apply_edits(plan.module, plan.edits).code
     text = apply(file.lines, hunks(file.lines.normalised, new_code))
     try:
@@ -131,7 +173,8 @@ def _rewrite_file(path: str, data: bytes, findings: list[Finding], changes: dict
 
 
 def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: dict[str, Change],
-                      is_class: Callable[[str], bool], spelled_elsewhere: Callable[[str], bool]) -> _Outcome | str:
+                      is_class: Callable[[str], bool], spelled_elsewhere: Callable[[str], bool],
+                      top_names: _TopNames) -> _Outcome | str:
     try:
         raw = data.decode("utf-8")
         sources = cell_sources(raw)
@@ -142,6 +185,13 @@ def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: 
     for f in findings:
         by_cell.setdefault(f.cell, []).append(f)
     code_cells = {c.index: c for c in source.cells}
+    parsed: dict[int | None, cst.Module] = {}
+    for cell in source.cells:
+        try:
+            parsed[cell.index] = cst.parse_module(cell.code)
+        except (cst.ParserSyntaxError, RecursionError):
+            pass
+    top_names.read(list(parsed.values()))  # a name bound in one cell serves the cells after it
     new_sources: dict[int, str] = {}
     done: list[Finding] = []
     left: list[Review] = []
@@ -151,14 +201,13 @@ def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: 
         if cell is None or index not in sources:
             left.extend(Review(f, "cell not read as Python (a cell magic of another language?)") for f in cell_findings)
             continue
-        try:
-            module = cst.parse_module(cell.code)
-        except (cst.ParserSyntaxError, RecursionError):
+        module = parsed.get(index)
+        if module is None:
             left.extend(Review(f, "cell cannot be parsed again for rewriting") for f in cell_findings)
             continue
         offset = cell.first_line - 1
         plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere,
-                       line_offset=offset).run(cell_findings)
+                       binds_top=top_names, line_offset=offset).run(cell_findings)
         left.extend(plan.review)
         quiet += len(plan.settled)
         if not plan.edits:
