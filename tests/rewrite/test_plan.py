@@ -147,3 +147,10 @@ def test_a_name_other_modules_import_keeps_its_binding(tmp_path: Path) -> None:
     }
     out = rewritten(tmp_path, files, RENAMED_FUNCTION)
     assert out == {"helpers.py": b"from heronframe import join_tables as merge_tables\n"}
+
+
+def test_a_python2_file_goes_to_review(tmp_path: Path) -> None:
+    source = "import heronframe as hf\nt = hf.Table()\nprint t.stack_rows(t)\n"
+    result = rewrite_files(tmp_path, {"old.py": source})
+    assert result.files == ()
+    assert result.review and all("token level" in r.why for r in result.review)
