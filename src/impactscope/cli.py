@@ -19,6 +19,9 @@ app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
     pretty_exceptions_enable=False,
+    # Plain help: texts print as written ("[library] source" keeps its brackets), flags show no
+    # <bool> placeholder.
+    rich_markup_mode=None,
     help="Size the downstream impact of planned changes to a Python library's public API.",
 )
 
@@ -29,6 +32,36 @@ class Format(str, Enum):
     table = "table"
     json = "json"
     markdown = "markdown"
+    html = "html"
+    release_notes = "release-notes"
+    towncrier = "towncrier"
+
+
+def _version(show: bool) -> None:
+    if show:
+        from impactscope import __version__
+
+        typer.echo(f"impactscope {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _options(
+    version: bool = typer.Option(False, "--version", is_eager=True, callback=_version, help="Print the version and exit."),
+) -> None:
+    """Size the downstream impact of planned changes to a Python library's public API."""
+
+
+def _one_output(output: Optional[Path], old: Optional[Path], default: Optional[Path] = None) -> Optional[Path]:
+    """`--output`, or the hidden `--out` it replaced (older scripts); both at once must agree."""
+    if output is not None and old is not None and output != old:
+        typer.echo(f"impactscope: error: --output {output} and --out {old} disagree; give --output only", err=True)
+        raise typer.Exit(2)
+    return output or old or default
+
+
+def _plural(count: int, noun: str) -> str:
+    return f"{count} {noun if count == 1 else noun + 's'}"
 
 
 class Terminated(KeyboardInterrupt):
@@ -64,13 +97,14 @@ def _os_error(exc: OSError) -> str:
 
 @app.command()
 def scan(
-    changes: Path = typer.Argument(..., help="The change list (TOML)."),
-    roots: List[Path] = typer.Argument(..., help="Corpus roots: folders or archives of projects."),
-    out: Path = typer.Option(
-        Path("impactscope-results.sqlite"), "--out",
-        help="Results file. An existing one from the same change list and tool version is resumed: "
-        "unchanged projects are reused.",
+    changes: Path = typer.Argument(..., metavar="CHANGES", help="The change list (TOML)."),
+    roots: List[Path] = typer.Argument(..., metavar="ROOT", help="Corpus roots: folders or archives of projects."),
+    output: Optional[Path] = typer.Option(
+        None, "--output", metavar="FILE",
+        help="Results file (default: impactscope-results.sqlite). An existing one from the same change list "
+        "and tool version is resumed: unchanged projects are reused.",
     ),
+    old_out: Optional[Path] = typer.Option(None, "--out", hidden=True),
     single: bool = typer.Option(False, "--single", help="Treat each root as one project."),
     jobs: int = typer.Option(0, "--jobs", help="Worker processes (0: one per core; not used with --cluster)."),
     fresh: bool = typer.Option(False, "--fresh", help="Ignore an existing results file and scan everything."),
@@ -80,7 +114,7 @@ def scan(
     ),
     quiet: bool = typer.Option(False, "--quiet", help="Print nothing but errors."),
     library_source: Optional[Path] = typer.Option(
-        None, "--library-source", help="Read the library's own source here (overrides \\[library] source in the change list)."
+        None, "--library-source", help="Read the library's own source here (overrides [library] source in the change list)."
     ),
     library_installed: Optional[str] = typer.Option(
         None, "--library-installed", metavar="NAME", help="Read an installed distribution's files (never imported)."
@@ -93,6 +127,9 @@ def scan(
     """Scan downstream code for uses of the changed members and write a results file."""
     from impactscope.scan.progress import for_stream
     from impactscope.scan.run import run_scan
+
+    out = _one_output(output, old_out, Path("impactscope-results.sqlite"))
+    assert out is not None
 
     if jobs < 0:
         typer.echo("impactscope: error: --jobs must be 0 (one per core) or a positive number", err=True)
@@ -124,8 +161,9 @@ def scan(
         died = summary.faults.get("worker died", 0)
         lost = f", {died} files in projects whose worker died" if died else ""
         typer.echo(
-            f"scanned {summary.projects} projects{reused}, {summary.files} files in {summary.seconds:.1f} s; "
-            f"{summary.findings} findings, {summary.analysis_errors} files with an analysis error{lost} "
+            f"scanned {_plural(summary.projects, 'project')}{reused}, {_plural(summary.files, 'file')} in "
+            f"{summary.seconds:.1f} s; {_plural(summary.findings, 'finding')}, "
+            f"{_plural(summary.analysis_errors, 'file')} with an analysis error{lost} "
             f"-> {summary.out}",
             err=True,
         )
@@ -133,20 +171,31 @@ def scan(
 
 @app.command()
 def report(
-    results: Path = typer.Argument(..., help="A results file written by `scan`."),
-    format: Format = typer.Option(Format.table, "--format", help="table, json or markdown."),
-    output: Optional[Path] = typer.Option(None, "--output", help="Write here instead of standard output."),
+    results: Path = typer.Argument(..., metavar="RESULTS", help="A results file written by `scan`."),
+    format: Format = typer.Option(
+        Format.table, "--format",
+        help="table (fits the terminal), json, markdown, html (one self-contained file), release-notes "
+        "(Markdown, a section per change) or towncrier (one fragment file per change, in the --output folder).",
+    ),
+    output: Optional[Path] = typer.Option(
+        None, "--output", metavar="PATH", help="Write here instead of standard output (a folder for towncrier)."
+    ),
     confidence: float = typer.Option(0.95, "--confidence", help="Confidence level of the intervals."),
     population: Optional[int] = typer.Option(
         None, "--population", help="Size of the population the corpus was sampled from (finite population correction)."
     ),
     weights: Optional[Path] = typer.Option(None, "--weights", help="CSV of project,weight (e.g. downloads)."),
     python: str = typer.Option("3.12", "--python", help="Python version for evaluating requirement markers."),
+    sites: int = typer.Option(3, "--sites", metavar="N", help="Example sites per change (table and html)."),
+    summary: bool = typer.Option(False, "--summary", help="table: the summary tables alone, no per-change details."),
 ) -> None:
     """Print the impact report from a results file."""
     from impactscope.report.aggregate import build_report
-    from impactscope.report.render import to_json, to_markdown, to_table
+    from impactscope.report.html import to_html
+    from impactscope.report.release_notes import to_release_notes, write_towncrier
+    from impactscope.report.render import to_json, to_markdown
     from impactscope.report.sizing import SizingError, SizingOptions, read_weights
+    from impactscope.report.terminal import to_table
     from impactscope.store import ResultStore
 
     def build() -> str:
@@ -154,11 +203,16 @@ def report(
             raise SizingError(f"--confidence must be between 0 and 1, got {confidence}")
         if population is not None and population < 1:
             raise SizingError(f"--population must be a positive whole number, got {population}")
+        if sites < 0:
+            raise SizingError(f"--sites must be 0 or more, got {sites}")
+        if format is Format.towncrier and output is None:
+            raise SizingError("--format towncrier writes one file per change: give the folder with --output DIR")
         options = SizingOptions(
             confidence=confidence,
             population=population,
             python=python,
             weights=read_weights(weights) if weights is not None else None,
+            weights_file=weights.name if weights is not None else None,
         )
         store = ResultStore.open(results)
         try:
@@ -169,10 +223,22 @@ def report(
             document = build_report(store, options)
         finally:
             store.close()
-        render = {Format.table: to_table, Format.json: to_json, Format.markdown: to_markdown}[format]
+        if format is Format.towncrier:
+            assert output is not None
+            written = write_towncrier(document, output)
+            return f"wrote {_plural(len(written), 'fragment')} to {output}\n"
+        if format is Format.table:
+            return to_table(document, sites=sites, summary=summary)
+        if format is Format.html:
+            return to_html(document, sites=sites)
+        render = {Format.json: to_json, Format.markdown: to_markdown, Format.release_notes: to_release_notes}[format]
         return render(document)
 
-    _emit(_guarded(build), output)
+    text = _guarded(build)
+    if format is Format.towncrier:
+        typer.echo(text, nl=False, err=True)
+    else:
+        _emit(text, output)
 
 
 @app.command()
@@ -298,13 +364,16 @@ def sample(
 
 @app.command()
 def rewrite(
-    changes: Path = typer.Argument(..., help="The change list (TOML)."),
-    roots: List[Path] = typer.Argument(..., help="Corpus roots: folders or archives of projects."),
-    out: Path = typer.Option(..., "--out", help="Folder for PROJECT.patch files and review.md / review.json."),
+    changes: Path = typer.Argument(..., metavar="CHANGES", help="The change list (TOML)."),
+    roots: List[Path] = typer.Argument(..., metavar="ROOT", help="Corpus roots: folders or archives of projects."),
+    output: Optional[Path] = typer.Option(
+        None, "--output", metavar="DIR", help="Folder for PROJECT.patch files and review.md / review.json (required)."
+    ),
+    old_out: Optional[Path] = typer.Option(None, "--out", hidden=True),
     single: bool = typer.Option(False, "--single", help="Treat each root as one project."),
     jobs: int = typer.Option(1, "--jobs", help="Worker processes (0: one per core)."),
     library_source: Optional[Path] = typer.Option(
-        None, "--library-source", help="Read the library's own source here (overrides \\[library] source in the change list)."
+        None, "--library-source", help="Read the library's own source here (overrides [library] source in the change list)."
     ),
     apply: bool = typer.Option(False, "--apply", help="Rewrite folder projects in place instead of writing patches."),
     check: bool = typer.Option(False, "--check", help="Exit 1 when any rewrite is pending (patches are still written)."),
@@ -320,6 +389,10 @@ def rewrite(
     if apply and check:
         typer.echo("impactscope: error: give --apply or --check, not both (--check only reports)", err=True)
         raise typer.Exit(2)
+    out = _one_output(output, old_out)
+    if out is None:
+        typer.echo("impactscope: error: give the folder for the patches with --output DIR", err=True)
+        raise typer.Exit(2)
     summary = _guarded(
         lambda: run_rewrite(changes, roots, out, single=single, jobs=jobs, library_source=library_source,
                             apply=apply, progress=for_stream(sys.stderr, quiet=quiet))
@@ -327,8 +400,9 @@ def rewrite(
     if not quiet:
         done = "rewrote in place" if summary.applied else "patched"
         typer.echo(
-            f"{summary.projects} projects: {done} {summary.files} files in {summary.patched} projects "
-            f"({summary.rewritten} sites); {summary.review} sites to review -> {summary.out}",
+            f"{_plural(summary.projects, 'project')}: {done} {_plural(summary.files, 'file')} in "
+            f"{_plural(summary.patched, 'project')} ({_plural(summary.rewritten, 'site')}); "
+            f"{_plural(summary.review, 'site')} to review -> {summary.out}",
             err=True,
         )
     if check and summary.pending:
@@ -350,7 +424,7 @@ def demo(
 
 @app.command()
 def gate(
-    results: Path = typer.Argument(..., help="A results file written by `scan`."),
+    results: Path = typer.Argument(..., metavar="RESULTS", help="A results file written by `scan`."),
     policy: Path = typer.Option(..., "--policy", help="The policy (TOML; see docs/policy.md)."),
     sarif: Optional[Path] = typer.Option(None, "--sarif", help="Write the verdict as SARIF 2.1.0 here."),
     junit: Optional[Path] = typer.Option(None, "--junit", help="Write one JUnit test case per change and rule here."),

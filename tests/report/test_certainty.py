@@ -66,4 +66,8 @@ def test_low_certainty_entries_are_counted_apart_in_every_format(tmp_path: Path)
     assert "| C-1 |" in head and "| C-3 |" in head
 
     table = runner.invoke(app, ["report", str(results)]).stdout
-    assert "Low-certainty draft entries (1 changes, 2 projects hit at most)" in table
+    head, _, apart = " ".join(table.split()).partition("Low-certainty draft entries (1 change, 2 projects hit at most)")
+    assert apart, table
+    hits_apart = apart.split("Proven projects by what")[0]
+    assert " C-2 " in hits_apart and " C-1 " not in hits_apart and " C-3 " not in hits_apart
+    assert " C-1 " in head and " C-3 " in head and " C-2 " not in head

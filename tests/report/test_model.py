@@ -16,6 +16,8 @@ from impactscope.findings import Confidence, Finding, Reading
 from impactscope.outcomes import FileOutcome, FileStatus, ProjectResult
 from impactscope.report.aggregate import build_report
 from impactscope.report.model import FailedFile, PerLevel, Report
+from impactscope.report.html import to_html
+from impactscope.report.release_notes import to_release_notes
 from impactscope.report.render import FAILED_ROWS, to_json, to_markdown, to_table
 from impactscope.report.sizing import SizingOptions
 from impactscope.store import ResultStore
@@ -140,7 +142,7 @@ def test_the_demo_report_reads_back_into_the_same_model(scanned_demo_corpus) -> 
                                             "pattern"}
 
 
-@pytest.mark.parametrize("render", [to_table, to_markdown, to_json])
+@pytest.mark.parametrize("render", [to_table, to_markdown, to_json, to_html, to_release_notes])
 def test_every_renderer_reads_only_the_model(tmp_path: Path, render) -> None:
     report = _report(_store(tmp_path))
     assert render(_round_trip(report)) == render(report)
@@ -152,17 +154,22 @@ def test_every_renderer_reads_only_the_model(tmp_path: Path, render) -> None:
 
 def test_the_table_shows_every_part_of_the_model(tmp_path: Path) -> None:
     report = _report(_store(tmp_path))
-    text = to_table(report)
-    assert text.startswith("heronframe 3.0: 3 projects scanned, 2 use the library; files 5 = 2 parsed + 1 skipped "
-                           "+ 2 unparsed (1 with an analysis error)")
-    squeezed = re.sub(r" +", " ", text)  # rich pads cells and wraps titles to the table's width
-    for part in ("│ C-1 │ heronframe.stack │ removed │ 1 / 2 / 2 │ 50.0% (9.5%–100.0%) │ 1 / 0 / 0 │ 3 │",
-                 "Low-certainty draft entries (1 changes, 1 projects hit at most)",
-                 "│ C-2 │ heronframe.Table.copy │ behaviour-changed │ 0 / 0 / 1 │",
-                 "Python 2 files (token-level", "│ C-1 │ 1 │ 1 │",
-                 "C-1 heronframe.stack: call patterns", "│ legacy: stack │ possible │ 1 │ 1 │",
-                 "│ unparsed │ python 2 │ 1 │", "│ p2 │ b.py │ analysis error │ ValueError | boom │",
-                 "In the roots but not", "│ hidden entry │ 1 │"):
+    text = to_table(report, width=100)
+    assert text.startswith("heronframe 3.0: the planned changes hit 1 project proven, 2 likely, 2 at most, of the 2 "
+                           "projects\nthat use heronframe (3 projects scanned)\nfiles: 5 = 2 parsed + 1 skipped + 2 "
+                           "unparsed (1 with an analysis error)\nwarning: impactscope failed on 1 file")
+    squeezed = re.sub(r" +", " ", text)  # columns are padded to their width
+    # Wilson (1927) score interval of 1 in 2 at 95%, worked by hand: 0.0945 to 0.9055.
+    for part in ("\nC-1 heronframe.stack removed 1 2 2 50.0% (9.5%–90.5%)\n",
+                 "Low-certainty draft entries (1 change, 1 project hit at most)",
+                 "\nC-2 heronframe.Table.copy behaviour-changed 0 0 1 0.0% (0.0%–65.8%)\n",
+                 "\nC-1 1 0 0 1 2 3 3\n",  # exposure, then sites proven / likely / at most, then files
+                 "Python 2 files (read at token level", "\nC-1 1 1\n",
+                 "C-1 heronframe.stack (removed): 1 project proven, 2 likely, 2 at most",
+                 " projects p1 (proven, 2 sites), p2 (likely, 1 site)\n",
+                 " sites p1: a.py:3:1 heronframe.stack(_) (proven)\n", " legacy: stack possible 1 1\n",
+                 "\nunparsed python 2 1\n", "\np2 analysis error b.py: ValueError | boom\n",
+                 "In the roots but not projects", "\nhidden entry 1\n"):
         assert part in squeezed, part
     many = dataclasses.replace(report, failed_files=tuple(
         FailedFile("p2", f"f{n}.py", "analysis error", "boom") for n in range(FAILED_ROWS + 5)))

@@ -1,11 +1,10 @@
-"""The demo's report as each renderer prints it: terminal table (150 and 100 columns), Markdown, JSON.
+"""The demo's report as Markdown and JSON print it (the terminal report: tests/report/test_terminal.py).
 
 Every check reads the printed text back and compares it with the JSON report of the same results
 file (the session's scan of the demo corpus, tests/conftest.py), or with the generator's truth:
 every change row with its counts, every call-pattern table, the Python 2 table, the reasons files
 were not analysed, the totals line and the headings. The renderers are reached through the public
-entry points only: the CLI (`report --format table|markdown|json`) and, for a width other than the
-CLI's, `build_report` and `to_table`.
+entry points only: the CLI (`report --format markdown|json`).
 
 What the counts mean is docs/report-json.md (a change's `projects`): `projects.resolved` counts
 projects with a resolved finding for the change, `projects.inferred` those with one at inferred or
@@ -16,7 +15,6 @@ from __future__ import annotations
 
 import json
 from collections import defaultdict
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -27,7 +25,6 @@ from impactscope.cli import app
 from impactscope.demo import GroundTruth
 
 LEVELS = ("resolved", "inferred", "possible")
-PATTERN_ROWS = 8  # the terminal table lists this many call patterns per change, then "... N more"
 
 
 def _cli_report(results: Path, fmt: str) -> str:
@@ -69,161 +66,6 @@ def _legacy_counts(truth: GroundTruth) -> dict[str, tuple[int, int]]:
     for site in truth.legacy:
         sites[site.change].append(site.project)
     return {change: (len(set(projects)), len(projects)) for change, projects in sorted(sites.items())}
-
-
-def _totals_line(report: dict[str, Any]) -> str:
-    t = report["totals"]
-    return (f"{t['projects']} projects scanned, {t['projects_using_library']} use the library; files {t['files']} = "
-            f"{t['files_parsed']} parsed + {t['files_skipped']} skipped + {t['files_unparsed']} unparsed")
-
-
-# ---------------------------------------------------------------------------------------------
-# Reading a rich table back.
-
-
-@dataclass
-class Drawn:
-    """One table as drawn: the text printed above it since the previous table (whitespace collapsed),
-    its column headings and its body rows, each cell with its wrapped lines joined by a space."""
-
-    above: str
-    header: list[str] = field(default_factory=list)
-    rows: list[list[str]] = field(default_factory=list)
-
-
-def _cells(line: str, bar: str) -> list[str]:
-    return [cell.strip() for cell in line.strip()[1:-1].split(bar)]
-
-
-def _join(row: list[str], more: list[str]) -> None:
-    for index, fragment in enumerate(more):
-        if fragment:
-            row[index] = f"{row[index]} {fragment}".strip()
-
-
-def drawn_tables(text: str) -> list[Drawn]:
-    tables: list[Drawn] = []
-    above: list[str] = []
-    current: Drawn | None = None
-    for line in text.splitlines():
-        if line.startswith("┏"):
-            current = Drawn(" ".join(" ".join(above).split()))
-            above = []
-        elif line.startswith("┃"):
-            assert current is not None
-            cells = _cells(line, "┃")
-            if not current.header:
-                current.header = [""] * len(cells)
-            _join(current.header, cells)  # a heading too wide for its column goes on over lines
-        elif line.startswith("│"):
-            assert current is not None
-            cells = _cells(line, "│")
-            if cells[0] or not current.rows:
-                current.rows.append(cells)
-            else:  # a row's later lines leave the first column empty
-                _join(current.rows[-1], cells)
-        elif line.startswith("└"):
-            assert current is not None
-            tables.append(current)
-            current = None
-        elif not line.startswith(("┡", "┣", "├")):
-            above.append(line)
-    assert current is None, "a table was not closed"
-    return tables
-
-
-def _shows(cell: str, value: object) -> bool:
-    """The cell shows `value`, in full or cut short with an ellipsis where the column is too narrow."""
-    text = str(value)
-    if cell.endswith("…"):
-        return len(cell) > 1 and text.startswith(cell[:-1])
-    return cell == text
-
-
-def _table_text(scanned_demo_corpus, width: int) -> str:
-    if width == 150:  # the CLI's width
-        return _cli_report(scanned_demo_corpus.results, "table")
-    from impactscope.report.aggregate import build_report
-    from impactscope.report.render import to_table
-    from impactscope.store import ResultStore
-
-    store = ResultStore.open(scanned_demo_corpus.results)
-    try:
-        return to_table(build_report(store), width=width)
-    finally:
-        store.close()
-
-
-# ---------------------------------------------------------------------------------------------
-# The terminal table.
-
-
-@pytest.fixture(scope="module", params=[150, 100], ids=["150-columns", "100-columns"])
-def table(request, scanned_demo_corpus) -> tuple[int, list[Drawn], str]:
-    text = _table_text(scanned_demo_corpus, request.param)
-    return request.param, drawn_tables(text), text
-
-
-def test_table_keeps_within_its_width(table) -> None:
-    width, _, text = table
-    assert max(len(line) for line in text.splitlines()) <= width
-
-
-def test_table_totals_and_headings(table, report: dict[str, Any]) -> None:
-    _, tables, _ = table
-    summary = tables[0]
-    assert summary.above.startswith(f"{report['library']} {report['release']}: {_totals_line(report)}"), summary.above
-    assert "Projects hit per planned change (proven / likely / at most)" in summary.above
-    assert f"share of the {report['totals']['projects_using_library']} projects that use heronframe" in summary.above
-    assert summary.header == ["change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"]
-    titles = [t.above for t in tables[1:]]
-    assert titles[0] == "Python 2 files (token-level reading, all at possible)"
-    assert titles[1:-1] == [f"{c['id']} {c['member']}: call patterns" for c in report["changes"] if c["patterns"]]
-    assert titles[-1] == "Files not analysed"
-
-
-def test_table_has_every_change_row_with_the_json_counts(table, report: dict[str, Any]) -> None:
-    width, tables, _ = table
-    rows = tables[0].rows
-    assert [row[0] for row in rows] == [c["id"] for c in report["changes"]]
-    for row, change in zip(rows, report["changes"]):
-        _, member, kind, bounds, share, exposure, sites = row
-        assert _shows(member, change["member"]) and _shows(kind, change["kind"]), row
-        if width == 150:  # wide enough for every name in full
-            assert (member, kind) == (change["member"], change["kind"])
-        assert bounds == _bounds(change), row
-        assert share.startswith(_share_start(change) + " ("), row
-        assert exposure == _exposure(change), row
-        assert sites == str(change["sites"]), row
-
-
-def test_table_python2_rows_are_the_generated_python2_sites(table, truth: GroundTruth) -> None:
-    _, tables, _ = table
-    drawn = next(t for t in tables if t.above.startswith("Python 2 files"))
-    assert drawn.header == ["change", "projects", "sites"]
-    assert {row[0]: (int(row[1]), int(row[2])) for row in drawn.rows} == _legacy_counts(truth)
-
-
-def test_table_lists_the_first_call_patterns_of_each_change(table, report: dict[str, Any]) -> None:
-    _, tables, _ = table
-    by_title = {t.above: t for t in tables}
-    for change in report["changes"]:
-        drawn = by_title[f"{change['id']} {change['member']}: call patterns"]
-        assert drawn.header == ["pattern", "how sure", "projects", "sites"]
-        shown = [[p["pattern"], p["confidence"], str(p["projects"]), str(p["sites"])] for p in change["patterns"][:PATTERN_ROWS]]
-        hidden = len(change["patterns"]) - PATTERN_ROWS
-        if hidden > 0:
-            shown.append([f"... {hidden} more", "", "", ""])
-        assert drawn.rows == shown, change["id"]
-
-
-def test_table_reasons_files_were_not_analysed(table, report: dict[str, Any]) -> None:
-    _, tables, _ = table
-    drawn = tables[-1]
-    assert drawn.header == ["status", "reason", "files"]
-    assert drawn.rows == [[r["status"], r["reason"], str(r["files"])] for r in report["file_reasons"]]
-    t = report["totals"]
-    assert sum(r["files"] for r in report["file_reasons"]) == t["files_skipped"] + t["files_unparsed"]
 
 
 # ---------------------------------------------------------------------------------------------

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 from collections import Counter
+from typing import Iterable
 
 import pandas as pd
 
@@ -18,11 +19,13 @@ from impactscope.report.model import (
     NotProject,
     PatternRow,
     PerLevel,
+    ProjectFacts,
     ProjectFiles,
     Report,
     Totals,
+    WeightsUsed,
 )
-from impactscope.report.sizing import SizingOptions, change_sizing, corpus_sizing, project_facts
+from impactscope.report.sizing import SizingError, SizingOptions, change_sizing, corpus_sizing, project_facts
 from impactscope.store import ResultStore
 
 
@@ -58,6 +61,7 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
         findings,
         options,
     )
+    weights = _weights_used(options, facts.values())
     frame = _frame(findings)
     out_changes = []
     for change in changes.changes:
@@ -80,6 +84,8 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
                 projects_fork_collapsed=sizing.projects_fork_collapsed,
                 legacy_sites=sizing.legacy_sites,
                 weighted_share=sizing.weighted_share,
+                sites_by_level=PerLevel.build(lambda level: int((rows["confidence"] >= int(level)).sum())),
+                deprecated_in=str(change.deprecated_in) if change.deprecated_in is not None else None,
             )
         )
     low = {c.id for c in changes.changes if c.uncertain}
@@ -110,7 +116,26 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
             for project, o in file_rows
             if o.status is FileStatus.UNPARSED and o.reason in (ANALYSIS_ERROR, WORKER_DIED)
         ),
+        weights=weights,
     )
+
+
+def _weights_used(options: SizingOptions, facts: Iterable[ProjectFacts]) -> WeightsUsed | None:
+    """What a weights file matched; one that matches no project that uses the library is refused,
+    since every weighted share would then be silently missing."""
+    if options.weights is None:
+        return None
+    users = [f.project for f in facts if f.uses_library]
+    matched = sum(1 for name in users if name in options.weights)
+    name = options.weights_file or "weights"
+    if not matched:
+        example = next(iter(sorted(options.weights)), None)
+        raise SizingError(
+            f"--weights {name}: none of its {len(options.weights)} project names is a project of these results "
+            f"that uses the library (first: {example!r}); use the names `report --format json` lists under "
+            "`projects`"
+        )
+    return WeightsUsed(name, len(options.weights), matched)
 
 
 def _frame(findings: list[Finding]) -> pd.DataFrame:

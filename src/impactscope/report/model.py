@@ -163,6 +163,10 @@ class ChangeReport:
     projects_fork_collapsed: PerLevel[int]  # as `projects`, a family of forks counted once
     legacy_sites: int  # sites found by a token-level reading (Python 2, nesting too deep)
     weighted_share: WeightedShare | None = None  # with a weights file only
+    # Sites at that level or stronger, as `projects`: `sites` mixes every level, and a maintainer
+    # asks first how many uses are proven.
+    sites_by_level: PerLevel[int] = PerLevel(0, 0, 0)
+    deprecated_in: str | None = None  # the change list's `deprecated_in`, as PEP 440 prints it
 
     @property
     def low_certainty(self) -> bool:
@@ -176,6 +180,7 @@ class ChangeReport:
             "sites": self.sites, "files": self.files, "patterns": [p.to_json() for p in self.patterns],
             "share": self.share.to_json(), "exposure": self.exposure.to_json(),
             "projects_fork_collapsed": self.projects_fork_collapsed.to_json(), "legacy_sites": self.legacy_sites,
+            "sites_by_level": self.sites_by_level.to_json(), "deprecated_in": self.deprecated_in,
         }
         if self.weighted_share is not None:
             out["weighted_share"] = self.weighted_share.to_json()
@@ -190,6 +195,7 @@ class ChangeReport:
             tuple(PatternRow.from_json(p) for p in data["patterns"]), Share.from_json(data["share"]),
             ExposureCounts.from_json(data["exposure"]), PerLevel.from_json(data["projects_fork_collapsed"]),
             data["legacy_sites"], WeightedShare.from_json(weighted) if weighted is not None else None,
+            PerLevel.from_json(data["sites_by_level"]), data["deprecated_in"],
         )
 
 
@@ -318,6 +324,15 @@ class FailedFile(_Plain):
 
 
 @dataclass(frozen=True)
+class WeightsUsed(_Plain):
+    """The weights file a report was sized with (`--weights`): its name and what it matched."""
+
+    file: str  # the file's name, without its folder, so that the report's bytes do not depend on it
+    entries: int  # rows of project,weight in the file
+    matched: int  # projects that use the library and have a weight in the file
+
+
+@dataclass(frozen=True)
 class Report:
     """The impact report of one results file."""
 
@@ -335,6 +350,7 @@ class Report:
     findings: tuple[Finding, ...]  # sorted
     files_by_project: tuple[ProjectFiles, ...]  # by name
     failed_files: tuple[FailedFile, ...]
+    weights: WeightsUsed | None = None  # with `--weights` only
 
     @property
     def interval_confidence(self) -> float | None:
@@ -357,6 +373,7 @@ class Report:
             "findings": [f.to_json() for f in self.findings],
             "files_by_project": {p.project: p.to_json() for p in self.files_by_project},
             "failed_files": [f.to_json() for f in self.failed_files],
+            "weights": self.weights.to_json() if self.weights is not None else None,
         }
 
     @classmethod
@@ -376,11 +393,12 @@ class Report:
             findings=tuple(Finding.from_json(f) for f in data["findings"]),
             files_by_project=tuple(ProjectFiles(name, **counts) for name, counts in data["files_by_project"].items()),
             failed_files=tuple(FailedFile.from_json(f) for f in data["failed_files"]),
+            weights=WeightsUsed.from_json(data["weights"]) if data.get("weights") is not None else None,
         )
 
 
 __all__ = [
     "ByCertainty", "CertaintyGroup", "ChangeReport", "CorpusFacts", "Estimate", "ExposureCounts", "FailedFile",
     "FileReason", "NotProject", "PatternRow", "PerLevel", "ProjectFacts", "ProjectFiles", "Report", "Share",
-    "Totals", "WeightedShare",
+    "Totals", "WeightedShare", "WeightsUsed",
 ]

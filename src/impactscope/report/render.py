@@ -1,16 +1,13 @@
-"""Renderers: the report model as a terminal table, JSON, or Markdown. They read only the model."""
+"""Renderers: the report model as JSON or Markdown (the terminal report is report/terminal.py,
+re-exported here). They read only the model."""
 
 from __future__ import annotations
 
-import io
 import json
 
-from rich.console import Console
-from rich.table import Table
-
 from impactscope.report.model import ChangeReport, Report
-
-FAILED_ROWS = 20  # the terminal table lists this many failed files; JSON lists them all
+from impactscope.report.terminal import FAILED_ROWS, to_table
+from impactscope.report.views import warnings, weights_text
 
 
 def to_json(report: Report) -> str:
@@ -70,6 +67,8 @@ def to_markdown(report: Report) -> str:
         f"Scanned {t.projects} projects ({t.projects_using_library} use {report.library}); "
         f"{t.files} files: {t.files_parsed} parsed, {t.files_skipped} skipped, "
         f"{t.files_unparsed} unparsed ({_faults(report)}).",
+        *(["", f"Share of the weight: {weights_text(report)}."] if report.weights is not None else []),
+        *(line for warning in warnings(report) for line in ("", f"**Warning:** {warning}.")),
         "",
         "Projects hit are given as proven / likely / at most (resolved, inferred, possible). "
         f"Share is of the {_users(report)}: the proven share, with the interval running from the low end "
@@ -90,6 +89,14 @@ def to_markdown(report: Report) -> str:
                   "|---|---|---|---|---|---|---|"]
         lines += [f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
                   for c in low]
+    if report.weights is not None:
+        lines += ["", f"## Share of the weight ({_confidence(report)} interval)", "",
+                  "| change | proven | at most |", "|---|---|---|"]
+        for c in report.changes:
+            w = c.weighted_share
+            cells = [f"{e.estimate:.1%} ({e.low:.1%}–{e.high:.1%})" for e in (w.levels.resolved, w.levels.possible)] \
+                if w is not None else ["n/a", "n/a"]
+            lines.append(f"| {c.id} | {cells[0]} | {cells[1]} |")
     legacy = _legacy_rows(report)
     if legacy:
         lines += ["", "## Python 2 files (token-level reading, all at possible)", "",
@@ -137,80 +144,3 @@ def _not_projects(report: Report) -> list[tuple[str, int]]:
     for item in report.not_projects:
         counts[item.reason] = counts.get(item.reason, 0) + 1
     return sorted(counts.items())
-
-
-def to_table(report: Report, width: int = 150) -> str:
-    buffer = io.StringIO()
-    console = Console(file=buffer, width=width, force_terminal=False, color_system=None, emoji=False)
-    t = report.totals
-    console.print(
-        f"{report.library} {report.release or ''}: {t.projects} projects scanned, "
-        f"{t.projects_using_library} use the library; files {t.files} = "
-        f"{t.files_parsed} parsed + {t.files_skipped} skipped + {t.files_unparsed} unparsed "
-        f"({_faults(report)})"
-    )
-    summary = Table(
-        title=f"Projects hit per planned change (proven / likely / at most); share of the {_users(report)}, "
-        f"{_confidence(report)} interval",
-        title_justify="left",
-    )
-    for column in ("change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"):
-        summary.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
-    sure, low = _by_certainty(report)
-    for c in sure:
-        summary.add_row(c.id, c.member, c.kind.value, _bounds(c), _share(c), _exposed(c), str(c.sites))
-    console.print(summary)
-    if low:
-        apart = Table(title=f"Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts",
-                      title_justify="left")
-        for column in ("change", "member", "kind", "projects hit", "share of users", "exp / shield / none", "sites"):
-            apart.add_column(column, justify="left" if column in ("change", "member", "kind") else "right")
-        for c in low:
-            apart.add_row(c.id, c.member, c.kind.value, _bounds(c), _share(c), _exposed(c), str(c.sites))
-        console.print(apart)
-    legacy = _legacy_rows(report)
-    if legacy:
-        table = Table(title="Python 2 files (token-level reading, all at possible)", title_justify="left")
-        for column in ("change", "projects", "sites"):
-            table.add_column(column)
-        for cid, p, n in legacy:
-            table.add_row(cid, str(p), str(n))
-        console.print(table)
-    for c in report.changes:
-        if not c.patterns:
-            continue
-        table = Table(title=f"{c.id} {c.member}: call patterns", title_justify="left")
-        table.add_column("pattern")
-        table.add_column("how sure")
-        table.add_column("projects", justify="right")
-        table.add_column("sites", justify="right")
-        for p in c.patterns[:8]:
-            table.add_row(p.label, p.confidence.label, str(p.projects), str(p.sites))
-        if len(c.patterns) > 8:
-            table.add_row(f"... {len(c.patterns) - 8} more", "", "")
-        console.print(table)
-    if report.file_reasons:
-        reasons = Table(title="Files not analysed", title_justify="left")
-        for column in ("status", "reason", "files"):
-            reasons.add_column(column, justify="right" if column == "files" else "left")
-        for r in report.file_reasons:
-            reasons.add_row(r.status.value, r.reason, str(r.files))
-        console.print(reasons)
-    failed = report.failed_files
-    if failed:
-        table = Table(title="Files the scan failed on (please report these)", title_justify="left")
-        for column in ("project", "file", "reason", "detail"):
-            table.add_column(column)
-        for f in failed[:FAILED_ROWS]:
-            table.add_row(f.project, f.file, f.reason, f.detail)
-        if len(failed) > FAILED_ROWS:
-            table.add_row(f"... {len(failed) - FAILED_ROWS} more (see --format json)", "", "", "")
-        console.print(table)
-    if report.not_projects:
-        stray = Table(title="In the roots but not projects", title_justify="left")
-        stray.add_column("reason")
-        stray.add_column("items", justify="right")
-        for reason, count in _not_projects(report):
-            stray.add_row(reason, str(count))
-        console.print(stray)
-    return buffer.getvalue()

@@ -34,6 +34,7 @@ class SizingOptions:
     population: int | None = None
     python: str = "3.12"
     weights: Mapping[str, float] | None = None
+    weights_file: str | None = None  # the weights file's name, as reports show it
 
 
 def read_weights(path: Path) -> dict[str, float]:

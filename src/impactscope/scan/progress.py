@@ -100,7 +100,8 @@ class LogLines:
     def update(self, tally: Tally) -> None:
         if not self._started:  # said once work is under way, so an early error stays one line
             self._started = True
-            size = f"{self._total} projects" if self._total is not None else "projects (count unknown: tar root)"
+            size = (f"{self._total} project{'' if self._total == 1 else 's'}" if self._total is not None
+                    else "projects (count unknown: tar root)")
             print(f"impactscope: scanning {size}", file=self._stream, flush=True)
         now = time.monotonic()
         if now >= self._next:
