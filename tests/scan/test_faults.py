@@ -201,7 +201,7 @@ def test_the_summary_line_counts_analysis_errors(tmp_path, monkeypatch):
     _inject(monkeypatch, tmp_path / "attempts")
     result = CliRunner().invoke(app, ["scan", str(changes), str(root), "--out", str(tmp_path / "r.sqlite"), "--jobs", "1"])
     assert result.exit_code == 0, result.output
-    assert "1 files with an analysis error" in result.stderr
+    assert "1 file with an analysis error" in result.stderr
 
 
 # ------------------------------------------------------------------ real crashes of libcst
