@@ -10,6 +10,7 @@ from __future__ import annotations
 import difflib
 import re
 from dataclasses import dataclass
+from typing import AnyStr
 
 # The interpreter's physical line ends (Language Reference, "Physical lines"): \r\n, \r or \n.
 # str.splitlines would also split at form feeds and other characters Python does not end lines at.
@@ -83,3 +84,14 @@ def apply(original: Lines, changes: list[Hunk]) -> str:
         bodies[hunk.start : hunk.stop] = hunk.new
         ends[hunk.start : hunk.stop] = new_ends
     return "".join(b + e for b, e in zip(bodies, ends))
+
+
+def after_newlines(data: AnyStr) -> list[AnyStr]:
+    """`data` cut after each `\\n`, as git and nbformat cut lines (a CR stays in its line);
+    the last piece may end without one."""
+    newline = "\n" if isinstance(data, str) else b"\n"
+    pieces = data.split(newline)  # type: ignore[arg-type]
+    out = [piece + newline for piece in pieces[:-1]]  # type: ignore[operator]
+    if pieces[-1]:
+        out.append(pieces[-1])
+    return out

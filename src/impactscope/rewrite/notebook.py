@@ -15,6 +15,7 @@ from dataclasses import dataclass
 from typing import Iterator, Mapping
 
 from impactscope.errors import InputError
+from impactscope.rewrite.lines import after_newlines
 
 from impactscope.errors import InputError
 
@@ -87,7 +88,7 @@ def _list_edits(notebook: str, cell: CellSource, new: str) -> Iterator[tuple[int
     old_tokens = [notebook[s:e] for s, e in cell.parts]
     old = [json.loads(t) for t in old_tokens]
     # nbformat's convention: each line keeps its "\n" (only the last may lack one).
-    lines = [*_split_lines(new)]
+    lines = after_newlines(new)
     separator = (
         notebook[cell.parts[0][1] : cell.parts[1][0]] if len(cell.parts) > 1 else ",\n" + _indent_before(notebook, cell)
     )
@@ -110,17 +111,6 @@ def _list_edits(notebook: str, cell: CellSource, new: str) -> Iterator[tuple[int
             yield cell.parts[-1][1], cell.parts[-1][1], separator + written
         else:
             yield cell.start + 1, cell.start + 1, written
-
-
-def _split_lines(text: str) -> Iterator[str]:
-    start = 0
-    while start < len(text):
-        end = text.find("\n", start)
-        if end < 0:
-            yield text[start:]
-            return
-        yield text[start : end + 1]
-        start = end + 1
 
 
 def _indent_before(notebook: str, cell: CellSource) -> str:

@@ -10,6 +10,8 @@ from __future__ import annotations
 import difflib
 from typing import Iterable
 
+from impactscope.rewrite.lines import after_newlines
+
 CONTEXT = 3  # lines of context around each change, git's default
 _ESCAPES = {0x07: b"\\a", 0x08: b"\\b", 0x09: b"\\t", 0x0A: b"\\n", 0x0B: b"\\v", 0x0C: b"\\f",
             0x0D: b"\\r", 0x22: b'\\"', 0x5C: b"\\\\"}
@@ -29,17 +31,6 @@ def quote_path(path: bytes) -> bytes:
             out.append(b)
     out += b'"'
     return bytes(out)
-
-
-def _by_newline(data: bytes) -> Iterable[bytes]:
-    start = 0
-    while start < len(data):
-        end = data.find(b"\n", start)
-        if end < 0:
-            yield data[start:]
-            return
-        yield data[start : end + 1]
-        start = end + 1
 
 
 def _range(start: int, length: int) -> bytes:
@@ -62,7 +53,7 @@ def file_diff(path: str, old: bytes, new: bytes) -> bytes:
     """The diff of one file at `path` (POSIX, relative to the project root); b"" if equal."""
     if old == new:
         return b""
-    a, b = _by_lines(old), _by_lines(new)
+    a, b = after_newlines(old), after_newlines(new)
     raw = path.encode("utf-8", "surrogateescape")
     name_a, name_b = quote_path(b"a/" + raw), quote_path(b"b/" + raw)
     tab = b"\t" if b" " in raw else b""  # git ends a header name holding a space with a TAB
@@ -79,10 +70,6 @@ def file_diff(path: str, old: bytes, new: bytes) -> bytes:
             out.extend(_line(b"-", line) for line in a[i1:i2])
             out.extend(_line(b"+", line) for line in b[j1:j2])
     return b"".join(out)
-
-
-def _by_lines(data: bytes) -> list[bytes]:
-    return list(_by_newline(data))
 
 
 def project_patch(files: Iterable[tuple[str, bytes, bytes]]) -> bytes:
