@@ -25,6 +25,7 @@ from impactscope.rewrite.review import review_json, review_markdown
 from impactscope.scan.cache import held, picklable, replayed, streamed
 from impactscope.scan.library import ScanLibrary, prepare_library
 from impactscope.scan.progress import ScanProgress, Silent, Tally
+from impactscope.scan.run import count_projects
 
 REVIEW_MD = "review.md"
 REVIEW_JSON = "review.json"
@@ -73,8 +74,10 @@ def run_rewrite(
     roots = [os.path.abspath(os.fspath(r)) for r in roots]
     library = prepare_library(changes, out / "rewrite")
     display = progress if progress is not None else Silent()
+    # As the scan does: counted only when cheap (folders and zips), and only for a display.
+    total = None if isinstance(display, Silent) else count_projects(roots, single=single, library=changes.import_name)
     started = time.perf_counter()
-    display.start(None)
+    display.start(total)
     done: list[ProjectRewrite] = []
     files = findings = 0
     try:
@@ -82,9 +85,9 @@ def run_rewrite(
             done.append(result)
             files += result.scanned_files
             findings += len(result.rewritten) + len(result.review)
-            display.update(Tally(len(done), None, files, 0, findings, time.perf_counter() - started))
+            display.update(Tally(len(done), total, files, 0, findings, time.perf_counter() - started))
     finally:
-        display.finish(Tally(len(done), None, files, 0, findings, time.perf_counter() - started))
+        display.finish(Tally(len(done), total, files, 0, findings, time.perf_counter() - started))
     done.sort(key=lambda r: r.name)
     if apply:
         _apply(done)
