@@ -122,3 +122,74 @@ def test_scan_reads_an_installed_library_without_importing_it(tmp_path: Path) ->
     found = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
     assert found["changes"][0]["projects"]["resolved"] == 1
     assert found["findings"][0]["line"] == 3
+
+
+# ---------------------------------------------------------------------------------------------
+# Conventions shared by every command.
+
+
+def test_version_prints_the_package_version() -> None:
+    from impactscope import __version__
+
+    done = runner.invoke(app, ["--version"])
+    assert done.exit_code == 0 and done.stdout == f"impactscope {__version__}\n"
+
+
+def test_help_texts_print_as_written() -> None:
+    """No markup is read in help texts ("[library]" keeps its brackets) and flags show no <bool>."""
+    for command in ("scan", "report", "surface", "compare", "harvest", "sample", "rewrite", "demo", "gate"):
+        done = runner.invoke(app, [command, "--help"], env={"COLUMNS": "200"})
+        assert done.exit_code == 0, (command, done.output)
+        assert "<bool>" not in done.stdout, command
+        assert "--out " not in done.stdout and "--out\n" not in done.stdout, command  # the old name is hidden
+    scan_help = " ".join(runner.invoke(app, ["scan", "--help"], env={"COLUMNS": "200"}).stdout.split())
+    assert "(overrides [library] source in the change list)" in scan_help
+    assert "--output FILE" in scan_help
+
+
+def _tiny_corpus(tmp_path: Path) -> tuple[Path, Path]:
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nid = "C-1"\nmember = "heronframe.stack"\n'
+                       'kind = "removed"\n', encoding="utf-8")
+    project = tmp_path / "corpus" / "only"
+    project.mkdir(parents=True)
+    (project / "a.py").write_text("import heronframe\nheronframe.stack([])\n", encoding="utf-8")
+    return changes, tmp_path / "corpus"
+
+
+def test_output_is_the_option_name_and_out_a_hidden_alias(tmp_path: Path) -> None:
+    changes, corpus = _tiny_corpus(tmp_path)
+    new = runner.invoke(app, ["scan", str(changes), str(corpus), "--output", str(tmp_path / "a.sqlite")])
+    assert new.exit_code == 0, new.output
+    # One project, one file, one finding: singular words.
+    assert "scanned 1 project, 1 file in " in new.stderr and "; 1 finding, 0 files with an analysis error" in new.stderr
+    old = runner.invoke(app, ["scan", str(changes), str(corpus), "--out", str(tmp_path / "b.sqlite"), "--quiet"])
+    assert old.exit_code == 0 and (tmp_path / "b.sqlite").exists()
+    both = runner.invoke(app, ["scan", str(changes), str(corpus), "--out", "x.sqlite", "--output", "y.sqlite"])
+    assert both.exit_code == 2 and "disagree" in both.output
+    no_folder = runner.invoke(app, ["rewrite", str(changes), str(corpus)])
+    assert no_folder.exit_code == 2 and "--output DIR" in no_folder.output
+
+
+def test_weights_show_in_every_format_and_must_match_a_project(scanned_demo_corpus, tmp_path: Path) -> None:
+    results = str(scanned_demo_corpus.results)
+    users = [p["project"] for p in scanned_demo_corpus.report["projects"] if p["uses_library"]]
+    weights = tmp_path / "downloads.csv"
+    weights.write_text("project,weight\n" + "".join(f"{p},{i + 1}\n" for i, p in enumerate(users[:50])) + "other,3\n")
+    line = f"weighted by downloads.csv: 51 entries, matching 50 of the {len(users)} projects that use heronframe"
+    for fmt in ("table", "markdown", "html", "json"):
+        done = runner.invoke(app, ["report", results, "--format", fmt, "--weights", str(weights)])
+        assert done.exit_code == 0, (fmt, done.output)
+        if fmt == "json":
+            assert json.loads(done.stdout)["weights"] == {"file": "downloads.csv", "entries": 51, "matched": 50}
+        else:
+            assert line in " ".join(done.stdout.split()), fmt
+    notes = runner.invoke(app, ["report", results, "--format", "release-notes", "--weights", str(weights)]).stdout
+    assert "; weighted by downloads.csv: " in notes
+    table = runner.invoke(app, ["report", results, "--weights", str(weights)]).stdout
+    assert "weighted share (95% interval)" in table
+    stranger = tmp_path / "nobody.csv"
+    stranger.write_text("project,weight\nnot-in-the-corpus,10\n")
+    refused = runner.invoke(app, ["report", results, "--weights", str(stranger)])
+    assert refused.exit_code == 2 and "Traceback" not in refused.output
+    assert "--weights nobody.csv: none of its 1 project names is a project of these results" in refused.output
