@@ -7,6 +7,7 @@ import ast
 from collections.abc import Iterable, Sequence
 
 from .model import Member, Parameter, Problem, SELF, Surface, linearize
+from .overloads import AnnotationReader, Overload, OverloadParameter
 from .parsing import ParsedModule
 from .reader import Bind, ModuleReader, Raw
 from .syntax import (
@@ -317,6 +318,38 @@ class Linker:
         """A library class whose instances are descriptors (Language Reference, "Implementing Descriptors")."""
         return target is not None and self.raw[target].kind == "class" and self.attr(target, "__get__") is not None
 
+    def overloads(self, name: str) -> tuple[Overload, ...]:
+        """Each `@overload` of `name` with what its parameters admit, kept only when the overloads
+        return different things (else `returns` already says it, and the JSON stays small)."""
+        r = self.raw[name]
+        if len(r.overloads) < 2:
+            return ()
+        reader = AnnotationReader(
+            resolve=lambda module, text: self.resolve_expr(module, text, typing=True),
+            library_class=self._nominal_class,
+            alias=self._type_alias,
+        )
+        out = tuple(
+            Overload(tuple(OverloadParameter(p.name, p.kind, p.default is not None, reader.read(r.module, a))
+                           for p, a in zip(params, anns)),
+                     self.outcomes(r.module, ret, me))
+            for ret, me, params, anns in r.overloads
+        )
+        return out if len({o.outcomes for o in out}) > 1 else ()
+
+    def _nominal_class(self, path: str) -> bool:
+        """A library class that `isinstance` tests by inheritance (a protocol is structural)."""
+        r = self.raw.get(path)
+        if r is None or r.kind != "class":
+            return False
+        return not any(last_part(b) == "Protocol" for k in self.mro(path) for b in self.raw[k].bases)
+
+    def _type_alias(self, path: str) -> tuple[str, ast.expr] | None:
+        r = self.raw.get(path)
+        if r is None or r.alias_value is None:
+            return None
+        return r.module, r.alias_value
+
     def outcomes_of(self, name: str) -> tuple[str | None, ...]:
         """What calling (for values: reading) `name` gives, one entry per possible outcome: a
         library class, SELF, or None for anything else. Overloads each add theirs (PEP 484)."""
@@ -329,8 +362,8 @@ class Linker:
             if kind == "property" and r.kind not in CALLABLE_KINDS:
                 return self.value_outcomes(name)
             if kind in CALLABLE_KINDS:
-                sigs = r.overloads or [(r.returns_ann, r.self_ann)]
-                return tuple(o for ret, me in sigs for o in self.outcomes(r.module, ret, me))
+                sigs = r.overloads or [(r.returns_ann, r.self_ann, (), ())]
+                return tuple(o for ret, me, *_ in sigs for o in self.outcomes(r.module, ret, me))
             found = self.instance_class(name)
             return (found,)
 
@@ -526,7 +559,8 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
                                returns_self=kind in CALLABLE_KINDS and bool(outcomes) and all(o == SELF for o in outcomes),
                                # Kept only when it says more than `returns` does, so the JSON stays small.
                                returns_all=every if every != ((returns,) if returns else ()) and r.kind != "class" else (),
-                               doc=r.doc, annotation=ast.unparse(r.returns_ann) if r.returns_ann is not None else "")
+                               doc=r.doc, annotation=ast.unparse(r.returns_ann) if r.returns_ann is not None else "",
+                               overloads=link.overloads(name) if kind in CALLABLE_KINDS and returns is None else ())
 
     aliases: dict[str, str] = {}
     private: dict[str, str] = {}

@@ -15,6 +15,8 @@ from typing import Any
 
 from impactscope.errors import InputError
 
+from .overloads import Overload
+
 PARAMETER_KINDS = ("positional-only", "positional-or-keyword", "var-positional", "keyword-only", "var-keyword")
 MEMBER_KINDS = (
     "module",
@@ -79,6 +81,7 @@ class Member:
     returns_all: tuple[str, ...] = ()
     doc: str = ""
     annotation: str = ""
+    overloads: tuple[Overload, ...] = ()  # PEP 484 overloads, kept when they return different things
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -259,6 +262,19 @@ class Surface:
             receiver = member.name.rpartition(".")[0]
         out = (receiver if c == SELF else c for c in member.returns_all)
         return tuple(dict.fromkeys(out))
+
+    def overloads(self, dotted: str) -> tuple[Overload, ...]:
+        """The overloads of the callable `dotted` when they return different things, with `SELF`
+        read as the receiver's class (as in `returns_all`); () otherwise."""
+        member = self.member(dotted)
+        if member is None or not member.overloads:
+            return ()
+        receiver = self.canonical(dotted.rpartition(".")[0])
+        if not self.is_class(receiver):
+            receiver = member.name.rpartition(".")[0]
+        return tuple(
+            Overload(o.parameters, tuple(receiver if c == SELF else c for c in o.outcomes)) for o in member.overloads
+        )
 
     def attribute_type(self, dotted: str) -> str | None:
         """The library class of the value `obj.attr` reads, when `dotted` names a property, a
@@ -510,6 +526,7 @@ def _member_json(m: Member) -> dict[str, Any]:
         "returns_all": list(m.returns_all),
         "doc": m.doc,
         "annotation": m.annotation,
+        **({"overloads": [o.to_json() for o in m.overloads]} if m.overloads else {}),
     }
 
 
@@ -532,6 +549,7 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         returns_all=tuple(d.get("returns_all", ())),
         doc=d.get("doc", ""),
         annotation=d.get("annotation", ""),
+        overloads=tuple(Overload.from_json(o) for o in d.get("overloads", ())),
     )
 
 

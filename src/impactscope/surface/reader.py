@@ -49,7 +49,7 @@ class Raw:
 
     __slots__ = ("name", "kind", "module", "line", "params", "returns_ann", "self_class", "decorators",
                  "shape", "bases", "value_call", "value_ann", "dataclass", "fields", "namedtuple", "instance_attrs",
-                 "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc")
+                 "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc", "alias_value")
 
     def __init__(self, name: str, kind: str, module: str, line: int) -> None:
         self.name, self.kind, self.module, self.line = name, kind, module, line
@@ -67,11 +67,13 @@ class Raw:
         self.namedtuple = False
         self.instance_attrs: list[tuple[str, int]] = []
         self.self_ann: ast.expr | None = None  # the annotation of `self` / `cls`, for TypeVar-bound selves
-        self.overloads: list[tuple[ast.expr | None, ast.expr | None]] = []  # (returns, self) per @overload
+        # (returns, self, parameters, their annotations) per @overload, in source order
+        self.overloads: list[tuple[ast.expr | None, ast.expr | None, tuple[Parameter, ...], tuple[ast.expr | None, ...]]] = []
         self.wrappers: list[str] = []  # a method's other decorators, to tell a cached property at link time
         self.getter: str | None = None  # `x = property(getter)`: the getter's dotted text
         self.typevar = False  # `T = TypeVar("T", bound=...)`
         self.bound: ast.expr | None = None
+        self.alias_value: ast.expr | None = None  # `Scalar = Union[...]`: a type alias, read by overload parameters
 
 
 class ModuleReader:
@@ -201,8 +203,12 @@ class ModuleReader:
         positional = [*node.args.posonlyargs, *node.args.args]
         self_ann = positional[0].annotation if scope is not None and positional else None
         earlier = self.raw.get(path) if path in self._overloads else None
+        if overload:
+            drop = scope is not None and "staticmethod" not in lasts or name == "__new__"
+            signature = (node.returns, self_ann, self.parameters(node.args, drop_first=drop),
+                         _annotations(node.args, drop))
         if overload and earlier is not None:
-            earlier.overloads.append((node.returns, self_ann))
+            earlier.overloads.append(signature)
             return {name}  # the first overload's signature, until an implementation replaces it
         if overload and path in self.raw:
             return {name}
@@ -224,7 +230,7 @@ class ModuleReader:
         r.self_class = scope
         r.self_ann = self_ann
         if overload:
-            r.overloads = [(node.returns, self_ann)]
+            r.overloads = [signature]
         elif earlier is not None:
             # PEP 484: the overloads, not the implementation, are what callers see.
             r.overloads = earlier.overloads
@@ -354,6 +360,8 @@ class ModuleReader:
                 self._literals[name] = strings
         r = self._new(path, kind, line, scope)
         r.value_ann = annotation
+        if scope is None and isinstance(value, (ast.Subscript, ast.BinOp)):
+            r.alias_value = value
         if isinstance(value, ast.Lambda):
             r.params = self.parameters(value.args, drop_first=kind == "method")
         elif isinstance(value, ast.Call):
@@ -535,6 +543,7 @@ class ModuleReader:
     # parameters ------------------------------------------------------------------------
 
     def parameters(self, args: ast.arguments, drop_first: bool) -> tuple[Parameter, ...]:
+        """The parameters as callers see them (`_annotations` gives theirs in the same order)."""
         positional = [*args.posonlyargs, *args.args]
         defaults: list[ast.expr | None] = [None] * (len(positional) - len(args.defaults)) + list(args.defaults)
         posonly = len(args.posonlyargs)
@@ -555,3 +564,16 @@ class ModuleReader:
         if args.kwarg is not None:
             out.append(Parameter(args.kwarg.arg, "var-keyword", None, None))
         return tuple(out)
+
+
+def _annotations(args: ast.arguments, drop_first: bool) -> tuple[ast.expr | None, ...]:
+    """The annotations of `ModuleReader.parameters(args, drop_first)`, in the same order."""
+    positional = [*args.posonlyargs, *args.args]
+    start = 1 if drop_first and positional else 0
+    out = [a.annotation for a in positional[start:]]
+    if args.vararg is not None:
+        out.append(args.vararg.annotation)
+    out.extend(a.annotation for a in args.kwonlyargs)
+    if args.kwarg is not None:
+        out.append(args.kwarg.annotation)
+    return tuple(out)
