@@ -7,9 +7,12 @@ own source (impactscope.surface) gives a complete one. Both answer the same ques
 from __future__ import annotations
 
 import os
-from typing import Protocol
+from typing import TYPE_CHECKING, Protocol
 
 from impactscope.changes import ChangeList
+
+if TYPE_CHECKING:
+    from impactscope.surface.overloads import Overload
 
 
 class LibraryModel(Protocol):
@@ -30,6 +33,10 @@ class LibraryModel(Protocol):
     def returns_all(self, dotted: str) -> tuple[str, ...]: ...
 
     def attribute_type(self, dotted: str) -> str | None: ...
+
+    def overloads(self, dotted: str) -> "tuple[Overload, ...]": ...
+
+    def only_library_bases(self, cls: str) -> bool: ...
 
     @property
     def knows_kinds(self) -> bool: ...
@@ -78,6 +85,12 @@ class TypesModel:
 
     def attribute_type(self, dotted: str) -> str | None:
         return None  # `[types]` says what calls return, not what attributes hold
+
+    def overloads(self, dotted: str) -> "tuple[Overload, ...]":
+        return ()  # `[types]` gives one return type per name
+
+    def only_library_bases(self, cls: str) -> bool:
+        return False
 
     def kind(self, dotted: str) -> str | None:
         """"class" or "module" where the change list says so; None for the rest (not known)."""
@@ -130,6 +143,27 @@ class SurfaceModel:
 
     def attribute_type(self, dotted: str) -> str | None:
         return self._surface.attribute_type(dotted)  # type: ignore[attr-defined]
+
+    def overloads(self, dotted: str) -> "tuple[Overload, ...]":
+        if self._types.returns(dotted) or self._types.returns(self.canonical(dotted)):
+            return ()  # the change list's `[types]` decides
+        return self._surface.overloads(dotted)  # type: ignore[attr-defined]
+
+    def only_library_bases(self, cls: str) -> bool:
+        """Every ancestor of `cls` is the library's (or `object`, `Generic`): no instance of it is
+        a builtin value or an outside class's instance."""
+        order = self.mro(cls)
+        if not order:
+            return False
+        for k in order:
+            member = self._surface.member(k)  # type: ignore[attr-defined]
+            if member is None:
+                return False
+            for base in member.bases:
+                if base in order or base.rpartition(".")[2] in ("object", "Generic") or base.startswith(("Generic[", "typing.Generic")):
+                    continue
+                return False
+        return True
 
     @property
     def surface(self) -> object:
