@@ -7,7 +7,7 @@ from packaging.specifiers import InvalidSpecifier, SpecifierSet
 
 from impactscope.exposure.reader import Reader
 from impactscope.exposure.records import Declared
-from impactscope.exposure.toml_tables import LOCATION_KEYS, combine_markers, load_toml, toml_value
+from impactscope.exposure.toml_tables import combine_markers, entry_version, load_toml, toml_value
 
 
 # Pipfile tables may carry marker variables as keys, e.g. sys_platform = "== 'win32'".
@@ -43,12 +43,8 @@ def read_pipfile(path: str, reader: Reader) -> None:
             except InvalidMarker as exc:
                 reader.problem(f"{source}: cannot read the markers of {text}: {exc}")
                 continue
-            if any(key in body for key in LOCATION_KEYS):
-                reader.add_direct(text, source, marker=marker)
-                continue
-            version = body.get("version", "*")
-            if not isinstance(version, str):
-                reader.problem(f"{source}: {name} has a non-string version {version!r}")
+            version = entry_version(name, body, text, source, reader, marker)
+            if version is None:
                 continue
             version = version.strip()
             if version in ("", "*"):

@@ -11,7 +11,7 @@ from packaging.version import InvalidVersion, Version
 from impactscope.errors import InputError
 from impactscope.exposure.reader import Reader
 from impactscope.exposure.records import Declared
-from impactscope.exposure.toml_tables import LOCATION_KEYS, combine_markers, toml_value
+from impactscope.exposure.toml_tables import combine_markers, entry_version, toml_value
 
 
 def read_poetry(path: str, poetry: dict, reader: Reader) -> None:
@@ -153,12 +153,8 @@ def poetry_dependency(name: str, value: object, source: str, reader: Reader) -> 
     except (_ConstraintError, InvalidSpecifier, InvalidMarker) as exc:
         reader.problem(f"{source}: cannot read the markers of {text}: {exc}")
         return
-    if any(key in table for key in LOCATION_KEYS):
-        reader.add_direct(text, source, marker=marker)
-        return
-    version = table.get("version", "*")
-    if not isinstance(version, str):
-        reader.problem(f"{source}: {name} has a non-string version {version!r}")
+    version = entry_version(name, table, text, source, reader, marker)
+    if version is None:
         return
     specs = _poetry_range(version, text, source, reader)
     if specs is None:

@@ -1,4 +1,5 @@
-"""What the TOML manifests share: loading, a value shown as written, markers joined, location keys."""
+"""What the TOML manifests share: loading, a value shown as written, markers joined, and a
+dependency table entry's direct reference or version string (Pipfile, Poetry)."""
 
 from __future__ import annotations
 
@@ -41,4 +42,18 @@ def combine_markers(*texts: str | None) -> Marker | None:
     return Marker(" and ".join(f"({t})" for t in present))
 
 
-LOCATION_KEYS = ("git", "path", "url", "file")
+_LOCATION_KEYS = ("git", "path", "url", "file")
+
+
+def entry_version(name: str, body: dict, text: str, source: str, reader: Reader, marker: Marker | None) -> str | None:
+    """The version string of a dependency table's entry (Pipfile, Poetry), or None when the entry
+    is settled already: a direct reference (git, path, url, file: recorded as such) or a version
+    that is not a string (a problem)."""
+    if any(key in body for key in _LOCATION_KEYS):
+        reader.add_direct(text, source, marker=marker)
+        return None
+    version = body.get("version", "*")
+    if not isinstance(version, str):
+        reader.problem(f"{source}: {name} has a non-string version {version!r}")
+        return None
+    return version
