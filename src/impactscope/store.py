@@ -154,7 +154,7 @@ class ResultStore:
         if not ours:
             raise StoreError(
                 f"{path}: exists and is not an impactscope results file; "
-                "pass another --out or remove the file"
+                "pass another --output or remove the file"
             )
 
     @staticmethod
@@ -170,7 +170,7 @@ class ResultStore:
     def open(cls, path: str | os.PathLike[str]) -> "ResultStore":
         p = Path(path)
         if not p.is_file():
-            raise StoreError(f"{p}: no such results file; run `impactscope scan CHANGES ROOT --out {p}` first")
+            raise StoreError(f"{p}: no such results file; run `impactscope scan CHANGES ROOT --output {p}` first")
         try:
             db = sqlite3.connect(f"file:{p}?mode=ro", uri=True)
             keys = {row[0] for row in db.execute("SELECT key FROM meta")}
@@ -183,14 +183,14 @@ class ResultStore:
             # Another program's SQLite file, or one from a version before these keys.
             raise StoreError(
                 f"{p}: not an impactscope results file, or one from an older version (it lacks "
-                f"{', '.join(missing)}); scan again with `impactscope scan CHANGES ROOT --out {p} --fresh`"
+                f"{', '.join(missing)}); scan again with `impactscope scan CHANGES ROOT --output {p} --fresh`"
             )
         found = db.execute("SELECT value FROM meta WHERE key = 'format'").fetchone()[0]
         if found != FORMAT:
             db.close()
             raise StoreError(
                 f"{p}: a results file of layout {found}, and this version reads layout {FORMAT}; "
-                f"scan again with `impactscope scan CHANGES ROOT --out {p} --fresh`"
+                f"scan again with `impactscope scan CHANGES ROOT --output {p} --fresh`"
             )
         return cls(p, db)
 
@@ -234,7 +234,7 @@ class ResultStore:
         """A full disk, a file made read-only, an I/O error: the user's to fix, and what was
         committed before stays (each transaction holds whole projects)."""
         return StoreError(
-            f"{self.path}: cannot write the results file ({exc}); free some disk space or pass --out "
+            f"{self.path}: cannot write the results file ({exc}); free some disk space or pass --output "
             "on another disk; the projects finished so far are kept and the same command resumes"
         )
 

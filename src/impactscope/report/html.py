@@ -41,6 +41,7 @@ table { border-collapse: collapse; margin: 0.6em 0; }
 th, td { border-bottom: 1px solid #c9d1d9; padding: 0.2em 0.6em; text-align: left; vertical-align: top; }
 th { background: #f3f5f7; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
+td.n, td:first-child { white-space: nowrap; }
 code { font-size: 0.95em; }
 .warning { background: #fdecea; border-left: 4px solid #b3261e; padding: 0.4em 0.8em; }
 .lead { font-size: 1.1em; }
