@@ -16,11 +16,11 @@ from pathlib import Path
 import pytest
 
 from impactscope.findings import Confidence
-from impactscope.report.aggregate import build_report
 from impactscope.report.html import to_html
 from impactscope.report.model import Report
 from impactscope.report.views import hit_projects
-from impactscope.store import ResultStore
+
+from .conftest import model_of
 
 # HTML Living Standard, "Void elements": these have no end tag.
 VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source", "track", "wbr"}
@@ -28,17 +28,9 @@ VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "met
 SELF_CLOSED = {"line"}
 
 
-def _build(results: Path) -> Report:
-    store = ResultStore.open(results)
-    try:
-        return build_report(store)
-    finally:
-        store.close()
-
-
 @pytest.fixture(scope="module")
-def model(scanned_demo_corpus) -> Report:
-    return _build(scanned_demo_corpus.results)
+def model(demo_model: Report) -> Report:
+    return demo_model
 
 
 @pytest.fixture(scope="module")
@@ -169,7 +161,7 @@ def test_the_impact_chart_draws_each_level_with_its_interval(page: str, model: R
 
 
 def test_the_same_results_give_the_same_bytes(scanned_demo_corpus, page: str) -> None:
-    assert to_html(_build(scanned_demo_corpus.results)) == page
+    assert to_html(model_of(scanned_demo_corpus.results)) == page
     assert not re.search(r"20\d\d-\d\d-\d\d|/tmp/|pytest-of", page)
 
 

@@ -17,9 +17,8 @@ from pathlib import Path
 
 import pytest
 
-from impactscope.report.aggregate import build_report
 from impactscope.report.html import to_html
-from impactscope.store import ResultStore
+from impactscope.report.model import Report
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
@@ -51,12 +50,8 @@ def _console(stderr: str) -> list[str]:
 
 
 @pytest.fixture(scope="module")
-def page(scanned_demo_corpus, tmp_path_factory: pytest.TempPathFactory) -> Path:
-    store = ResultStore.open(scanned_demo_corpus.results)
-    try:
-        report = build_report(store)
-    finally:
-        store.close()
+def page(demo_model: Report, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    report = demo_model
     path = tmp_path_factory.mktemp("html") / "report.html"
     path.write_text(to_html(report), encoding="utf-8")
     return path

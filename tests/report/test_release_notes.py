@@ -11,21 +11,15 @@ import pytest
 from typer.testing import CliRunner
 
 from impactscope.cli import app
-from impactscope.report.aggregate import build_report
 from impactscope.report.model import Report
 from impactscope.report.release_notes import FRAGMENT_TYPE, fragment_name, to_release_notes
-from impactscope.store import ResultStore
 
 runner = CliRunner()
 
 
 @pytest.fixture(scope="module")
-def model(scanned_demo_corpus) -> Report:
-    store = ResultStore.open(scanned_demo_corpus.results)
-    try:
-        return build_report(store)
-    finally:
-        store.close()
+def model(demo_model: Report) -> Report:
+    return demo_model
 
 
 def _sections(text: str) -> dict[str, list[str]]:

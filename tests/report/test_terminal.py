@@ -17,22 +17,16 @@ import pytest
 from typer.testing import CliRunner
 
 from impactscope.cli import app
-from impactscope.report.aggregate import build_report
 from impactscope.report.model import Report
 from impactscope.report.terminal import FALLBACK_WIDTH, PATTERN_ROWS, PROJECT_NAMES, terminal_width, to_table
-from impactscope.store import ResultStore
 
 LEVELS = ("resolved", "inferred", "possible")
 WIDTHS = (80, 100, 150)
 
 
 @pytest.fixture(scope="module")
-def model(scanned_demo_corpus) -> Report:
-    store = ResultStore.open(scanned_demo_corpus.results)
-    try:
-        return build_report(store)
-    finally:
-        store.close()
+def model(demo_model: Report) -> Report:
+    return demo_model
 
 
 @pytest.fixture(scope="module")

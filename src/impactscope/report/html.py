@@ -16,21 +16,9 @@ from html import escape
 from impactscope.findings import Confidence
 from impactscope.report.charts import exposure_chart, files_chart, impact_chart, pattern_chart
 from impactscope.report.model import ChangeReport, Report
-from impactscope.report.views import (
-    DEFAULT_SITES,
-    LEVEL_WORDS,
-    by_impact,
-    confidence_text,
-    example_sites,
-    hit_by_any,
-    hit_projects,
-    interval,
-    percent,
-    plural,
-    site_text,
-    warnings,
-    weights_text,
-)
+from impactscope.report.views import DEFAULT_SITES, LEVEL_WORDS, by_impact, confidence_text, example_sites
+from impactscope.report.views import hit_by_any, hit_projects, interval, percent, plural, site_text, warnings
+from impactscope.report.views import weights_text
 
 PATTERN_ROWS = 8  # patterns drawn per change; the table below the chart lists them all
 
