@@ -6,6 +6,7 @@ import multiprocessing
 import os
 import pickle
 import shutil
+import threading
 from pathlib import Path
 
 import pytest
@@ -155,6 +156,19 @@ def test_source_digest_covers_exactly_what_the_builder_reads(setup, tmp_path):
     assert source_digest(source, "heronframe") == digest
     (source / "extra.py").write_text("def more():\n    pass\n", encoding="utf-8")
     assert source_digest(source, "heronframe") != digest
+
+
+def test_source_digest_never_opens_a_fifo(setup, tmp_path):
+    """A FIFO named like a module blocks whoever opens it for reading (it waited forever before);
+    the digest, like the builder, counts it without opening it."""
+    _, _, source = setup
+    digest = source_digest(source, "heronframe")
+    os.mkfifo(source / "pipe.py")
+    got: list[str] = []
+    reader = threading.Thread(target=lambda: got.append(source_digest(source, "heronframe")), daemon=True)
+    reader.start()
+    reader.join(timeout=20)  # a blocked open fails the test instead of hanging the suite
+    assert got and got[0] != digest  # returned, and sees the module
 
 
 def test_library_module_keeps_no_state_between_scans():

@@ -39,7 +39,9 @@ def _builder_digest() -> str:
 
 def source_digest(source: Path, import_name: str) -> str:
     """sha256 over the names and bytes of the modules the surface builder would read at `source`."""
+    from impactscope.corpus.files import FileRefused, read_regular
     from impactscope.surface.build import discover_modules
+    from impactscope.surface.parsing import MODULE_BYTES
 
     name, modules = discover_modules(source, import_name)
     h = hashlib.sha256(_builder_digest().encode())
@@ -47,7 +49,12 @@ def source_digest(source: Path, import_name: str) -> str:
     for module in modules:
         h.update(f"\0{module.name}\0{int(module.is_package)}{int(module.is_stub)}\0".encode())
         if module.path is not None:
-            h.update(module.path.read_bytes())
+            # Read as the surface builder reads it: a FIFO would block a plain read, and what the
+            # builder refuses (special file, link out, too large) counts by its reason alone.
+            try:
+                h.update(read_regular(str(module.path), MODULE_BYTES, reason="module too large"))
+            except (FileRefused, OSError) as exc:
+                h.update(f"\0not read: {getattr(exc, 'reason', type(exc).__name__)}".encode())
     return h.hexdigest()
 
 
