@@ -250,17 +250,15 @@ def surface(
     output: Optional[Path] = typer.Option(None, "--output", help="Write here instead of standard output."),
 ) -> None:
     """Print the library's public surface, read statically from its source."""
-    from impactscope.surface import SurfaceError, build_surface, locate_installed
+    from impactscope.surface import SurfaceError, build_surface
+    from impactscope.surface.locate import library_location
 
     def build() -> str:
         if (source is None) == (installed is None):
             raise SurfaceError("give the library's SOURCE path or --installed NAME (one of the two)")
         if format not in ("table", "json"):
             raise SurfaceError(f"--format must be table or json, got {format!r}")
-        where = locate_installed(installed) if installed is not None else source
-        if not Path(where).exists():  # type: ignore[arg-type]
-            raise SurfaceError(f"{where}: no such file or folder; pass the library's package folder")
-        built = build_surface(where, library)  # type: ignore[arg-type]
+        built = build_surface(library_location(source, installed), library)  # type: ignore[arg-type]
         return built.dumps() + "\n" if format == "json" else built.render_table()
 
     _emit(_guarded(build), output)

@@ -86,3 +86,20 @@ def test_real_installed_distribution():
     # packaging ships its sources (and py.typed) in the venv: the package directory is returned.
     found = locate_installed("packaging")
     assert (found / "version.py").is_file()
+
+
+def test_one_decision_between_an_installed_library_and_a_source_path(tmp_path):
+    from impactscope.surface.locate import library_location
+
+    source = write_tree(tmp_path / "src", {"heronframe/__init__.py": "X = 1\n"}) / "heronframe"
+    fallback = tmp_path / "src"
+    assert library_location(source, None, fallback) == source  # a path given overrides [library] source
+    assert library_location(None, None, fallback) == fallback
+    assert library_location() is None  # nothing given: the change list's [types] alone
+    assert library_location(None, "packaging") == locate_installed("packaging")
+    with pytest.raises(SurfaceError, match="not both"):
+        library_location(source, "packaging")
+    with pytest.raises(SurfaceError, match="no such file or folder"):
+        library_location(tmp_path / "absent", None)
+    with pytest.raises(SurfaceError, match="no such file or folder"):
+        library_location(None, None, tmp_path / "absent")

@@ -218,23 +218,15 @@ def library_model(changes: ChangeList, *, source: "os.PathLike[str] | str | None
                   installed: str | None = None) -> LibraryModel:
     """The model a scan resolves against: the library's own source read statically when one is
     given (`installed` names an installed distribution, `source` a path; either overrides
-    `[library] source`), else the change list's `[types]` alone."""
-    from pathlib import Path
-
-    from impactscope.surface import build_surface, locate_installed
+    `[library] source`; see `surface.locate.library_location`), else the change list's `[types]`
+    alone."""
+    from impactscope.surface import build_surface
     from impactscope.surface.check import check_members
+    from impactscope.surface.locate import library_location
 
-    where: Path | None
-    if installed is not None:
-        where = locate_installed(installed)
-    elif source is not None:
-        where = Path(source)
-    else:
-        where = changes.source
+    where = library_location(source, installed, changes.source)
     if where is None:
         return TypesModel(changes)
-    if not Path(where).exists():
-        raise FileNotFoundError(2, "library source not found; fix [library] source or --library-source", str(where))
     surface = build_surface(where, changes.import_name)
     check_members(changes, surface, where)  # a changed member the surface lacks is an input error
     return SurfaceModel(surface, changes)

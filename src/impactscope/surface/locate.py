@@ -11,6 +11,7 @@ from __future__ import annotations
 import importlib.machinery
 import importlib.metadata
 import importlib.util
+import os
 from collections.abc import Iterable, Sequence
 from pathlib import Path, PurePosixPath
 
@@ -49,6 +50,22 @@ def _import_names(name: str, dists: Sequence[importlib.metadata.Distribution]) -
             if tops:
                 return tops
     return [name]
+
+
+def library_location(source: str | os.PathLike[str] | None = None, installed: str | None = None,
+                     fallback: Path | None = None) -> Path | None:
+    """Where the library is read from: the installed distribution `installed` (found by
+    `locate_installed`) or the path `source`, at most one of the two, else `fallback` (a change
+    list's `[library] source`); None when there is none. Raises SurfaceError when both are given
+    or the path does not exist."""
+    if source is not None and installed is not None:
+        raise SurfaceError("give the library's source path or an installed distribution's name, not both")
+    if installed is not None:
+        return locate_installed(installed)
+    where = Path(source) if source is not None else fallback
+    if where is not None and not where.exists():
+        raise SurfaceError(f"{where}: no such file or folder; pass the library's package folder")
+    return where
 
 
 def locate_installed(name: str, path: Sequence[str | Path] | None = None) -> Path:
