@@ -10,7 +10,16 @@ import pytest
 
 from impactscope.corpus.roots import archive_stem, discover
 
-from .helpers import LIB, SDIST_FILES, SDIST_LISTING, prefixed, projects, tar_members, write_tar, write_zip
+from .helpers import (
+    LIB,
+    SDIST_FILES,
+    SDIST_LISTING,
+    prefixed,
+    projects,
+    tar_members,
+    write_tar,
+    write_zip,
+)
 
 
 def test_archive_stem() -> None:

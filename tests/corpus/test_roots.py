@@ -15,10 +15,40 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from impactscope.corpus.roots import CorpusError, Entry, EntryError, Limits, Project, archive_stem, check_roots, discover
+from impactscope.corpus.roots import (
+    CorpusError,
+    Entry,
+    EntryError,
+    Limits,
+    NotAProject,
+    Project,
+    archive_stem,
+    check_roots,
+    discover,
+    survey,
+)
 from impactscope.corpus.names import member_parts
 
-from .helpers import EXPECTED_SKIPS, LIB, NOISE, PROJECT, WHEEL_FILES, WHEEL_LISTING, WHEEL_NAME, _bytes, listing, prefixed, projects, snapshot, tar_bytes, tar_members, write_tar, write_tree, write_zip, zip_members
+from .helpers import (
+    EXPECTED_SKIPS,
+    LIB,
+    NOISE,
+    PROJECT,
+    WHEEL_FILES,
+    WHEEL_LISTING,
+    WHEEL_NAME,
+    _bytes,
+    listing,
+    prefixed,
+    projects,
+    snapshot,
+    tar_bytes,
+    tar_members,
+    write_tar,
+    write_tree,
+    write_zip,
+    zip_members,
+)
 
 
 def test_directory_root_projects(tmp_path: Path) -> None:
@@ -230,6 +260,26 @@ def test_root_level_items_that_are_not_projects_are_reported(tmp_path: Path) -> 
     assert reasons[".hidden"] == "hidden"
     assert reasons["escape.py"] == "unsafe path"
     assert reasons["readme.txt"].startswith("not a project")
+
+
+def test_survey_returns_what_is_not_a_project_as_values(tmp_path: Path) -> None:
+    # survey() hands out both kinds in root order; discover() is its projects, and `ignored`
+    # (kept for callers not moved yet) receives the rest as it comes.
+    root = tmp_path / "root"
+    (root / "b").mkdir(parents=True)
+    (root / "b" / "a.py").write_text("x = 1\n")
+    (root / "NOTES.md").write_text("notes\n")
+    tar = write_tar(tmp_path / "t.tar", {"q/a.py": "x = 1\n", ".cache/x.py": "", "r.txt": ""}, "w")
+    items = list(survey([root, tar], library=LIB))
+    shown = [(type(i).__name__, i.name if isinstance(i, Project) else os.path.relpath(i.where, tmp_path))
+             for i in items]
+    # A folder root lists its children in name order; a tar root in archive order.
+    assert shown == [("NotAProject", "root/NOTES.md"), ("Project", "b"), ("Project", "q"),
+                     ("NotAProject", "t.tar!.cache/x.py"), ("NotAProject", "t.tar!r.txt")]
+    assert all(i.reason for i in items if isinstance(i, NotAProject))
+    ignored: list[tuple[str, str]] = []
+    assert [p.name for p in discover([root, tar], library=LIB, ignored=ignored)] == ["b", "q"]
+    assert ignored == [(i.where, i.reason) for i in items if isinstance(i, NotAProject)]
 
 
 def test_wheels_in_a_folder_are_projects(tmp_path: Path) -> None:

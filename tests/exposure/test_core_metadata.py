@@ -4,7 +4,14 @@ from __future__ import annotations
 
 from packaging.specifiers import SpecifierSet
 
-from impactscope.exposure import DeclaredPython, Exposure, Manifests, classify, environment_for_python, read_manifests
+from impactscope.exposure import (
+    DeclaredPython,
+    Exposure,
+    Manifests,
+    classify,
+    environment_for_python,
+    read_manifests,
+)
 
 from .helpers import PY312, WHEEL_METADATA, metadata, one
 

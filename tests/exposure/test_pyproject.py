@@ -2,7 +2,14 @@
 
 from __future__ import annotations
 
-from impactscope.exposure import Exposure, Manifests, classify, declared_requirements, environment_for_python, read_manifests
+from impactscope.exposure import (
+    Exposure,
+    Manifests,
+    classify,
+    declared_requirements,
+    environment_for_python,
+    read_manifests,
+)
 
 from .helpers import PY312, one
 

@@ -4,7 +4,13 @@ from __future__ import annotations
 
 from packaging.specifiers import SpecifierSet
 
-from impactscope.exposure import Exposure, classify, declared_requirements, environment_for_python, read_manifests
+from impactscope.exposure import (
+    Exposure,
+    classify,
+    declared_requirements,
+    environment_for_python,
+    read_manifests,
+)
 
 from .helpers import PY312, one
 

@@ -6,7 +6,14 @@ import pytest
 from packaging.specifiers import SpecifierSet
 from packaging.version import Version
 
-from impactscope.exposure import Declared, DeclaredPython, Exposure, ExposureError, classify, environment_for_python
+from impactscope.exposure import (
+    Declared,
+    DeclaredPython,
+    Exposure,
+    ExposureError,
+    classify,
+    environment_for_python,
+)
 
 from .helpers import PY312, spec
 

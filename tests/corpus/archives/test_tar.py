@@ -11,7 +11,17 @@ import pytest
 
 from impactscope.corpus.roots import Entry, EntryError, Limits, discover
 
-from ..helpers import LIB, SDIST_FILES, _bytes, listing, projects, tar_bytes, tar_members, write_tar, write_zip
+from ..helpers import (
+    LIB,
+    SDIST_FILES,
+    _bytes,
+    listing,
+    projects,
+    tar_bytes,
+    tar_members,
+    write_tar,
+    write_zip,
+)
 
 
 def test_truncated_tar_keeps_what_was_read(tmp_path: Path) -> None:
