@@ -25,6 +25,8 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Literal
 
+from impactscope.corpus import lexer
+from impactscope.corpus.lexer import Token
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.errors import InputError
 
@@ -455,77 +457,39 @@ def _continues(text: str) -> bool:
     """Whether Python text ends inside brackets, a triple-quoted string or a
     backslash continuation, so that the next line does not start a statement."""
     depth = 0
-    for match in _TOKEN.finditer(text):
-        kind, chunk = match.lastgroup, match.group()
-        if kind == "other" and chunk in "'\"":
+    for token in lexer.tokens(text):
+        if token.kind == lexer.OPEN_STRING:
             return True  # a quote that opens no complete string: one still open
-        if kind == "op" and chunk in _OPEN:
-            depth += 1
-        elif kind == "op" and chunk in _CLOSE:
-            depth = max(depth - 1, 0)
+        if token.kind == lexer.OP and token.text in _OPEN:
+            depth = token.depth + 1
+        elif token.kind == lexer.OP and token.text in _CLOSE:
+            depth = max(token.depth - 1, 0)
     return depth > 0 or text.endswith("\\")
 
 
 # --------------------------------------------------------------------- Python 2
 
-# A small lexer rather than `tokenize`: from Python 3.12 `tokenize` stops at
-# the first token the 3.x grammar rejects, and those tokens are the evidence.
-_TOKEN = re.compile(
-    r"""
-    (?P<space>[ \t\f]+|\\\r?\n|\\\r)
-  | (?P<comment>\#[^\r\n]*)
-  | (?P<newline>\r\n|\r|\n)
-  | (?P<string>(?P<prefix>[rRbBuUfF]{0,2})
-        (?:'''(?:\\.|[^\\])*?'''|\"\"\"(?:\\.|[^\\])*?\"\"\"
-          |'(?:\\.|[^\\'\r\n])*'|"(?:\\.|[^\\"\r\n])*"))
-  | (?P<number>
-        0[xX](?:_?[0-9a-fA-F])+[lL]?
-      | 0[oO](?:_?[0-7])+
-      | 0[bB](?:_?[01])+
-      | (?:\d(?:_?\d)*(?:\.(?:\d(?:_?\d)*)?)?|\.\d(?:_?\d)*)(?:[eE][-+]?\d(?:_?\d)*)?[jJlL]?)
-  | (?P<name>[^\W\d]\w*)
-  | (?P<op>\*\*=?|//=?|>>=?|<<=?|<>|->|:=|\.\.\.|[-+*/%&|^@=!<>]=?|[~()\[\]{},:;.`])
-  | (?P<other>.)
-    """,
-    re.VERBOSE | re.DOTALL,
-)
+# The tokens come from the lexer the token-level reading uses (`corpus.lexer`): `tokenize` stops
+# at the first token the 3.x grammar rejects, and those tokens are the evidence.
 _OPEN, _CLOSE = frozenset("([{"), frozenset(")]}")
 _PY2_OCTAL = re.compile(r"0[0-7]*[1-7][0-7]*[lL]?")
+_STRING_PREFIX_LETTERS = "rRbBuUfF"
 
 
-@dataclass(frozen=True)
-class _Token:
-    kind: str
-    text: str
-    depth: int  # bracket depth before the token
-
-
-def _logical_lines(text: str) -> Iterator[list[_Token]]:
-    line: list[_Token] = []
-    depth = 0
-    for match in _TOKEN.finditer(text):
-        kind = match.lastgroup
-        assert kind is not None
-        if kind in ("space", "comment"):
-            continue
-        if kind == "newline":
-            if depth == 0 and line:
+def _logical_lines(text: str) -> Iterator[list[Token]]:
+    line: list[Token] = []
+    for token in lexer.tokens(text):
+        if token.kind == lexer.NEWLINE:
+            if line:
                 yield line
                 line = []
-            continue
-        token_text = match.group(kind)
-        if kind == "string":
-            token_text = match.group("prefix")  # only the prefix matters
-        line.append(_Token(kind, token_text, depth))
-        if kind == "op" and token_text in _OPEN:
-            depth += 1
-        elif kind == "op" and token_text in _CLOSE:
-            depth = max(depth - 1, 0)
+        else:
+            line.append(token)
     if line:
         yield line
 
 
-def _statements(line: list[_Token]) -> Iterator[list[_Token]]:
+def _statements(line: list[Token]) -> Iterator[list[Token]]:
     """Split a logical line at top-level `;` and `:` (so `if x: print y` splits)."""
     start = 0
     for index, token in enumerate(line):
@@ -536,7 +500,7 @@ def _statements(line: list[_Token]) -> Iterator[list[_Token]]:
         yield line[start:]
 
 
-def _is_operand(token: _Token) -> bool:
+def _is_operand(token: Token) -> bool:
     """A token that cannot follow a bare name in Python 3 (`print x`, `exec "s"`)."""
     if token.kind in ("string", "number"):
         return True
@@ -545,11 +509,11 @@ def _is_operand(token: _Token) -> bool:
     return token.kind == "op" and token.text == "`"
 
 
-def _top_level_comma(tokens: list[_Token]) -> bool:
+def _top_level_comma(tokens: list[Token]) -> bool:
     return any(t.kind == "op" and t.text == "," and t.depth == 0 for t in tokens)
 
 
-def _python2_statement(tokens: list[_Token]) -> bool:
+def _python2_statement(tokens: list[Token]) -> bool:
     head = tokens[0]
     if head.kind != "name":
         return False
@@ -560,9 +524,9 @@ def _python2_statement(tokens: list[_Token]) -> bool:
     return False
 
 
-def _python2_token(token: _Token, flufl: bool) -> bool:
-    if token.kind == "string":
-        return token.text.lower() == "ur"
+def _python2_token(token: Token, flufl: bool) -> bool:
+    if token.kind == lexer.STRING:
+        return token.text[: len(token.text) - len(token.text.lstrip(_STRING_PREFIX_LETTERS))].lower() == "ur"
     if token.kind == "number":
         return token.text[-1] in "lL" or _PY2_OCTAL.fullmatch(token.text) is not None
     if token.kind == "op":

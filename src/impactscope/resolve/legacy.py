@@ -23,6 +23,8 @@ from __future__ import annotations
 from collections.abc import Collection
 from dataclasses import dataclass
 
+from impactscope.corpus import lexer
+from impactscope.corpus.lexer import NAME, NEWLINE, OP, Token
 from impactscope.errors import InputError
 
 __all__ = ["LegacyError", "LegacyHit", "legacy_hits"]
@@ -49,173 +51,24 @@ class LegacyHit:
     dotted: str
 
 
-# --- scanning ---------------------------------------------------------------------------------
-
-_NAME, _OP, _STRING, _NUMBER, _NEWLINE = "name", "op", "string", "number", "newline"
-
-# String prefixes of Python 2 and 3, compared in lower case: u'', r'', b'', ur'', br'', rb'', f''.
-_STRING_PREFIXES = frozenset({"r", "u", "b", "f", "br", "rb", "ur", "fr", "rf"})
-_OPS3 = frozenset({"**=", "//=", ">>=", "<<=", "..."})
-_OPS2 = frozenset(
-    {"==", "!=", "<>", "<=", ">=", "**", "//", "<<", ">>", "->", "+=", "-=", "*=", "/=", "%=",
-     "&=", "|=", "^=", "@=", ":="}
-)
-_OPENERS, _CLOSERS = frozenset("([{"), frozenset(")]}")
-
-
-@dataclass(frozen=True)
-class _Token:
-    kind: str
-    text: str
-    line: int
-    column: int
-
-
-class _Scanner:
-    """Splits source text into names, operators, literals and logical-line ends.
-
-    Never raises: an unterminated string ends at its line end (or at the end of the text for a
-    triple-quoted one), and any unknown character becomes a one-character operator.
-    """
-
-    def __init__(self, text: str) -> None:
-        self.text = text
-        self.pos = 1 if text.startswith("\ufeff") else 0
-        self.line = 1
-        self.line_start = self.pos
-        self.depth = 0
-        self.tokens: list[_Token] = []
-
-    def _newline_length(self, at: int) -> int:
-        if self.text.startswith("\r\n", at):
-            return 2
-        return 1 if at < len(self.text) and self.text[at] in "\r\n" else 0
-
-    def _advance_line(self, after: int) -> None:
-        self.line += 1
-        self.line_start = after
-
-    def _emit(self, kind: str, start: int, end: int, line: int, column: int) -> None:
-        self.tokens.append(_Token(kind, self.text[start:end], line, column))
-
-    def scan(self) -> list[_Token]:
-        text, n = self.text, len(self.text)
-        while self.pos < n:
-            i = self.pos
-            c = text[i]
-            if c in " \t\f\v":
-                self.pos += 1
-            elif c == "\\" and self._newline_length(i + 1):
-                step = self._newline_length(i + 1)
-                self.pos = i + 1 + step
-                self._advance_line(self.pos)  # explicit line joining
-            elif c in "\r\n":
-                self.pos = i + self._newline_length(i)
-                if self.depth == 0 and self.tokens and self.tokens[-1].kind != _NEWLINE:
-                    self.tokens.append(_Token(_NEWLINE, "\n", self.line, i - self.line_start))
-                self._advance_line(self.pos)
-            elif c == "#":
-                while self.pos < n and text[self.pos] not in "\r\n":
-                    self.pos += 1
-            elif c.isalpha() or c == "_" or (c > "\x7f" and c.isidentifier()):
-                j = i + 1
-                while j < n and (text[j].isalnum() or text[j] == "_"):
-                    j += 1
-                if j < n and text[j] in "'\"" and text[i:j].lower() in _STRING_PREFIXES:
-                    self._string(i, j)
-                else:
-                    self._emit(_NAME, i, j, self.line, i - self.line_start)
-                    self.pos = j
-            elif c in "'\"":
-                self._string(i, i)
-            elif c.isdigit() or (c == "." and i + 1 < n and text[i + 1].isdigit()):
-                self._number(i)
-            else:
-                self._operator(i)
-        return self.tokens
-
-    def _string(self, start: int, quote_at: int) -> None:
-        text, n = self.text, len(self.text)
-        line, column = self.line, start - self.line_start
-        quote = text[quote_at]
-        triple = text.startswith(quote * 3, quote_at)
-        k = quote_at + (3 if triple else 1)
-        while k < n:
-            c = text[k]
-            if c == "\\":
-                # A backslash escapes the next character even in raw strings, as far as finding
-                # the end goes (r'\'' is one string); an escaped newline still ends a line.
-                step = self._newline_length(k + 1)
-                if step:
-                    k += 1 + step
-                    self._advance_line(k)
-                else:
-                    k += 2
-            elif triple and text.startswith(quote * 3, k):
-                k += 3
-                break
-            elif not triple and c == quote:
-                k += 1
-                break
-            elif c in "\r\n":
-                if not triple:
-                    break  # unterminated: the line end closes it
-                k += self._newline_length(k)
-                self._advance_line(k)
-            else:
-                k += 1
-        self._emit(_STRING, start, min(k, n), line, column)
-        self.pos = min(k, n)
-
-    def _number(self, start: int) -> None:
-        text, n = self.text, len(self.text)
-        k = start + 1
-        hexadecimal = text.startswith(("0x", "0X"), start)
-        while k < n:
-            c = text[k]
-            if c.isalnum() or c in "._":
-                k += 1
-            elif c in "+-" and text[k - 1] in "eE" and not hexadecimal:
-                k += 1
-            else:
-                break
-        self._emit(_NUMBER, start, k, self.line, start - self.line_start)
-        self.pos = k
-
-    def _operator(self, start: int) -> None:
-        text = self.text
-        for width, table in ((3, _OPS3), (2, _OPS2)):
-            if text[start:start + width] in table:
-                break
-        else:
-            width = 1
-            c = text[start]
-            if c in _OPENERS:
-                self.depth += 1
-            elif c in _CLOSERS:
-                self.depth = max(0, self.depth - 1)
-        self._emit(_OP, start, start + width, self.line, start - self.line_start)
-        self.pos = start + width
-
-
 # --- imports and hits -------------------------------------------------------------------------
 
 
-def _is_op(tokens: list[_Token], k: int, text: str) -> bool:
-    return 0 <= k < len(tokens) and tokens[k].kind == _OP and tokens[k].text == text
+def _is_op(tokens: list[Token], k: int, text: str) -> bool:
+    return 0 <= k < len(tokens) and tokens[k].kind == OP and tokens[k].text == text
 
 
-def _is_name(tokens: list[_Token], k: int, text: str | None = None) -> bool:
-    return 0 <= k < len(tokens) and tokens[k].kind == _NAME and (text is None or tokens[k].text == text)
+def _is_name(tokens: list[Token], k: int, text: str | None = None) -> bool:
+    return 0 <= k < len(tokens) and tokens[k].kind == NAME and (text is None or tokens[k].text == text)
 
 
-def _statement_end(tokens: list[_Token], k: int) -> int:
-    while k < len(tokens) and tokens[k].kind != _NEWLINE and not _is_op(tokens, k, ";"):
+def _statement_end(tokens: list[Token], k: int) -> int:
+    while k < len(tokens) and tokens[k].kind != NEWLINE and not _is_op(tokens, k, ";"):
         k += 1
     return k
 
 
-def _dotted(tokens: list[_Token], k: int, end: int) -> tuple[list[int], int]:
+def _dotted(tokens: list[Token], k: int, end: int) -> tuple[list[int], int]:
     """Indices of the names of a dotted module path starting at `k`, and the index after it."""
     parts: list[int] = []
     while k < end and _is_name(tokens, k):
@@ -241,7 +94,7 @@ class _Imports:
     def is_library(self, module: str) -> bool:
         return module == self.library or module.startswith(self.library + ".")
 
-    def path_hits(self, tokens: list[_Token], parts: list[int]) -> None:
+    def path_hits(self, tokens: list[Token], parts: list[int]) -> None:
         """Hits on the components of an imported library module path (`import lib.io`)."""
         for position in range(1, len(parts)):
             token = tokens[parts[position]]
@@ -249,10 +102,10 @@ class _Imports:
                 dotted = ".".join(tokens[p].text for p in parts[: position + 1])
                 self.hits.append(LegacyHit(token.line, token.column, token.text, dotted))
 
-    def read(self, tokens: list[_Token]) -> None:
+    def read(self, tokens: list[Token]) -> None:
         k = 0
         while k < len(tokens):
-            starts_statement = k == 0 or tokens[k - 1].kind == _NEWLINE or _is_op(tokens, k - 1, ";") or _is_op(tokens, k - 1, ":")
+            starts_statement = k == 0 or tokens[k - 1].kind == NEWLINE or _is_op(tokens, k - 1, ";") or _is_op(tokens, k - 1, ":")
             if starts_statement and _is_name(tokens, k, "import"):
                 k = self._import(tokens, k)
             elif starts_statement and _is_name(tokens, k, "from"):
@@ -260,7 +113,7 @@ class _Imports:
             else:
                 k += 1
 
-    def _import(self, tokens: list[_Token], k: int) -> int:
+    def _import(self, tokens: list[Token], k: int) -> int:
         end = _statement_end(tokens, k)
         self.statement_tokens.update(range(k, end))
         j = k + 1
@@ -278,11 +131,11 @@ class _Imports:
             j += 1
         return end
 
-    def _from_import(self, tokens: list[_Token], k: int) -> int:
+    def _from_import(self, tokens: list[Token], k: int) -> int:
         end = _statement_end(tokens, k)
         j = k + 1
         relative = False
-        while j < end and tokens[j].kind == _OP and tokens[j].text in (".", "..."):
+        while j < end and tokens[j].kind == OP and tokens[j].text in (".", "..."):
             relative = True
             j += 1
         parts, j = _dotted(tokens, j, end)
@@ -316,11 +169,17 @@ class _Imports:
 _DEFINERS = frozenset({"def", "class"})
 
 
-def _chain(tokens: list[_Token], k: int) -> str:
+# Links of a chain read back from a hit: every `.name` of a chain is looked at, so reading each
+# one's chain whole would be quadratic (100,000 links took minutes). A longer chain is read as
+# rooted in an expression (`?.name`), which is what its pattern shows anyway.
+_CHAIN_LINKS = 32
+
+
+def _chain(tokens: list[Token], k: int) -> str:
     """The dotted identifier chain written before and ending at the name at index `k`."""
     parts = [tokens[k].text]
     j = k - 1
-    while _is_op(tokens, j, ".") and _is_name(tokens, j - 1):
+    while _is_op(tokens, j, ".") and _is_name(tokens, j - 1) and len(parts) < _CHAIN_LINKS:
         parts.append(tokens[j - 1].text)
         j -= 2
     dotted = ".".join(reversed(parts))
@@ -339,14 +198,14 @@ def legacy_hits(text: str, library: str, names: Collection[str]) -> tuple[Legacy
     for name in wanted:
         if not isinstance(name, str) or not name.isidentifier():
             raise LegacyError(f"names must be plain identifiers (a.b.c gives c), got {name!r}")
-    tokens = _Scanner(text).scan()
+    tokens = lexer.tokens(text)
     imports = _Imports(library, wanted)
     imports.read(tokens)
     if not imports.imports_library:
         return ()
     hits = set(imports.hits)
     for k, token in enumerate(tokens):
-        if token.kind != _NAME or k in imports.statement_tokens:
+        if token.kind != NAME or k in imports.statement_tokens:
             continue
         if _is_op(tokens, k - 1, "."):
             if token.text in wanted:
@@ -355,7 +214,7 @@ def legacy_hits(text: str, library: str, names: Collection[str]) -> tuple[Legacy
         member = imports.bare.get(token.text)
         if member is None:
             continue
-        if (k > 0 and tokens[k - 1].kind == _NAME and tokens[k - 1].text in _DEFINERS) or _is_op(tokens, k + 1, "="):
+        if (k > 0 and tokens[k - 1].kind == NAME and tokens[k - 1].text in _DEFINERS) or _is_op(tokens, k + 1, "="):
             continue  # a definition, an assignment to the name, or a keyword argument
         hits.add(LegacyHit(token.line, token.column, member, token.text))
     return tuple(sorted(hits))
