@@ -49,7 +49,13 @@ def test_a_section_per_change_with_its_measured_share(scanned_demo_corpus) -> No
         change = by_id[order[list(sections).index(heading)]]
         facts = dict(line[2:].split(": ", 1) for line in lines if line.startswith("- "))
         assert facts["Member"] == f"`{change['member']}`"
-        assert facts["Replacement"] == (f"`{change['replacement']}`" if change["replacement"] else "none")
+        if change["replacement"]:
+            assert facts["Replacement"] == f"`{change['replacement']}`"
+        elif change["new_parameter"]:
+            assert facts["Replacement"] == f"the parameter `{change['new_parameter']}` for `{change['parameter']}`"
+        else:
+            assert facts["Replacement"] == "none"
+        assert facts.get("Parameter") == (f"`{change['parameter']}`" if change["parameter"] else None)
         assert facts["Deprecated since"] == (change["deprecated_in"] or "not deprecated before this release")
         share = change["share"]
         proven = share["resolved"]
@@ -96,6 +102,9 @@ def test_towncrier_fragments_one_file_per_change(scanned_demo_corpus, model: Rep
     assert text.startswith(f"`{change.member}` is removed; use `{change.replacement}` instead. Deprecated since 2.4. "
                            f"Measured: {change.projects.resolved} of the ")
     assert text.endswith(".\n") and text.count("\n") == 1
+    # The demo's HF-5 renames pivot's `fill` to `fill_value` (src/impactscope/demo/changes.toml).
+    assert (out / "HF-5.removal").read_text(encoding="utf-8").startswith(
+        "`heronframe.Table.pivot`, parameter `fill`, is renamed; use the parameter `fill_value` for `fill` instead. ")
     again = runner.invoke(app, ["report", str(scanned_demo_corpus.results), "--format", "towncrier", "--output", str(out)])
     assert again.exit_code == 0 and sorted(p.name for p in out.iterdir()) == names  # rewritten in place
 

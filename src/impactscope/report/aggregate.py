@@ -86,6 +86,8 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
                 weighted_share=sizing.weighted_share,
                 sites_by_level=PerLevel.build(lambda level: int((rows["confidence"] >= int(level)).sum())),
                 deprecated_in=str(change.deprecated_in) if change.deprecated_in is not None else None,
+                parameter=change.parameter,
+                new_parameter=change.new_parameter,
             )
         )
     low = {c.id for c in changes.changes if c.uncertain}

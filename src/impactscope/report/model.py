@@ -167,6 +167,8 @@ class ChangeReport:
     # asks first how many uses are proven.
     sites_by_level: PerLevel[int] = PerLevel(0, 0, 0)
     deprecated_in: str | None = None  # the change list's `deprecated_in`, as PEP 440 prints it
+    parameter: str | None = None  # the parameter a parameter change is about
+    new_parameter: str | None = None  # its new name, for a renamed parameter
 
     @property
     def low_certainty(self) -> bool:
@@ -181,6 +183,7 @@ class ChangeReport:
             "share": self.share.to_json(), "exposure": self.exposure.to_json(),
             "projects_fork_collapsed": self.projects_fork_collapsed.to_json(), "legacy_sites": self.legacy_sites,
             "sites_by_level": self.sites_by_level.to_json(), "deprecated_in": self.deprecated_in,
+            "parameter": self.parameter, "new_parameter": self.new_parameter,
         }
         if self.weighted_share is not None:
             out["weighted_share"] = self.weighted_share.to_json()
@@ -195,7 +198,7 @@ class ChangeReport:
             tuple(PatternRow.from_json(p) for p in data["patterns"]), Share.from_json(data["share"]),
             ExposureCounts.from_json(data["exposure"]), PerLevel.from_json(data["projects_fork_collapsed"]),
             data["legacy_sites"], WeightedShare.from_json(weighted) if weighted is not None else None,
-            PerLevel.from_json(data["sites_by_level"]), data["deprecated_in"],
+            PerLevel.from_json(data["sites_by_level"]), data["deprecated_in"], data["parameter"], data["new_parameter"],
         )
 
 

@@ -67,12 +67,21 @@ def _rewrite(report: Report, change: ChangeReport) -> str:
             "change list, writes a patch for the proven uses and lists the rest for review")
 
 
+def _replacement(change: ChangeReport) -> str:
+    if change.replacement:
+        return f"`{change.replacement}`"
+    if change.parameter and change.new_parameter:
+        return f"the parameter `{change.new_parameter}` for `{change.parameter}`"
+    return "none"
+
+
 def _facts(report: Report, change: ChangeReport) -> list[tuple[str, str]]:
-    return [
-        ("Member", f"`{change.member}`"),
-        ("Change", KIND_WORDS[change.kind]),
+    facts = [("Member", f"`{change.member}`"), ("Change", KIND_WORDS[change.kind])]
+    if change.parameter:
+        facts.append(("Parameter", f"`{change.parameter}`"))
+    return facts + [
         ("Deprecated since", change.deprecated_in or "not deprecated before this release"),
-        ("Replacement", f"`{change.replacement}`" if change.replacement else "none"),
+        ("Replacement", _replacement(change)),
         ("Measured", _measured(report, change)),
         ("Exposure", _exposure(report, change)),
         ("Rewrite", _rewrite(report, change)),
@@ -101,9 +110,13 @@ def fragment_name(change: ChangeReport) -> str:
 
 
 def fragment_text(report: Report, change: ChangeReport) -> str:
-    what = f"`{change.member}` is {KIND_WORDS[change.kind]}"
-    if change.replacement:
-        what += f"; use `{change.replacement}` instead"
+    kind = KIND_WORDS[change.kind]
+    if change.parameter:  # "`Table.pivot`, parameter `fill`, is renamed"
+        what = f"`{change.member}`, parameter `{change.parameter}`, is {kind.removeprefix('parameter ')}"
+    else:
+        what = f"`{change.member}` is {kind}"
+    if _replacement(change) != "none":
+        what += f"; use {_replacement(change)} instead"
     parts = [what + ".", f"Measured: {_measured(report, change)}.", f"Exposure: {_exposure(report, change)}."]
     if change.deprecated_in:
         parts.insert(1, f"Deprecated since {change.deprecated_in}.")
