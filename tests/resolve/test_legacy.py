@@ -193,3 +193,15 @@ def test_scanner_never_raises_and_positions_are_in_range(noise):
         assert hit.column >= 0
         assert hit.dotted.endswith(hit.name) or hit.name in {"a", "b", "T", "ab"}
         assert lines[hit.line - 1][hit.column:].startswith(hit.dotted.rsplit(".", 1)[-1])
+
+
+def test_a_chain_is_read_back_a_few_links_only():
+    """Every `.stack` of a 100,000-link chain is a hit; each is read back at most 8 links (reading
+    each whole was quadratic: minutes), past which the chain counts as rooted in an expression."""
+    text = "import heronframe\nheronframe" + ".stack" * 100_000 + "()\n"
+    hits = legacy_hits(text, "heronframe", {"stack"})
+    assert len(hits) == 100_000
+    assert hits[0] == LegacyHit(2, 11, "stack", "heronframe.stack")
+    assert hits[-1].dotted == ".stack" * 8
+    short = legacy_hits("import heronframe\nheronframe.a.b.c.d.e.f.stack()\n", "heronframe", {"stack"})
+    assert short == (LegacyHit(2, 23, "stack", "heronframe.a.b.c.d.e.f.stack"),)

@@ -172,7 +172,7 @@ _DEFINERS = frozenset({"def", "class"})
 # Links of a chain read back from a hit: every `.name` of a chain is looked at, so reading each
 # one's chain whole would be quadratic (100,000 links took minutes). A longer chain is read as
 # rooted in an expression (`?.name`), which is what its pattern shows anyway.
-_CHAIN_LINKS = 32
+_CHAIN_LINKS = 8
 
 
 def _chain(tokens: list[Token], k: int) -> str:
