@@ -60,7 +60,7 @@ def _inject(monkeypatch: pytest.MonkeyPatch, attempts: Path, *, kill_times: int 
 
     def stmt(self, node, scope):  # type: ignore[no-untyped-def]
         # The crashing file's third statement (line 3, `t.stack_rows(t)`) fails.
-        if self.path.endswith("crash.py") and node is self.top and "stack_rows" in cst.Module([]).code_for_node(node):
+        if self.path.endswith("crash.py") and node is self.at.top and "stack_rows" in cst.Module([]).code_for_node(node):
             raise RuntimeError("injected resolver fault")
         return real_stmt(self, node, scope)
 

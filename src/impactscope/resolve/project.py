@@ -141,10 +141,10 @@ class ProjectResolver:
                     fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
                     fa.result = None
                 except Exception as exc:  # noqa: BLE001 - a resolver bug costs this file, not its project
-                    module = next((m for index, _, m in fa.cells if index == evaluator.cell), None)
-                    line = statement_line(module, evaluator.top) if module is not None else None
+                    module = next((m for index, _, m in fa.cells if index == evaluator.at.cell), None)
+                    line = statement_line(module, evaluator.at.top) if module is not None else None
                     fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
-                    fa.detail = describe(exc, stage="resolver", line=line, cell=evaluator.cell)
+                    fa.detail = describe(exc, stage="resolver", line=line, cell=evaluator.at.cell)
                     fa.result = None
             self.files[path] = fa
             return fa
@@ -201,7 +201,7 @@ class ProjectResolver:
                     del self._evaluators[path]
                 except Exception as exc:  # noqa: BLE001 - a resolver bug costs this file, not its project
                     fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
-                    fa.detail = describe(exc, stage="resolver", cell=evaluator.cell)
+                    fa.detail = describe(exc, stage="resolver", cell=evaluator.at.cell)
                     fa.result, fa.findings = None, []
                     del self._evaluators[path]
             if not resumed:

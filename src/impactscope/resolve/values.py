@@ -3,9 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Union
+from typing import TYPE_CHECKING, Literal, Union
 
 import libcst as cst
+
+if TYPE_CHECKING:
+    from impactscope.resolve.scopes import Scope
+    from impactscope.resolve.walk import Walk
 
 
 @dataclass(frozen=True)
@@ -49,22 +53,27 @@ class ProjMod:
     name: str
 
 
+BodyState = Literal["pending", "running", "done"]  # done: its references are recorded
+
+
 @dataclass(eq=False)
 class UserFunc:
-    """A function defined in downstream code; its return value is inferred on first use."""
+    """A function defined in downstream code; its return value is inferred on first use.
 
-    node: cst.FunctionDef | cst.Lambda
-    scope: "object"  # the defining Scope (kept opaque to avoid an import cycle)
+    The walk updates the fields below `home` as it reads the body and the calls."""
+
+    node: cst.FunctionDef
+    scope: "Scope"  # the defining scope
     owner: "UserClass | None" = None
     kind: str = "function"  # function | method | classmethod | staticmethod | property
     cell: int | None = None  # the notebook cell that defines it: its body's references belong there
-    home: object = None  # the module evaluator that defines it: only that one records its body
-    top: object = None  # the top-level statement holding its definition (for positions)
-    state: str = "pending"  # pending | running | done (done: its references are recorded)
-    top_runs: int = 0  # recorded runs for calls from module level, each with that moment's bindings
-    returns: "Value" = None  # type: ignore[assignment]  # None until a first reading infers it
+    top: cst.CSTNode | None = None  # the top-level statement holding its definition (for positions)
     declared: dict[str, "Value"] = field(default_factory=dict)  # parameters' annotated types
     returns_decl: "Value | None" = None  # the return annotation's type
+    home: "Walk | None" = None  # the module walk that defines it: only that one records its body
+    state: BodyState = "pending"
+    top_runs: int = 0  # recorded runs for calls from module level, each with that moment's bindings
+    returns: "Value | None" = None  # None until a first reading infers it
     # What parameters are known to receive: defaults and the arguments of calls read so far,
     # joined (a library value wins, as in `join`: the use breaks for the calls that pass one).
     passed: dict[str, "Value"] = field(default_factory=dict)

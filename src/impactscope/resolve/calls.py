@@ -1,0 +1,125 @@
+"""Calls: what calling a value gives (the library's declared returns, built-in results, a user
+class's instance, a user function's inferred return), and the shape a call passes its arguments in."""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+import libcst as cst
+
+from impactscope.resolve.definitions import note_arguments
+from impactscope.resolve.refs import CallShape
+from impactscope.resolve.scopes import Scope
+from impactscope.resolve.values import (
+    UNKNOWN,
+    Foreign,
+    Inst,
+    Lib,
+    OneOf,
+    Super,
+    UserClass,
+    UserFunc,
+    UserInst,
+    Value,
+)
+from impactscope.resolve.walk import Walk
+
+# Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
+_NOT_LIBRARY = "?"
+# Built-in callables whose result is a built-in object whatever the arguments (the Python Library
+# Reference, "Built-in Functions" and "Built-in Types"). Not `abs`, `round`, `sum`, `min`, `max`,
+# `next`, `getattr`, `iter`, `copy`: they hand back what an argument's own methods return.
+_BUILTIN_RESULTS = frozenset(
+    f"builtins.{name}"
+    for name in (
+        "list", "dict", "set", "frozenset", "tuple", "str", "bytes", "bytearray", "int", "float",
+        "complex", "bool", "range", "len", "repr", "ascii", "sorted", "enumerate", "zip", "map",
+        "filter", "reversed", "open", "isinstance", "issubclass", "hasattr", "callable", "id",
+        "hash", "format", "chr", "ord", "hex", "oct", "bin", "input", "print", "dir", "vars",
+        "object", "memoryview", "slice",
+    )
+)
+
+
+class Calls(Walk):
+    def call(self, node: cst.Call, scope: Scope) -> Value:
+        # The references the callee itself yields carry the call's shape (patterns show it).
+        func = self.expr(node.func, scope, call=call_shape(node.args))
+        values = [self.expr(arg.value, scope) for arg in node.args]
+        if isinstance(func, UserFunc):
+            note_arguments(func, node, values)
+        if isinstance(func, Foreign) and func.name in ("importlib.import_module", "builtins.__import__"):
+            return self.dynamic_import(node, func.name)
+        if isinstance(func, Foreign) and func.name == "builtins.type" and len(node.args) == 1 and not node.args[0].star:
+            of = self.expr(node.args[0].value, scope, record=False)
+            if isinstance(of, Inst):
+                return Lib(of.cls)
+            if isinstance(of, UserInst):
+                return of.cls
+            return UNKNOWN
+        if isinstance(func, Foreign) and func.name == "builtins.super":
+            owner = scope.method_owner()
+            return Super(owner) if owner is not None else UNKNOWN
+        if isinstance(func, Foreign) and func.name in _BUILTIN_RESULTS:
+            # `list()`, `dict(x)`, `len(x)`: the Language Reference's built-in types and functions
+            # return what they are documented to, whatever they are given.
+            return Foreign(f"{func.name}()")
+        if isinstance(func, UserFunc):
+            return self.call_user(func, scope)
+        if isinstance(func, UserClass):
+            # Instantiating runs __init__: from module level, with that moment's bindings, so the
+            # attributes it sets are known to methods called on the instance afterwards.
+            init = func.lookup("__init__")
+            if isinstance(init, UserFunc):
+                self.call_user(init, scope)
+        return self.call_result(func)
+
+    def call_result(self, func: Value) -> Value:
+        if isinstance(func, Lib):
+            returned = self.q.model.returns(func.name)
+            if returned is not None:
+                return Inst(returned)
+            if self.q.model.is_class(func.name):
+                return Inst(func.name)
+            outcomes = self.q.model.returns_all(func.name)
+            if len(outcomes) == 1:
+                # One library class among outcomes that do not agree: the others are not the
+                # library's (`read_excel` gives a DataFrame, or a dict of them).
+                return OneOf((outcomes[0], _NOT_LIBRARY))
+            return instance_of(outcomes)
+        if isinstance(func, OneOf) and func.member:
+            outcomes: list[str] = []
+            for cls in func.classes:
+                dotted = f"{cls}.{func.member}"
+                if cls != _NOT_LIBRARY and self.q.model.knows_kinds and self.q.model.kind(dotted) is None:
+                    continue  # that class has no such member: the code runs only on the others
+                # An alternative that gives no library class keeps the outcome open.
+                outcomes.extend(self.q.model.returns_all(dotted) or (_NOT_LIBRARY,))
+            found = tuple(dict.fromkeys(outcomes))
+            return UNKNOWN if found == (_NOT_LIBRARY,) else instance_of(found)
+        if isinstance(func, UserClass):
+            return UserInst(func)
+        if isinstance(func, UserFunc):
+            return self.returns_of(func)
+        return UNKNOWN
+
+
+def call_shape(args: Sequence[cst.Arg]) -> CallShape:
+    positional = 0
+    star = starstar = False
+    keywords: list[str] = []
+    for arg in args:
+        if arg.star == "**":
+            starstar = True
+        elif arg.star == "*":
+            star = True
+        elif arg.keyword is not None:
+            keywords.append(arg.keyword.value)
+        elif not star:
+            positional += 1
+    return CallShape(positional=positional, star=star, starstar=starstar, keywords=tuple(sorted(keywords)))
+
+def instance_of(classes: tuple[str, ...]) -> Value:
+    if not classes:
+        return UNKNOWN
+    return Inst(classes[0]) if len(classes) == 1 else OneOf(classes)

@@ -1,0 +1,236 @@
+"""Expressions: names, attribute chains, subscripts, literals, comprehensions and lambdas, each
+to the value it is known to be; references to the library are collected on the way."""
+
+from __future__ import annotations
+
+import libcst as cst
+
+from impactscope.resolve.calls import instance_of
+from impactscope.resolve.definitions import all_params
+from impactscope.resolve.receivers import Receiver, ThroughSuper
+from impactscope.resolve.refs import CallShape
+from impactscope.resolve.scopes import Scope
+from impactscope.resolve.values import (
+    UNKNOWN,
+    Foreign,
+    Inst,
+    Lib,
+    OneOf,
+    ProjMod,
+    Super,
+    Tup,
+    UserClass,
+    UserFunc,
+    UserInst,
+    Value,
+    join,
+)
+from impactscope.resolve.walk import Walk
+
+
+class Expressions(Walk):
+    def expr(
+        self, node: cst.BaseExpression, scope: Scope, record: bool = True, context: str = "use",
+        call: CallShape | None = None,
+    ) -> Value:
+        """The value of `node`. `call` is given when `node` is called: the references it yields
+        itself (not those of its receiver or arguments) record how."""
+        if isinstance(node, cst.Name):
+            return self._name(node, scope, record, context, call)
+        if isinstance(node, cst.Attribute):
+            inner_chain = isinstance(node.value, (cst.Name, cst.Attribute))
+            receiver = self.expr(node.value, scope, record=not inner_chain)
+            return self.attribute_ref(node, receiver, scope, record, context, call)
+        if isinstance(node, cst.Call):
+            return self.call(node, scope)
+        if isinstance(node, (cst.SimpleString, cst.Integer, cst.Float, cst.Imaginary, cst.Ellipsis)):
+            return Foreign("literal")
+        if isinstance(node, cst.Tuple) and not any(isinstance(el, cst.StarredElement) for el in node.elements):
+            return Tup(tuple(self.expr(el.value, scope) for el in node.elements))
+        if isinstance(node, cst.ConcatenatedString):
+            # A chain `'a' 'b' 'c' ...` nests one node per part: walked in a loop, not recursively,
+            # or a long one (pydoc_data/topics.py has hundreds of parts) exhausts the stack.
+            part: cst.BaseExpression = node
+            while isinstance(part, cst.ConcatenatedString):
+                if isinstance(part.left, cst.FormattedString):
+                    self.generic(part.left, scope)
+                part = part.right
+            if isinstance(part, cst.FormattedString):
+                self.generic(part, scope)
+            return Foreign("literal")
+        if isinstance(node, (cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
+            self.generic(node, scope)
+            return Foreign("literal")
+        if isinstance(node, (cst.ListComp, cst.SetComp, cst.DictComp, cst.GeneratorExp)):
+            self.comprehension(node, scope)
+            return Foreign("literal")
+        if isinstance(node, cst.Lambda):
+            self.lambda_expr(node, scope)
+            return Foreign("lambda")
+        if isinstance(node, cst.Subscript):
+            return self.subscript(node, scope)
+        if isinstance(node, cst.IfExp):
+            self.expr(node.test, scope)
+            return join(self.expr(node.body, scope), self.expr(node.orelse, scope))
+        if isinstance(node, cst.BooleanOperation):
+            return join(self.expr(node.left, scope), self.expr(node.right, scope))
+        if isinstance(node, cst.NamedExpr):
+            value = self.expr(node.value, scope)
+            target_scope = scope
+            while target_scope.kind == "comprehension" and target_scope.parent is not None:
+                target_scope = target_scope.parent
+            self.assign(node.target, value, target_scope)
+            return value
+        self.generic(node, scope)
+        return UNKNOWN
+
+    def subscript(self, node: cst.Subscript, scope: Scope) -> Value:
+        """`x[key]`: for a library instance, what the library's `__getitem__` is typed to return
+        (column selection, `.loc[...]` indexers); anything else is not known."""
+        receiver = self.expr(node.value, scope)
+        for element in node.slice:
+            self.generic(element, scope)
+        if isinstance(receiver, Inst):
+            typed = self.q.model.returns(f"{receiver.cls}.__getitem__")
+            if typed is not None:
+                return Inst(typed)
+            return instance_of(self.q.model.returns_all(f"{receiver.cls}.__getitem__"))
+        if isinstance(receiver, Tup) and len(node.slice) == 1 and isinstance(node.slice[0].slice, cst.Index):
+            key = node.slice[0].slice.value
+            if isinstance(key, cst.Integer) and int(key.value, 0) < len(receiver.items):
+                return receiver.items[int(key.value, 0)]
+        return UNKNOWN
+
+    def _name(self, node: cst.Name, scope: Scope, record: bool, context: str, call: CallShape | None) -> Value:
+        if node.value == "None":
+            return UNKNOWN  # a placeholder that is usually rebound later: it tells nothing
+        if node.value in ("True", "False"):
+            return Foreign("literal")
+        value = self.lookup(scope, node.value)
+        if record and isinstance(value, Lib):
+            self._ref(node, context, name=value.name, receiver=value.name.rpartition(".")[0], bound=value.bound,
+                      call=call)
+        return value
+
+    def attribute_ref(
+        self, node: cst.Attribute, receiver: Value, scope: Scope, record: bool = True, context: str = "use",
+        call: CallShape | None = None,
+    ) -> Value:
+        """`receiver.attr` read at `node`: its value, and the references it makes."""
+        attr = node.attr.value
+        value, how = self.attribute(receiver, attr)
+        named = how if isinstance(value, Inst) else None  # a typed attribute: its own path, kept
+        if record and (isinstance(value, Lib) or named is not None):
+            name = value.name if isinstance(value, Lib) else f"{named}.{attr}"
+            bound = value.bound if isinstance(value, Lib) else True
+            receiver_text = how if isinstance(value, Lib) else f"<{named}>"
+            self._ref(node.attr, context, name=name, receiver=receiver_text, bound=bound, call=call)
+        if attr in self.q.names and isinstance(receiver, OneOf) and not receiver.member:
+            shown = "|".join(receiver.classes)
+            self._ref(node.attr, context, attr=attr, receiver=f"<{shown}>", among=receiver.classes, call=call)
+        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)):
+            # The receiver is not proven to be anything in particular: the name alone decides.
+            self._ref(node.attr, context, attr=attr, receiver="?", call=call)
+        return value
+
+    def _unlinked(self, value: Value) -> bool:
+        """Without the library's source a path it re-exports under another name
+        (`lib.sub.f` for `lib.f`) cannot be told from another member: the name alone decides."""
+        return isinstance(value, Lib) and not self.q.model.knows_kinds and not self.q.match(value.name)
+
+    def _untyped(self, receiver: Value) -> bool:
+        """A library value whose own type is not known: an attribute reached through an instance
+        (a column, an attribute the source does not type) rather than a module or class path."""
+        if not isinstance(receiver, Lib) or not receiver.bound:
+            return False
+        kind = self.q.model.kind(receiver.name)
+        return kind not in ("module", "class", "method", "function", "classmethod", "staticmethod")
+
+    def attribute(self, receiver: Value, attr: str) -> tuple[Value, Receiver]:
+        """The value of `receiver.attr`, and how a pattern should name the receiver.
+
+        An attribute of a library instance that the library types (a property, a typed
+        attribute) is an instance of that type; then `how` is the receiver's class."""
+        if isinstance(receiver, Lib):
+            return Lib(f"{receiver.name}.{attr}", bound=receiver.bound), receiver.name
+        if isinstance(receiver, Inst):
+            dotted = f"{receiver.cls}.{attr}"
+            typed = self.q.model.attribute_type(dotted)
+            if typed is not None:
+                return Inst(typed), receiver.cls
+            return Lib(dotted, bound=True), f"<{receiver.cls}>"
+        if isinstance(receiver, OneOf):
+            if receiver.member:
+                return UNKNOWN, "?"
+            kinds = {self.q.model.attribute_type(f"{cls}.{attr}") for cls in receiver.classes}
+            if len(kinds) == 1 and None not in kinds:
+                return Inst(kinds.pop()), ""  # type: ignore[arg-type]
+            return OneOf(receiver.classes, attr), ""
+        if isinstance(receiver, ProjMod):
+            sub = f"{receiver.name}.{attr}"
+            if self.is_project_module(sub):
+                return ProjMod(sub), ""
+            return self.project.export(receiver.name, attr), ""
+        if isinstance(receiver, (UserClass, UserInst)):
+            cls = receiver if isinstance(receiver, UserClass) else receiver.cls
+            found = cls.lookup(attr)
+            if found is not None:
+                if isinstance(receiver, UserInst) and isinstance(found, UserFunc) and found.kind == "property":
+                    return self.returns_of(found), ""
+                return found, ""
+            bases = cls.all_lib_bases()
+            if bases:
+                return Lib(f"{bases[0]}.{attr}", bound=isinstance(receiver, UserInst)), f"<{bases[0]}>"
+            return Foreign(None), ""
+        if isinstance(receiver, Super):
+            for base in receiver.cls.user_bases:
+                found = base.lookup(attr)
+                if found is not None:
+                    return found, ""
+            bases = receiver.cls.all_lib_bases()
+            if bases:
+                return Lib(f"{bases[0]}.{attr}", bound=True), ThroughSuper(bases[0])
+            return Foreign(None), ""
+        if isinstance(receiver, Foreign):
+            return Foreign(f"{receiver.name}.{attr}" if receiver.name and receiver.name != "literal" else None), ""
+        if isinstance(receiver, (UserFunc, Tup)):
+            return Foreign(None), ""
+        return UNKNOWN, "?"
+
+    def comprehension(self, node: cst.BaseComp, scope: Scope) -> None:
+        inner = Scope("comprehension", scope)
+        clause: cst.CompFor | None = node.for_in
+        first = True
+        while clause is not None:
+            self.expr(clause.iter, scope if first else inner)
+            first = False
+            self.assign(clause.target, UNKNOWN, inner)
+            for cond in clause.ifs:
+                self.expr(cond.test, inner)
+            clause = clause.inner_for_in
+        if isinstance(node, cst.DictComp):
+            self.expr(node.key, inner)
+            self.expr(node.value, inner)
+        else:
+            self.expr(node.elt, inner)  # type: ignore[attr-defined]
+
+    def lambda_expr(self, node: cst.Lambda, scope: Scope) -> None:
+        for p in (*node.params.posonly_params, *node.params.params, *node.params.kwonly_params):
+            if p.default is not None:
+                self.expr(p.default, scope)
+        inner = Scope("function", scope)
+        for p in all_params(node.params):
+            inner.names[p.name.value] = UNKNOWN
+        self.expr(node.body, inner)
+
+    def generic(self, node: cst.CSTNode, scope: Scope) -> None:
+        """Evaluate every expression below a node this walk has no special rule for."""
+        for child in node.children:
+            if isinstance(child, cst.BaseExpression):
+                self.expr(child, scope)
+            elif isinstance(child, (cst.BaseStatement, cst.BaseSmallStatement)):
+                self.stmt(child, scope)
+            elif isinstance(child, cst.BaseSuite):
+                self.suite(child, scope)
+            else:
+                self.generic(child, scope)
