@@ -1,4 +1,5 @@
-"""Code nested so deeply that libcst's native parser would overflow its stack and kill the process.
+"""Code libcst must not be given: nested so deeply that its native parser would overflow its stack
+and kill the process, or so large that its tree would take gigabytes.
 
 libcst parses with a recursive-descent parser in native code; on this machine it died with
 SIGSEGV at about 1,280 nested brackets, 3,500 nested lambdas and 8,200 stacked unary operators
@@ -24,6 +25,25 @@ PREFIX = 4_000  # "-", "+", "~", "not"
 # CPython's ast fine at 10,000). A chain this long is refused before either parser sees it.
 CHAIN = 4_000
 _CHAIN = re.compile(r"(?:\.[^\W\d]\w*){%d}" % CHAIN)
+
+# libcst builds about 1 KB of Python objects per character it parses, and its native parser cannot
+# be stopped by the time budget (measured here, libcst 1.x: a module of 373 KB took 12 s and 374 MB,
+# one list display of 420 KB 16.5 s and 461 MB). A file (or a notebook's cells together) with more
+# characters of code than this is read at token level instead. Spaces, tabs and newlines are not
+# counted: narrowing leaves blank lines behind, and they cost libcst next to nothing. The most
+# libcst was given from one file of the real-world corpus was 123,809 (EoN/analytic.py, whole).
+LIBCST_CHARS = 200_000
+_WHITESPACE = (" ", "\t", "\n")
+
+
+def code_size(code: str) -> int:
+    """What parsing `code` costs libcst, in characters that are not spaces, tabs or newlines."""
+    return len(code) - sum(code.count(blank) for blank in _WHITESPACE)
+
+
+def too_large(code: str) -> bool:
+    """Whether libcst's tree of `code` would take more memory than a scan may spend on a file."""
+    return code_size(code) > LIBCST_CHARS
 
 
 def _may_be_deep(code: str) -> bool:
@@ -54,4 +74,4 @@ def too_deep(code: str) -> bool:
     return False
 
 
-__all__ = ["too_deep"]
+__all__ = ["LIBCST_CHARS", "code_size", "too_deep", "too_large"]

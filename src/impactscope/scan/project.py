@@ -24,12 +24,14 @@ from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import FileAnalysis, ProjectResolver
 from impactscope.resolve.query import Query
 from impactscope.scan.budget import OVER_BUDGET, FileClock
-from impactscope.scan.guard import too_deep
+from impactscope.scan.guard import LIBCST_CHARS, code_size, too_deep
 from impactscope.scan.prefilter import Plan, Prefilter
 from impactscope.scan.slicing import narrow
 
 NO_CANDIDATE = "no candidate"
 TOO_DEEP = "too deeply nested"
+TOO_LARGE = "too large to parse"
+_GUARDED = {TOO_DEEP: "nested too deeply to parse safely", TOO_LARGE: f"over {LIBCST_CHARS:,} characters of code to parse"}
 
 
 def _is_manifest(path: str, size: int) -> bool:
@@ -124,10 +126,10 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             faults[path] = describe(exc, stage="nesting guard")
             keep.discard(path)
             continue
-        if deep is None:
+        if isinstance(deep, str):
             prior = outcomes[path]
-            outcomes[path] = FileOutcome(path, "unparsed", TOO_DEEP, "nested too deeply to parse safely; "
-                                         "read at token level", prior.digest, prior.kind)
+            outcomes[path] = FileOutcome(path, "unparsed", deep, f"{_GUARDED[deep]}; read at token level",
+                                         prior.digest, prior.kind)
             del sources[path]
             keep.discard(path)
             token_level.add(path)
@@ -201,19 +203,26 @@ def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
     return result
 
 
-def _without_deep_cells(source: Source) -> Source | None:
-    """`source` without the cells nested too deeply to parse safely (they are counted as skipped),
-    or None for a module file that is (libcst's native parser would crash the process on it)."""
-    deep = [cell for cell in source.cells if too_deep(cell.code)]
-    if not deep:
+def _without_deep_cells(source: Source) -> Source | str:
+    """`source` without the cells libcst must not parse (they are counted as skipped): nested too
+    deeply (its native parser would crash the process) or, past the first LIBCST_CHARS of code,
+    too large (its tree would take gigabytes). For a module file that is either, the reason."""
+    refused: list[tuple[int | None, str]] = []
+    kept = []
+    size = 0
+    for cell in source.cells:
+        size += code_size(cell.code)
+        reason = TOO_DEEP if too_deep(cell.code) else TOO_LARGE if size > LIBCST_CHARS else None
+        if reason is None:
+            kept.append(cell)
+        else:
+            refused.append((cell.index, reason))
+            size -= code_size(cell.code)
+    if not refused:
         return source
     if source.kind == "module":
-        return None
-    return dataclasses.replace(
-        source,
-        cells=tuple(cell for cell in source.cells if all(cell is not d for d in deep)),
-        skipped_cells=(*source.skipped_cells, *((cell.index, TOO_DEEP) for cell in deep)),
-    )
+        return refused[0][1]
+    return dataclasses.replace(source, cells=tuple(kept), skipped_cells=(*source.skipped_cells, *refused))
 
 
 def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool]:
