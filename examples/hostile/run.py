@@ -1,29 +1,42 @@
-"""Hostile corpus cases, generated here, each scanned by `impactscope scan` in a subprocess.
+"""Hostile cases, generated here, each run through the command line in a subprocess of its own.
 
-Not a test. For every case it prints the exit code, wall time, peak RSS of the scan process
-(its VmHWM, so Linux only), whether a traceback was printed, and what the results file says about the files
-(parsed / skipped / unparsed, and the reasons that matter). Nothing is downloaded: every case is
-made from zeros, tiny sources and the fictional library heronframe.
+Not a test. The cases: archives (bombs with lying headers, a million members, nesting, names that
+normalise alike, a phantom project), folders (a FIFO, links leading out), notebooks, sources (a
+1 MB line, 100,000-long attribute and operator chains, 3,000 nested calls and lists, a file cut
+short by its time budget), change lists (100,000 levels of nesting, 20,000 changes, 100 MB of
+comments, binary, given through a pipe and then reported on), processes (SIGINT and SIGTERM to
+the scan or its process group mid-scan, then the same command again) and a hostile library
+source (a FIFO, a link leading out, a 20 MB module) for `surface`, `harvest` and `scan`.
+
+For every case it prints the exit code against the expected one, the wall time, the peak RSS of
+the whole process tree (each process's VmHWM, so Linux only, summed), whether a traceback was
+printed, whether any process outlived the command, and what the results say (parsed / skipped /
+unparsed, the reasons that matter, findings and their levels). Nothing is downloaded: every case
+is made from zeros, small sources and the fictional library heronframe. Exit 1 if a case failed.
 
     python examples/hostile/run.py                     # every case
     python examples/hostile/run.py --only fifo dup-zip
     python examples/hostile/run.py --src /path/to/other/src   # the same cases, another version
 
-The big cases write about 10 MB of archives to --dir (default: a temporary folder); the 2 GB of
-zeros exist only as compressed streams.
+The big cases write about 250 MB to --dir (default: a temporary folder), deleted at the end; the
+2 GB of zeros exist only as compressed streams.
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import io
 import json
 import os
+import random
 import signal
+import sqlite3
 import subprocess
 import sys
 import tarfile
 import tempfile
+import threading
 import time
 import warnings
 import zipfile
@@ -241,14 +254,157 @@ def empty_cells(root: Path) -> None:
     (root / "p").mkdir()
     (root / "p" / "many.ipynb").write_bytes(_notebook([USES.decode()] + [""] * 100_000))
 
+# sources --------------------------------------------------------------------
+
+
+def _module(text: str) -> Callable[[Path], None]:
+    def build(root: Path) -> None:
+        (root / "p").mkdir()
+        (root / "p" / "hostile.py").write_text(text, encoding="utf-8")
+        (root / "p" / "use.py").write_bytes(USES)
+
+    return build
+
+
+# One line of about 1 MB: a list display of 52,000 calls of the changed member.
+LINE_1MB = "import heronframe\nx = [" + "heronframe.stack(1), " * 52_000 + "]\n"
+ATTRIBUTE_CHAIN = "import heronframe\nheronframe" + ".stack" * 100_000 + "()\n"
+OPERATOR_CHAIN = "import heronframe\nx = heronframe.stack()" + " + 1" * 100_000 + "\n"
+NESTED_CALLS = "import heronframe\nx = " + "heronframe.stack(" * 3_000 + ")" * 3_000 + "\n"
+NESTED_LISTS = "import heronframe\nheronframe.stack()\nx = " + "[" * 3_000 + "]" * 3_000 + "\n"
+# About 1.9 MB of ordinary code (under file_bytes): what a time budget of 1 s cuts short.
+SLOW_MODULE = "import heronframe as hf\n" + "".join(
+    f"\ndef f{i}(t):\n    u = hf.read_table(t)\n    return hf.stack([u, f{i - 1}(u)])\n" for i in range(24_000)
+)
+
+
+def projects(count: int) -> Callable[[Path], None]:
+    """`count` folder projects of a few modules each: a scan long enough to be interrupted."""
+
+    def build(root: Path) -> None:
+        for index in range(count):
+            package = root / f"proj{index:04d}" / "pkg"
+            package.mkdir(parents=True)
+            (package / "__init__.py").write_text("from pkg.io import load\n", encoding="utf-8")
+            (package / "io.py").write_text(
+                "import heronframe as hf\n" + "".join(
+                    f"\ndef load{k}(path):\n    t = hf.read_table(path)\n    return hf.stack([t, t])\n" for k in range(60)
+                ) + "\nload = load0\n",
+                encoding="utf-8",
+            )
+            (package / "util.py").write_text("def helper(x):\n    return [y for y in x]\n" * 40, encoding="utf-8")
+
+    build.__doc__ = f"{count} folder projects of three modules each."
+    return build
+
+
+# change lists ---------------------------------------------------------------
+
+
+def deep_toml(folder: Path) -> Path:
+    path = folder / "deep.toml"
+    path.write_text(CHANGES + "\n[types]\nx = " + "[" * 100_000 + "\n", encoding="utf-8")
+    return path
+
+
+def huge_toml(folder: Path) -> Path:
+    """A valid change list of 20,000 changes (1.3 MB)."""
+    path = folder / "huge.toml"
+    path.write_text(CHANGES + "".join(
+        f'\n[[change]]\nid = "HF-{i}"\nmember = "heronframe.member{i}"\nkind = "removed"\n' for i in range(2, 20_002)
+    ), encoding="utf-8")
+    return path
+
+
+def comment_toml(folder: Path) -> Path:
+    """100 MB of comment lines after a valid change list."""
+    path = folder / "comments.toml"
+    with path.open("w", encoding="utf-8") as out:
+        out.write(CHANGES)
+        line = "# " + "x" * 97 + "\n"
+        for _ in range(1_000_000):
+            out.write(line)
+    return path
+
+
+def binary_toml(folder: Path) -> Path:
+    path = folder / "binary.toml"
+    path.write_bytes(random.Random(14).randbytes(64 << 10))
+    return path
+
+
+# a hostile library source -------------------------------------------------------
+
+LIBRARY_INIT = '''"""heronframe, as far as a scan needs it."""
+import warnings
+
+
+def stack(frames):
+    warnings.warn("stack is deprecated; use concat", DeprecationWarning)
+    return frames
+
+
+def read_table(path):
+    return path
+'''
+
+
+def _library(folder: Path) -> Path:
+    package = folder / "lib" / "heronframe"
+    package.mkdir(parents=True)
+    (package / "__init__.py").write_text(LIBRARY_INIT, encoding="utf-8")
+    return package
+
+
+def library_fifo(root: Path) -> None:
+    """A FIFO named like a module in the library's folder (opening it would block)."""
+    os.mkfifo(_library(root.parent) / "pipe.py")
+    _module("")(root)
+
+
+def library_symlink(root: Path) -> None:
+    """A module of the library that is a link to a file outside its folder."""
+    outside = root.parent / "outside"
+    outside.mkdir()
+    (outside / "secret.py").write_text("def leaked_secret():\n    pass\n", encoding="utf-8")
+    (_library(root.parent) / "secret.py").symlink_to(outside / "secret.py")
+    _module("")(root)
+
+
+def library_20mb(root: Path) -> None:
+    """A 20 MB library module: 190,000 small functions, one in ten warning of its deprecation."""
+    package = _library(root.parent)
+    with (package / "big.py").open("w", encoding="utf-8") as out:
+        index = 0
+        while out.tell() < 20 << 20:
+            if index % 10 == 0:
+                out.write(f"\ndef old{index}(frame, fill=None):\n    warnings.warn('old{index} is deprecated', "
+                          "DeprecationWarning)\n    return frame\n")
+            else:
+                out.write(f"\ndef f{index}(frame, fill=None):\n    return frame\n")
+            index += 1
+    (package / "__init__.py").write_text(LIBRARY_INIT + "from heronframe.big import *\n", encoding="utf-8")
+    _module("")(root)
+
+
+# ------------------------------------------------------------------ cases
+
 
 @dataclass(frozen=True)
 class Case:
     name: str
     build: Callable[[Path], None]
-    root: str = "."  # the corpus root, relative to the case folder
+    root: str = "."  # the corpus root, relative to corpus-root/
+    command: str = "scan"  # scan, or surface / harvest on the case's library (lib/heronframe)
+    options: tuple[str, ...] = ()  # more options; "{lib}" is the library's folder
+    changes: Callable[[Path], Path] | None = None  # a hostile change list instead of CHANGES
+    expect: int = 0  # the exit code of a passing case
+    stop: tuple[signal.Signals, bool] | None = None  # a signal sent mid-scan, and whether to the group
+    jobs: int = 1
+    pipe: bool = False  # the change list as `<(cat FILE)` through bash; then `report` must work
 
 
+LIBRARY = ("--library-source", "{lib}")
 CASES = [
     Case("zip-bomb-lying", zip_bomb_lying),
     Case("zip-bomb-2gib", zip_bomb_truthful),
@@ -264,6 +420,34 @@ CASES = [
     Case("symlink-out", symlink_outside, "corpus"),
     Case("broken-notebook", broken_notebook),
     Case("empty-cells", empty_cells),
+    # sources
+    Case("line-1mb", _module(LINE_1MB)),
+    Case("attribute-chain-100k", _module(ATTRIBUTE_CHAIN)),
+    Case("operator-chain-100k", _module(OPERATOR_CHAIN)),
+    Case("nested-calls-3000", _module(NESTED_CALLS)),
+    Case("nested-lists-3000", _module(NESTED_LISTS)),
+    Case("time-budget-1s", _module(SLOW_MODULE), options=("--limit", "file_seconds=1")),
+    # change lists
+    Case("toml-deep", _module(""), changes=deep_toml, expect=2),
+    Case("toml-huge", _module(""), changes=huge_toml),
+    Case("toml-100mb-comments", _module(""), changes=comment_toml),
+    Case("toml-binary", _module(""), changes=binary_toml, expect=2),
+    Case("toml-pipe-then-report", _module(""), pipe=True),
+    # processes: a scan of 120 projects, stopped once it has committed some
+    Case("sigint-process", projects(120), stop=(signal.SIGINT, False), jobs=2, expect=130),
+    Case("sigint-group", projects(120), stop=(signal.SIGINT, True), jobs=2, expect=130),
+    Case("sigterm-process", projects(120), stop=(signal.SIGTERM, False), jobs=2, expect=143),
+    Case("sigterm-group", projects(120), stop=(signal.SIGTERM, True), jobs=2, expect=143),
+    Case("sigint-inline", projects(120), stop=(signal.SIGINT, True), expect=130),
+    # a hostile library source
+    Case("library-fifo-surface", library_fifo, command="surface"),
+    Case("library-fifo-harvest", library_fifo, command="harvest"),
+    Case("library-fifo-scan", library_fifo, options=LIBRARY),
+    Case("library-symlink-surface", library_symlink, command="surface"),
+    Case("library-symlink-scan", library_symlink, options=LIBRARY),
+    Case("library-20mb-surface", library_20mb, command="surface"),
+    Case("library-20mb-harvest", library_20mb, command="harvest"),
+    Case("library-20mb-scan", library_20mb, options=LIBRARY),
 ]
 
 
@@ -277,42 +461,128 @@ class Outcome:
     peak_mb: float
     traceback: bool
     summary: str
+    passed: bool
 
 
-# The scan runs under this wrapper, which writes its own peak RSS (VmHWM, Linux) on exit. The
-# rusage of wait4 is no good here: Linux carries the parent's high-water mark into a child that
-# is spawned with vfork and exec, and this script's builders are the parent.
+# Every process of the command writes its own peak RSS (VmHWM, Linux) into HOSTILE_PEAK/<pid> as
+# it exits: the main one from atexit, pool workers (forked, they leave through os._exit) from a
+# multiprocessing finaliser. The rusage of wait4 is no good here: Linux carries the parent's
+# high-water mark into a child spawned with vfork and exec, and this script's builders are the parent.
 _WRAPPER = """\
-import atexit, os, sys
+import atexit, os
+from multiprocessing import util
 def _peak():
-    with open("/proc/self/status") as status, open(os.environ["HOSTILE_PEAK"], "w") as out:
-        out.write(next(line.split()[1] for line in status if line.startswith("VmHWM")))
+    try:
+        with open("/proc/self/status") as status:
+            kib = next(line.split()[1] for line in status if line.startswith("VmHWM"))
+        with open(os.path.join(os.environ["HOSTILE_PEAK"], str(os.getpid())), "w") as out:
+            out.write(kib)
+    except OSError:
+        pass
 atexit.register(_peak)
+util.register_after_fork(_peak, lambda _: util.Finalize(None, _peak, exitpriority=100))
 from impactscope.cli import main
 main()
 """
 
 
-def _run(argv: list[str], env: dict[str, str], timeout: float) -> tuple[int | str, float, float, str]:
+class _Tree:
+    """Samples the peak RSS (VmHWM) of every process in one process group while it runs; a
+    killed process writes nothing at exit, so sampling is what sees it."""
+
+    def __init__(self, group: int) -> None:
+        self.group = group
+        self.peaks: dict[int, int] = {}  # pid -> highest VmHWM seen, KiB
+        self.done = threading.Event()
+        self.thread = threading.Thread(target=self._run, daemon=True)
+        self.thread.start()
+
+    def members(self) -> list[int]:
+        found = []
+        for entry in os.listdir("/proc"):
+            if not entry.isdigit():
+                continue
+            try:
+                with open(f"/proc/{entry}/stat", encoding="ascii", errors="replace") as stat:
+                    fields = stat.read().rsplit(")", 1)[1].split()
+            except OSError:
+                continue
+            if int(fields[2]) == self.group and fields[0] != "Z":
+                found.append(int(entry))
+        return found
+
+    def _run(self) -> None:
+        while not self.done.wait(0.05):
+            for pid in self.members():
+                try:
+                    with open(f"/proc/{pid}/status", encoding="ascii", errors="replace") as status:
+                        kib = next((int(line.split()[1]) for line in status if line.startswith("VmHWM")), 0)
+                except OSError:
+                    continue
+                self.peaks[pid] = max(self.peaks.get(pid, 0), kib)
+
+    def stop(self, written: Path) -> float:
+        """MB: the sum over the group's processes of each one's peak (an upper bound on the
+        group's peak, since processes that never ran together are added too)."""
+        self.done.set()
+        self.thread.join()
+        for file in written.iterdir():
+            pid = int(file.name)
+            self.peaks[pid] = max(self.peaks.get(pid, 0), int(file.read_text() or 0))
+        return sum(self.peaks.values()) / 1024
+
+
+def _run(argv: list[str], env: dict[str, str], timeout: float, peaks: Path,
+         stop: tuple[signal.Signals, bool] | None = None, started_when: Path | None = None,
+         ) -> tuple[int | str, float, float, str, str, bool]:
+    """Run `argv` in a session of its own; (exit, seconds, peak MB of the tree, stdout, stderr,
+    whether a process of the group outlived the command)."""
+    peaks.mkdir(parents=True, exist_ok=True)
     started = time.perf_counter()
-    with tempfile.TemporaryFile() as err:
-        child = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=err, env=env, start_new_session=True)
+    with tempfile.TemporaryFile() as out, tempfile.TemporaryFile() as err:
+        child = subprocess.Popen(argv, stdout=out, stderr=err, env={**env, "HOSTILE_PEAK": str(peaks)},
+                                 start_new_session=True)
+        tree = _Tree(child.pid)
         deadline = started + timeout
+        sent = stop is None
+        code: int | str
         while True:
-            pid, status, usage = os.wait4(child.pid, os.WNOHANG)
-            if pid:
+            if child.poll() is not None:
+                code = child.returncode
                 break
+            if not sent and started_when is not None and started_when.exists() and _committed(started_when) > 0:
+                sig, group = stop  # type: ignore[misc]
+                (os.killpg if group else os.kill)(child.pid, sig)
+                sent = True
             if time.perf_counter() > deadline:
                 os.killpg(child.pid, signal.SIGKILL)
-                pid, status, usage = os.wait4(child.pid, 0)
-                child.returncode = -9
-                err.seek(0)
-                return "hang", time.perf_counter() - started, usage.ru_maxrss / 1024, err.read().decode(errors="replace")
+                child.wait()
+                code = "hang"
+                break
             time.sleep(0.05)
-        child.returncode = os.waitstatus_to_exitcode(status)
+        seconds = time.perf_counter() - started
+        # Workers must end with the command; give them a moment, then look for any left.
+        left = True
+        for _ in range(100):
+            left = bool(tree.members())
+            if not left:
+                break
+            time.sleep(0.05)
+        if left:
+            os.killpg(child.pid, signal.SIGKILL)
+        peak = tree.stop(peaks)
+        out.seek(0)
         err.seek(0)
-        # ru_maxrss is in KiB on Linux.
-        return child.returncode, time.perf_counter() - started, usage.ru_maxrss / 1024, err.read().decode(errors="replace")
+        return (code, seconds, peak, out.read().decode(errors="replace"), err.read().decode(errors="replace"), left)
+
+
+def _committed(results: Path) -> int:
+    """Projects committed to a results file so far (0 while it cannot be read)."""
+    try:
+        with contextlib.closing(sqlite3.connect(f"file:{results}?mode=ro", uri=True, timeout=0.1)) as db:
+            return db.execute("SELECT count(*) FROM projects").fetchone()[0]
+    except sqlite3.Error:
+        return 0
 
 
 def _summary(results: Path, env: dict[str, str]) -> str:
@@ -328,10 +598,17 @@ def _summary(results: Path, env: dict[str, str]) -> str:
         (f"{r['reason']} {r['files']}" for r in report.get("file_reasons", [])
          if r["reason"] not in ("not source", "no candidate")),
     )
+    levels = sorted({f["confidence"] for f in report.get("findings", [])})
     sites = len(report.get("findings", []))
     return (f"{totals['projects']} proj, files {totals['files']} = {totals['files_parsed']} parsed"
             f" + {totals['files_skipped']} skipped + {totals['files_unparsed']} unparsed; {sites} findings"
+            + (f" ({', '.join(levels)})" if levels else "")
             + (f"; {', '.join(reasons)}" if reasons else ""))
+
+
+def _last_line(text: str) -> str:
+    lines = [line for line in text.strip().splitlines() if line.strip()]
+    return lines[-1][:160] if lines else ""
 
 
 def run_case(case: Case, base: Path, env: dict[str, str], timeout: float = TIMEOUT) -> Outcome:
@@ -342,14 +619,54 @@ def run_case(case: Case, base: Path, env: dict[str, str], timeout: float = TIMEO
     corpus.mkdir()
     case.build(corpus)
     root = corpus if case.root == "." else corpus / case.root
+    library = folder / "lib" / "heronframe"
+    changes = case.changes(folder) if case.changes is not None else folder / "changes.toml"
     results = folder / "results.sqlite"
-    peak_file = folder / "peak-kib"
-    argv = [sys.executable, "-c", _WRAPPER, "scan",
-            str(folder / "changes.toml"), str(root), "--out", str(results), "--jobs", "1"]
-    code, seconds, _, stderr = _run(argv, {**env, "HOSTILE_PEAK": str(peak_file)}, timeout)
-    peak = int(peak_file.read_text()) / 1024 if peak_file.exists() else float("nan")
-    summary = _summary(results, env) if code == 0 else (stderr.strip().splitlines() or [""])[-1][:160]
-    return Outcome(code, seconds, peak, "Traceback" in stderr, summary)
+    options = [o.replace("{lib}", str(library)) for o in case.options]
+    python = [sys.executable, "-c", _WRAPPER]
+    if case.command != "scan":
+        argv = [*python, case.command, str(library), *options]
+    elif case.pipe:
+        # bash hands the words after -c's text out as $0, $1, ...: the command is what follows them.
+        argv = ["bash", "-c", 'changes=$1 root=$2 out=$3; shift 3; exec "$@" scan <(cat "$changes") "$root" --out "$out" --jobs 1',
+                "bash", str(changes), str(root), str(results), *python]
+    else:
+        argv = [*python, "scan", str(changes), str(root), "--out", str(results), "--jobs", str(case.jobs), *options]
+    code, seconds, peak, stdout, stderr, left = _run(
+        argv, env, timeout, folder / "peaks", case.stop, results if case.stop else None
+    )
+    traceback = "Traceback" in stderr
+    notes: list[str] = []
+    passed = code == case.expect and not traceback and not left
+    if left:
+        notes.append("a process outlived the command")
+    if case.command != "scan":
+        notes.append(f"{len(stdout.splitlines())} lines out")
+        if "leaked_secret" in stdout:
+            notes.append("the linked file outside was read")
+            passed = False
+        if code != 0:
+            notes.append(_last_line(stderr))
+    elif case.stop is not None:
+        interrupted = "interrupted" in stderr
+        passed = passed and interrupted
+        notes.append(f"{_committed(results)} projects kept; " + ("'interrupted' line" if interrupted else "NO 'interrupted' line"))
+        (folder / "peaks2").mkdir()
+        again = subprocess.run(argv, capture_output=True, text=True, env={**env, "HOSTILE_PEAK": str(folder / "peaks2")},
+                               timeout=TIMEOUT)
+        notes.append(f"rerun exit {again.returncode}: {_last_line(again.stderr)}")
+        passed = passed and again.returncode == 0 and "unchanged, reused" in again.stderr
+    elif code == 0:
+        notes.append(_summary(results, env))
+        passed = passed and not notes[-1].startswith("report failed")
+        if case.pipe:
+            report = subprocess.run([*python, "report", str(results)], capture_output=True, text=True,
+                                    env={**env, "HOSTILE_PEAK": str(folder / "peaks")}, timeout=TIMEOUT)
+            notes.append(f"report exit {report.returncode}")
+            passed = passed and report.returncode == 0
+    else:
+        notes.append(_last_line(stderr))
+    return Outcome(code, seconds, peak, traceback, "; ".join(n for n in notes if n), passed and peak < 500)
 
 
 def main() -> None:
@@ -363,13 +680,19 @@ def main() -> None:
     if args.src is not None:
         env["PYTHONPATH"] = os.pathsep.join([str(args.src.resolve()), env.get("PYTHONPATH", "")])
     cases = [c for c in CASES if not args.only or c.name in args.only]
+    failed = 0
     with tempfile.TemporaryDirectory(prefix="hostile-", dir=args.dir) as scratch:
-        print(f"| case | exit | seconds | peak RSS MB | traceback | results |")
-        print("| --- | --- | ---: | ---: | --- | --- |")
+        print("| case | command | exit (expected) | seconds | peak RSS MB | traceback | passed | outcome |")
+        print("| --- | --- | --- | ---: | ---: | --- | --- | --- |")
         for case in cases:
             outcome = run_case(case, Path(scratch), env, args.timeout)
-            print(f"| {case.name} | {outcome.exit} | {outcome.seconds:.1f} | {outcome.peak_mb:.0f} | "
-                  f"{'yes' if outcome.traceback else 'no'} | {outcome.summary} |", flush=True)
+            failed += not outcome.passed
+            what = case.command + (" (pipe)" if case.pipe else "") + (
+                f" + {case.stop[0].name} to {'group' if case.stop[1] else 'process'}" if case.stop else "")
+            print(f"| {case.name} | {what} | {outcome.exit} ({case.expect}) | {outcome.seconds:.1f} | "
+                  f"{outcome.peak_mb:.0f} | {'yes' if outcome.traceback else 'no'} | "
+                  f"{'yes' if outcome.passed else 'NO'} | {outcome.summary.replace('|', '/')} |", flush=True)
+    sys.exit(1 if failed else 0)
 
 
 if __name__ == "__main__":
