@@ -29,7 +29,9 @@ from hypothesis import strategies as st
 from impactscope.changes import parse_change_list
 from impactscope.corpus.roots import discover
 from impactscope.resolve.faults import ANALYSIS_ERROR
+from impactscope.scan.cache import ScanSettings
 from impactscope.scan.executor import run_pool
+from impactscope.scan.job import ScanJob
 from impactscope.scan.library import ScanLibrary
 from impactscope.scan.project import scan_project
 
@@ -102,7 +104,7 @@ def test_the_standard_library_and_its_test_suite_raise_nothing():
     failed: list[str] = []
     outcomes: dict[str | None, int] = {}
     findings = 0
-    for scanned in run_pool(((p,) for p in projects), LIBRARY, 2, False, "sweep"):
+    for scanned in run_pool(((p,) for p in projects), ScanJob(LIBRARY, ScanSettings.of(LIBRARY.changes, prefilter=False)), 2):
         findings += len(scanned.result.findings)
         for f in scanned.result.files:
             if not f.path.endswith(".py"):

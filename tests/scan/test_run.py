@@ -227,3 +227,17 @@ def test_editing_the_library_source_voids_the_cache(corpus, tmp_path):
     assert run_scan(changes, roots[:1], out, jobs=1).reused == 9
     (library / "ops.py").write_text("class Table:\n    def stack_rows(self): ...\ndef stack(tables, axis=0):\n    return tables[0]\n")
     assert run_scan(changes, roots[:1], out, jobs=1).reused == 0
+
+
+def test_a_partly_changed_rescan_keeps_every_project_reused_or_scanned(corpus, tmp_path):
+    """The plan hands the unchanged projects on as values between the scanned ones: each is
+    counted once, and none is pruned as gone."""
+    changes, roots = corpus
+    roots = roots[:1]
+    out = tmp_path / "r.sqlite"
+    cold = run_scan(changes, roots, out, jobs=2)
+    (roots[0] / "proj003" / "extra.py").write_text("import heronframe\nheronframe.stack([])\n", encoding="utf-8")
+    warm = run_scan(changes, roots, out, jobs=2)
+    assert (warm.projects, warm.reused, warm.removed) == (cold.projects, cold.projects - 1, 0)
+    run_scan(changes, roots, tmp_path / "fresh.sqlite", jobs=1)
+    assert snapshot(out) == snapshot(tmp_path / "fresh.sqlite")

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Any, Generator, Iterable, Iterator
 
 from impactscope.errors import InputError
 from impactscope.scan.executor import Batch, Scanned, picklable_batch, scan_batch, scan_batch_remote
-from impactscope.scan.library import ScanLibrary
+from impactscope.scan.job import ScanJob
 
 if TYPE_CHECKING:  # pragma: no cover
     from distributed import Client
@@ -58,9 +58,7 @@ def connect(address: str, *, timeout: float = 15.0) -> Iterator["Client"]:
         yield client
 
 
-def scan_on_cluster(
-    address: str, batches: Iterable[Batch], library: ScanLibrary, prefilter: bool, fingerprint: str
-) -> Generator[Scanned, None, None]:
+def scan_on_cluster(address: str, batches: Iterable[Batch], job: ScanJob) -> Generator[Scanned, None, None]:
     """`run_cluster` on a client of `address`, connected only once there is work to send
     (a warm rescan with nothing changed never starts or contacts a cluster)."""
     work = iter(batches)
@@ -68,14 +66,12 @@ def scan_on_cluster(
     if first is None:
         return
     with connect(address) as client:
-        yield from run_cluster(itertools.chain((first,), work), library, prefilter, fingerprint, client)
+        yield from run_cluster(itertools.chain((first,), work), job, client)
 
 
 def run_cluster(
     batches: Iterable[Batch],
-    library: ScanLibrary,
-    prefilter: bool,
-    fingerprint: str,
+    job: ScanJob,
     client: "Client",
     *,
     window: int | None = None,
@@ -86,14 +82,14 @@ def run_cluster(
     limit = window or workers * 3
     finished = distributed.as_completed()
     pending: set[Any] = set()  # references only to unfinished work, so results are not pinned
-    # The library (change list and surface) goes to every worker once, not with every task.
-    shipped = client.scatter(library, broadcast=True)
+    # The job (change list, surface, settings) goes to every worker once, not with every task.
+    shipped = client.scatter(job, broadcast=True)
     try:
         for batch in batches:
             if not picklable_batch(batch):
-                yield from scan_batch(batch, library.query, prefilter, fingerprint)
+                yield from scan_batch(batch, job)
                 continue
-            future = client.submit(scan_batch_remote, shipped, prefilter, fingerprint, batch, pure=False)
+            future = client.submit(scan_batch_remote, shipped, batch, pure=False)
             pending.add(future)
             finished.add(future)
             while len(pending) >= limit:

@@ -28,16 +28,15 @@ from typing import Any, Generator, Iterable, Iterator, Sequence
 
 from impactscope.corpus.roots import Entry, Project
 from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED, describe
-from impactscope.resolve.query import Query
 from impactscope.scan.cache import origin_stamp, project_key
-from impactscope.scan.library import ScanLibrary
+from impactscope.scan.job import ScanJob
 from impactscope.scan.project import ProjectResult, failed_project, scan_project
 
 Batch = tuple[Project, ...]
 
-# Per cluster worker process: the query compiled from the library it was sent, kept for its later
-# tasks. The one sanctioned per-process cache (pool workers hold theirs in a local variable).
-_WORKER: dict[str, object] = {}
+# Per cluster worker process: the job it was sent, whose query is compiled once and kept for its
+# later tasks. The one sanctioned per-process cache (pool workers hold theirs in a local variable).
+_WORKER: dict[str, ScanJob] = {}
 
 
 @dataclass(frozen=True)
@@ -49,7 +48,7 @@ class Scanned:
     key: str | None
 
 
-def scan_keyed(project: Project, query: Query, prefilter: bool, fingerprint: str) -> Scanned:
+def scan_keyed(project: Project, job: ScanJob) -> Scanned:
     """Scan `project` and key the result by what was listed (the file stamp is taken first)."""
     stamp = origin_stamp(project.origin)
     seen: list[Entry] = []
@@ -61,23 +60,23 @@ def scan_keyed(project: Project, query: Query, prefilter: bool, fingerprint: str
 
     recorded = Project(project.name, project.origin, listing, project.limits)  # its limits go along
     try:
-        result = scan_project(recorded, query, prefilter=prefilter)
+        result = scan_project(recorded, job.query, prefilter=job.prefilter)
     except Exception as exc:  # noqa: BLE001 - a bug outside any one file costs this project only
         return Scanned(failed_project(project, ANALYSIS_ERROR, describe(exc, stage="project")), None)
-    return Scanned(result, project_key(fingerprint, project, stamp, seen))
+    return Scanned(result, project_key(job.fingerprint, project, stamp, seen))
 
 
-def scan_batch(batch: Sequence[Project], query: Query, prefilter: bool, fingerprint: str) -> list[Scanned]:
-    return [scan_keyed(project, query, prefilter, fingerprint) for project in batch]
+def scan_batch(batch: Sequence[Project], job: ScanJob) -> list[Scanned]:
+    return [scan_keyed(project, job) for project in batch]
 
 
 # ------------------------------------------------------------------ in this process
 
 
-def run_inline(batches: Iterable[Batch], library: ScanLibrary, prefilter: bool, fingerprint: str) -> Generator[Scanned, None, None]:
+def run_inline(batches: Iterable[Batch], job: ScanJob) -> Generator[Scanned, None, None]:
     for batch in batches:
         for project in batch:
-            yield scan_keyed(project, library.query, prefilter, fingerprint)
+            yield scan_keyed(project, job)
 
 
 # ------------------------------------------------------------------ process pool
@@ -96,7 +95,7 @@ def _exit_with_parent() -> None:
     threading.Thread(target=watch, name="impactscope-parent-watch", daemon=True).start()
 
 
-def _worker_main(conn: multiprocessing.connection.Connection, library: ScanLibrary, prefilter: bool, fingerprint: str) -> None:
+def _worker_main(conn: multiprocessing.connection.Connection, job: ScanJob) -> None:
     """A pool worker: receive a batch, send back one `Scanned` per project in order, then None."""
     # Ctrl-C is the parent's to handle: it commits what is done and stops the workers.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
@@ -105,7 +104,7 @@ def _worker_main(conn: multiprocessing.connection.Connection, library: ScanLibra
     _exit_with_parent()
     # Forked: the query compiled by the parent came along. Spawned: compiled here, once, from
     # the surface JSON that was sent; the library's source is never read by a worker.
-    query = library.query
+    job.query  # noqa: B018 - compiled now, kept by the job for every batch
     while True:
         try:
             batch = conn.recv()
@@ -114,7 +113,7 @@ def _worker_main(conn: multiprocessing.connection.Connection, library: ScanLibra
         if batch is None:
             return
         for project in batch:
-            conn.send(scan_keyed(project, query, prefilter, fingerprint))
+            conn.send(scan_keyed(project, job))
         conn.send(None)
 
 
@@ -135,20 +134,19 @@ class _Worker:
 class _Pool:
     """`jobs` worker processes, each fed one batch at a time over its own pipe."""
 
-    def __init__(self, jobs: int, library: ScanLibrary, prefilter: bool, fingerprint: str) -> None:
+    def __init__(self, jobs: int, job: ScanJob) -> None:
         self._context = multiprocessing.get_context()
-        self._library = library
-        self._args = (library, prefilter, fingerprint)
+        self._job = job
         self._jobs = jobs
         self.workers: list[_Worker] = []
 
     def _start(self) -> _Worker:
         if self._context.get_start_method() == "fork":
             # Compiled once, here, before the first fork: every worker inherits it as it is.
-            self._library.query  # noqa: B018 - the property compiles and keeps the query
+            self._job.query  # noqa: B018 - the property compiles and keeps the query
         ours, theirs = self._context.Pipe(duplex=True)
         process = self._context.Process(
-            target=_worker_main, args=(theirs, *self._args), name="impactscope-worker", daemon=True
+            target=_worker_main, args=(theirs, self._job), name="impactscope-worker", daemon=True
         )
         process.start()
         theirs.close()
@@ -206,12 +204,10 @@ def _died_twice(project: Project, how: str) -> Scanned:
     return Scanned(failed_project(project, WORKER_DIED, detail), None)
 
 
-def run_pool(
-    batches: Iterable[Batch], library: ScanLibrary, jobs: int, prefilter: bool, fingerprint: str
-) -> Generator[Scanned, None, None]:
+def run_pool(batches: Iterable[Batch], job: ScanJob, jobs: int) -> Generator[Scanned, None, None]:
     """Yield results as projects finish. Each worker holds one batch at a time; the next batch
     is planned while the workers run. A dead worker's batch is dealt with as the module says."""
-    pool = _Pool(jobs, library, prefilter, fingerprint)
+    pool = _Pool(jobs, job)
     work = iter(batches)
     again: deque[_Task] = deque()  # sent again after a worker died: first in line
     planned: deque[_Task] = deque()
@@ -251,7 +247,7 @@ def run_pool(
                     continue
                 worker.task = task
             for batch in inline:
-                yield from scan_batch(batch, library.query, prefilter, fingerprint)
+                yield from scan_batch(batch, job)
             busy = pool.busy()
             if not busy:
                 if again or planned or not exhausted:
@@ -319,17 +315,13 @@ def picklable_batch(batch: Batch) -> bool:
 # ------------------------------------------------------------------ cluster workers
 
 
-def scan_batch_remote(library: ScanLibrary, prefilter: bool, fingerprint: str, batch: Batch) -> list[Scanned]:
-    """The task a cluster worker runs: compile the query once per worker process from the library
-    it was sent (never from the library's source), then scan the batch."""
-    identity = (library.changes.digest, library.digest)
-    cached = _WORKER.get("remote")
-    if isinstance(cached, tuple) and cached[0] == identity:
-        query = cached[1]
-    else:
-        query = library.query
-        _WORKER["remote"] = (identity, query)
-    return scan_batch(batch, query, prefilter, fingerprint)
+def scan_batch_remote(job: ScanJob, batch: Batch) -> list[Scanned]:
+    """The task a cluster worker runs: compile the query once per worker process from the job it
+    was sent (never from the library's source), then scan the batch."""
+    kept = _WORKER.get("remote")
+    if kept is None or kept.settings != job.settings:
+        _WORKER["remote"] = kept = job  # its query, compiled on first use, stays with it
+    return scan_batch(batch, kept)
 
 
 __all__ = [

@@ -17,9 +17,10 @@ import itertools
 import json
 import os
 import time
+from collections import deque
 from dataclasses import dataclass
 from pathlib import Path
-from typing import IO, Generator, Iterable, Iterator, Sequence
+from typing import IO, Generator, Iterable, Iterator, Sequence, Union
 
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
@@ -35,7 +36,8 @@ from impactscope.scan.cache import (
     streamed,
 )
 from impactscope.scan.executor import Batch, Scanned, run_inline, run_pool
-from impactscope.scan.library import ScanLibrary, prepare_library, source_digest
+from impactscope.scan.job import ScanJob
+from impactscope.scan.library import prepare_library, source_digest
 from impactscope.resolve.faults import ANALYSIS_ERROR
 from impactscope.scan.progress import ScanProgress, Silent, Tally
 from impactscope.store import CachedProject, ResultStore, StoreError
@@ -118,18 +120,22 @@ def _weight(project: Project, entries: Sequence[Entry] | None) -> int:
     return sum(e.size for e in entries if e.skip is None and e.error is None)
 
 
-def _plan(
-    found: Iterable[Project],
-    cached: dict[str, CachedProject],
-    fingerprint: str,
-    tallier: _Tallier,
-    seen: set[str],
-) -> Iterator[Batch]:
-    """Batches of the projects that need scanning; unchanged ones are counted as reused here."""
+@dataclass(frozen=True)
+class Reused:
+    """A project unchanged since the earlier scan in the same results file: its results stand."""
+
+    name: str
+    prior: CachedProject
+
+
+Planned = Union[Batch, Reused]
+
+
+def _plan(found: Iterable[Project], cached: dict[str, CachedProject], fingerprint: str) -> Iterator[Planned]:
+    """Batches of the projects that need scanning, and the unchanged projects, as they are found."""
     batch: list[Project] = []
     weight = 0
     for project in found:
-        seen.add(project.name)
         prior = cached.get(project.name)
         stamp = origin_stamp(project.origin)
         entries: list[Entry] | None = None
@@ -150,7 +156,7 @@ def _plan(
             key = project_key(fingerprint, project, None, entries)
             work = replayed(project, entries)
         if prior is not None and prior.key == key:
-            tallier.add(prior.files, prior.findings, reused=True)
+            yield Reused(project.name, prior)
             continue
         if not picklable(work):
             # Holds an open archive: take the bytes now, so it can travel and be listed again.
@@ -198,7 +204,6 @@ def run_scan(
     if cluster is not None and not cluster.strip():
         raise ScanOptionError("--cluster needs a scheduler address such as tcp://host:8786, or `local`")
     workers = jobs if jobs > 0 else (os.cpu_count() or 1)
-    text = changes.text  # read once, with the list: a pipe cannot be read twice
     digest = source_digest(changes.source, changes.import_name) if changes.source is not None else ""
     settings = ScanSettings.of(changes, prefilter=prefilter, library=digest, limits=limits)
     fingerprint = settings.fingerprint
@@ -209,9 +214,11 @@ def run_scan(
     lock = _exclusive(out)  # held until this process ends or closes it: one writer at a time
     try:
         if fresh:
-            store, kept = ResultStore.create(out, changes, text, settings=fingerprint), False
+            # The text the change list was read from (once: a pipe cannot be read twice), which
+            # its digest, hence `fingerprint`, was taken of.
+            store, kept = ResultStore.create(out, changes, changes.text, settings=fingerprint), False
         else:
-            store, kept = ResultStore.resume(out, changes, text, settings=fingerprint)
+            store, kept = ResultStore.resume(out, changes, changes.text, settings=fingerprint)
     except BaseException:
         lock.close()
         raise
@@ -227,14 +234,19 @@ def run_scan(
     try:
         with contextlib.ExitStack() as stack:
             cached = store.cached() if kept else {}
-            batches = _plan(found, cached, fingerprint, tallier, seen)
+            planned = _plan(found, cached, fingerprint)
             results = stack.enter_context(
-                contextlib.closing(_execute(batches, changes, out, digest, prefilter, fingerprint, workers, cluster))
+                contextlib.closing(_execute(planned, changes, out, settings, workers, cluster))
             )
             last_commit = time.monotonic()
             uncommitted = 0
             for scanned in results:
+                if isinstance(scanned, Reused):
+                    seen.add(scanned.name)
+                    tallier.add(scanned.prior.files, scanned.prior.findings, reused=True)
+                    continue
                 result = scanned.result
+                seen.add(result.name)
                 store.add_project(result, scanned.key, commit=False)
                 uncommitted += 1
                 tallier.add(len(result.files), len(result.findings), reused=False)
@@ -337,31 +349,52 @@ def _nonempty(found: Iterator[Project], roots: Sequence[str], ignored: list[tupl
 
 
 def _execute(
-    batches: Iterable[Batch],
+    planned: Iterable[Planned],
     changes: ChangeList,
     out: Path,
-    digest: str,
-    prefilter: bool,
-    fingerprint: str,
+    settings: ScanSettings,
     workers: int,
     cluster: str | None,
-) -> Generator[Scanned, None, None]:
-    """Run the batches; the library is prepared (surface read or loaded from beside `out`) only
-    once there is a batch, so a rescan that changed nothing never touches it."""
-    work = iter(batches)
+) -> Generator[Scanned | Reused, None, None]:
+    """Run the batches, passing the reused projects on in between; the library is prepared
+    (surface read or loaded from beside `out`) only once there is a batch, so a rescan that
+    changed nothing never touches it."""
+    # The executor pulls batches as it has room; the reused projects met on the way wait here
+    # until the next result goes out.
+    waiting: deque[Reused] = deque()
+
+    def batches() -> Iterator[Batch]:
+        for item in planned:
+            if isinstance(item, Reused):
+                waiting.append(item)
+            else:
+                yield item
+
+    work = batches()
     first = next(work, None)
+    yield from _drained(waiting)
     if first is None:
         return
-    library = prepare_library(changes, out, digest)
+    job = ScanJob(prepare_library(changes, out, settings.library_digest), settings)
     work = itertools.chain((first,), work)
     if cluster is not None:
         from impactscope.scan.cluster import scan_on_cluster
 
-        yield from scan_on_cluster(cluster.strip(), work, library, prefilter, fingerprint)
+        scanned = scan_on_cluster(cluster.strip(), work, job)
     elif workers > 1:
-        yield from run_pool(work, library, workers, prefilter, fingerprint)
+        scanned = run_pool(work, job, workers)
     else:
-        yield from run_inline(work, library, prefilter, fingerprint)
+        scanned = run_inline(work, job)
+    with contextlib.closing(scanned):  # closed with this generator: a pool stops its workers
+        for result in scanned:
+            yield from _drained(waiting)
+            yield result
+    yield from _drained(waiting)
+
+
+def _drained(waiting: deque[Reused]) -> Iterator[Reused]:
+    while waiting:
+        yield waiting.popleft()
 
 
 __all__ = ["ChangeList", "ScanOptionError", "ScanSummary", "count_projects", "run_scan"]
