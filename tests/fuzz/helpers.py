@@ -17,28 +17,13 @@ from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
 from impactscope.scan.run import run_scan
 from impactscope.store import ResultStore
 
+# The scan tests' change list (two changes of heronframe, a [types] table): pytest puts tests/ on
+# the path, so their helpers are importable as `scan.helpers`.
+from scan.helpers import CHANGES
+
 if TYPE_CHECKING:
     from impactscope.scan.project import FileOutcome
 
-CHANGES = """\
-[library]
-name = "heronframe"
-release = "3.0"
-
-[types]
-"heronframe.read_table" = "heronframe.Table"
-
-[[change]]
-id = "HF-1"
-member = "heronframe.Table.stack_rows"
-kind = "renamed"
-replacement = "heronframe.Table.append_rows"
-
-[[change]]
-id = "HF-2"
-member = "heronframe.stack"
-kind = "removed"
-"""
 USES = b"import heronframe as hf\nt = hf.read_table('a')\nt.stack_rows(t)\nhf.stack([t])\n"
 # The faults of impactscope itself: none may be met on any input.
 BUGS = (ANALYSIS_ERROR, WORKER_DIED)
