@@ -396,20 +396,45 @@ def test_attributes_of_project_classes_annotated_with_library_types(query: Query
 def test_overloads_that_differ_leave_the_class_open(query: Query) -> None:
     code = """
         import heronframe as hf
-        x = hf.pick("p")
+        x = hf.pick("p", flag)
         x.merge_all(1)
         x.describe()
         x.iter_pairs()
         x.transpose().stack_rows(2)
     """
     hits = found(query, code)
-    # PEP 484 overloads: `pick` returns a Column or a Table. Each class's change is one reading.
+    # PEP 484 overloads: with `flag` unknown, `pick` returns a Column or a Table. Each class's
+    # change is one reading.
     assert at(hits, 3, "T-MERGE") == "inferred" and at(hits, 3, "C-MERGE") == "inferred"
     # Both classes inherit `describe` from Shaped: whichever it is, the change applies.
     assert at(hits, 4, "DESC") == "resolved"
     assert at(hits, 5, "C-PAIRS") == "inferred"
     # Only a Table has `transpose`, which returns a Table.
     assert at(hits, 6, "T-STACK") == "resolved"
+
+
+def test_a_call_takes_the_first_overload_its_arguments_match(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        hf.pick("p").merge_all(1)
+        hf.pick("p", True).merge_all(2)
+        hf.pick("p", single=False).merge_all(3)
+        hf.pick("p", single=True).merge_all(4)
+        hf.pick("p", 1).merge_all(5)
+        hf.pick("p", *rest).merge_all(6)
+    """
+    hits = found(query, code)
+    # PEP 484, "Function/method overloading", and the typing specification's overload call
+    # evaluation: the first overload whose parameters accept the arguments decides the type.
+    # `single` is required in the Literal[True] overload, so a call without it is a Table.
+    assert at(hits, 2, "T-MERGE") == "resolved" and at(hits, 2, "C-MERGE") is None
+    assert at(hits, 3, "C-MERGE") == "resolved" and at(hits, 3, "T-MERGE") is None
+    assert at(hits, 4, "T-MERGE") == "resolved" and at(hits, 4, "C-MERGE") is None
+    assert at(hits, 5, "C-MERGE") == "resolved" and at(hits, 5, "T-MERGE") is None
+    # PEP 586: Literal[True] and Literal[1] are different types, so 1 matches neither overload:
+    # nothing is picked and both stay open; so too when `*rest` could fill any parameter.
+    for line in (6, 7):
+        assert at(hits, line, "T-MERGE") == "inferred" and at(hits, line, "C-MERGE") == "inferred", line
 
 
 def test_parameters_receive_defaults_and_the_arguments_of_calls(query: Query) -> None:
@@ -456,14 +481,17 @@ def test_without_the_source_another_path_to_a_changed_name_is_a_guess() -> None:
 def test_an_outcome_that_is_not_the_librarys_leaves_the_receiver_open(query: Query) -> None:
     code = """
         import heronframe as hf
-        hf.load("p").stack_rows(1)
+        hf.load("p", many).stack_rows(1)
+        hf.load("p").stack_rows(2)
     """
-    # PEP 484 overloads: `load` gives a dict or a Table; a dict has no stack_rows to break.
+    # PEP 484 overloads: with `many` unknown, `load` gives a dict or a Table; a dict has no
+    # stack_rows to break. Without `many`, only the Table overload fits.
     assert at(found(query, code), 2, "T-STACK") == "inferred"
+    assert at(found(query, code), 3, "T-STACK") == "resolved"
     # Still open after a method that the Table alternative types (the dict's `transpose` is not).
     code = """
         import heronframe as hf
-        hf.load("p").transpose().stack_rows(1)
+        hf.load("p", many).transpose().stack_rows(1)
     """
     assert at(found(query, code), 2, "T-STACK") == "inferred"
 

@@ -7,7 +7,9 @@ from typing import Sequence
 
 import libcst as cst
 
+from impactscope.resolve.arguments import fact_of, literal_of
 from impactscope.resolve.definitions import note_arguments
+from impactscope.resolve.overloads import Fact, select
 from impactscope.resolve.refs import CallShape
 from impactscope.resolve.scopes import Scope
 from impactscope.resolve.values import (
@@ -72,7 +74,54 @@ class Calls(Walk):
             init = func.lookup("__init__")
             if isinstance(init, UserFunc):
                 self.call_user(init, scope)
+        if isinstance(func, Lib) and self.q.model.returns(func.name) is None and not any(a.star for a in node.args):
+            positional = [fact_of(a.value, v) for a, v in zip(node.args, values) if a.keyword is None]
+            keywords = {a.keyword.value: fact_of(a.value, v) for a, v in zip(node.args, values) if a.keyword is not None}
+            picked = self.pick_overload(func.name, positional, keywords)
+            if picked is not None:
+                return picked
         return self.call_result(func)
+
+    def pick_overload(self, dotted: str, positional: list[Fact], keywords: dict[str, Fact]) -> Value | None:
+        """What a call of an overloaded library callable gives, from the overloads it can match
+        first (resolve/overloads.py); None when the overloads cannot tell."""
+        overloads = self.q.model.overloads(dotted)
+        if not overloads:
+            return None
+        outcomes = select(overloads, positional, keywords, self.q.model)
+        if outcomes is None:
+            return None
+        classes = tuple(c for c in outcomes if c is not None)
+        if not classes:
+            return UNKNOWN
+        if len(classes) == 1 and None in outcomes:
+            return OneOf((classes[0], _NOT_LIBRARY))
+        return instance_of(classes)
+
+    def operator(self, dunders: tuple[str, str], left: Value, right: Value,
+                 left_node: cst.BaseExpression, right_node: cst.BaseExpression) -> Value:
+        """`left OP right` with a library instance on a side: what the library's special method is
+        typed to return. The Language Reference, "Emulating numeric types": `x.__op__(y)` first;
+        the reflected `y.__rop__(x)` when x is a builtin literal (whose method declines a library
+        operand). A right operand of a subclass that overrides the reflected method would go
+        first, so two instances of different classes are not judged."""
+        method, reflected = dunders
+        if isinstance(left, Inst) and not (isinstance(right, Inst) and right.cls != left.cls):
+            if self.q.model.kind(f"{left.cls}.{method}") is not None:
+                return self.call_dunder(left.cls, method, [fact_of(right_node, right)])
+            return UNKNOWN
+        if isinstance(right, Inst) and literal_of(left_node) is not None:
+            if self.q.model.kind(f"{right.cls}.{reflected}") is not None:
+                return self.call_dunder(right.cls, reflected, [fact_of(left_node, left)])
+        return UNKNOWN
+
+    def call_dunder(self, cls: str, method: str, positional: list[Fact]) -> Value:
+        dotted = f"{cls}.{method}"
+        if self.q.model.returns(dotted) is None:
+            picked = self.pick_overload(dotted, positional, {})
+            if picked is not None:
+                return picked
+        return self.call_result(Lib(dotted, bound=True))
 
     def call_result(self, func: Value) -> Value:
         if isinstance(func, Lib):
@@ -102,6 +151,24 @@ class Calls(Walk):
         if isinstance(func, UserFunc):
             return self.returns_of(func)
         return UNKNOWN
+
+
+# The Language Reference, "Emulating numeric types" and "Basic customization" (rich comparisons):
+# the special method an operator calls on its left operand, and the reflected one on its right.
+BINARY = {
+    "Add": ("__add__", "__radd__"), "Subtract": ("__sub__", "__rsub__"), "Multiply": ("__mul__", "__rmul__"),
+    "Divide": ("__truediv__", "__rtruediv__"), "FloorDivide": ("__floordiv__", "__rfloordiv__"),
+    "Modulo": ("__mod__", "__rmod__"), "Power": ("__pow__", "__rpow__"),
+    "MatrixMultiply": ("__matmul__", "__rmatmul__"), "BitAnd": ("__and__", "__rand__"),
+    "BitOr": ("__or__", "__ror__"), "BitXor": ("__xor__", "__rxor__"),
+    "LeftShift": ("__lshift__", "__rlshift__"), "RightShift": ("__rshift__", "__rrshift__"),
+}
+COMPARISON = {
+    "Equal": ("__eq__", "__eq__"), "NotEqual": ("__ne__", "__ne__"), "LessThan": ("__lt__", "__gt__"),
+    "GreaterThan": ("__gt__", "__lt__"), "LessThanEqual": ("__le__", "__ge__"),
+    "GreaterThanEqual": ("__ge__", "__le__"),
+}
+UNARY = {"Minus": "__neg__", "Plus": "__pos__", "BitInvert": "__invert__"}
 
 
 def call_shape(args: Sequence[cst.Arg]) -> CallShape:

@@ -5,13 +5,16 @@ from __future__ import annotations
 
 import libcst as cst
 
-from impactscope.resolve.calls import instance_of
+from impactscope.resolve.arguments import fact_of
+from impactscope.resolve.calls import BINARY, COMPARISON, UNARY, instance_of
 from impactscope.resolve.definitions import all_params
+from impactscope.resolve.overloads import UNKNOWN_FACT, Fact
 from impactscope.resolve.receivers import Receiver, ThroughSuper
 from impactscope.resolve.refs import CallShape
 from impactscope.resolve.scopes import Scope
 from impactscope.resolve.values import (
     UNKNOWN,
+    Display,
     Foreign,
     Inst,
     Lib,
@@ -58,6 +61,15 @@ class Expressions(Walk):
             if isinstance(part, cst.FormattedString):
                 self.generic(part, scope)
             return Foreign("literal")
+        if isinstance(node, (cst.List, cst.Set)) and all(type(el) is cst.Element for el in node.elements):
+            kind = "list" if isinstance(node, cst.List) else "set"
+            return Display("literal", kind, tuple(self.expr(el.value, scope) for el in node.elements))
+        if isinstance(node, cst.Dict) and all(isinstance(el, cst.DictElement) for el in node.elements):
+            values = []
+            for el in node.elements:
+                self.expr(el.key, scope)  # type: ignore[union-attr]
+                values.append(self.expr(el.value, scope))
+            return Display("literal", "dict", tuple(values))
         if isinstance(node, (cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
             self.generic(node, scope)
             return Foreign("literal")
@@ -69,6 +81,23 @@ class Expressions(Walk):
             return Foreign("lambda")
         if isinstance(node, cst.Subscript):
             return self.subscript(node, scope)
+        if isinstance(node, cst.BinaryOperation) and type(node.operator).__name__ in BINARY:
+            left, right = self.expr(node.left, scope), self.expr(node.right, scope)
+            return self.operator(BINARY[type(node.operator).__name__], left, right, node.left, node.right)
+        if isinstance(node, cst.Comparison) and len(node.comparisons) == 1:
+            left = self.expr(node.left, scope)
+            target = node.comparisons[0]
+            right = self.expr(target.comparator, scope)
+            dunders = COMPARISON.get(type(target.operator).__name__)
+            if dunders is None:
+                return Foreign("literal")  # `in`, `is`: a bool (the Language Reference, "Comparisons")
+            return self.operator(dunders, left, right, node.left, target.comparator)
+        if isinstance(node, cst.UnaryOperation):
+            operand = self.expr(node.expression, scope)
+            dunder = UNARY.get(type(node.operator).__name__)
+            if dunder is None:
+                return Foreign("literal")  # `not x` is a bool
+            return self.call_dunder(operand.cls, dunder, []) if isinstance(operand, Inst) else UNKNOWN
         if isinstance(node, cst.IfExp):
             self.expr(node.test, scope)
             return join(self.expr(node.body, scope), self.expr(node.orelse, scope))
@@ -88,13 +117,25 @@ class Expressions(Walk):
         """`x[key]`: for a library instance, what the library's `__getitem__` is typed to return
         (column selection, `.loc[...]` indexers); anything else is not known."""
         receiver = self.expr(node.value, scope)
+        key = UNKNOWN_FACT
         for element in node.slice:
-            self.generic(element, scope)
+            if len(node.slice) == 1 and isinstance(element.slice, cst.Index) and element.slice.star is None:
+                key = fact_of(element.slice.value, self.expr(element.slice.value, scope))
+            else:
+                self.generic(element, scope)
+        if len(node.slice) > 1:
+            key = Fact(builtin="tuple")  # `x[a, b]` passes one tuple
+        elif isinstance(node.slice[0].slice, cst.Slice):
+            key = Fact(builtin="slice")
         if isinstance(receiver, Inst):
-            typed = self.q.model.returns(f"{receiver.cls}.__getitem__")
+            getitem = f"{receiver.cls}.__getitem__"
+            typed = self.q.model.returns(getitem)
             if typed is not None:
                 return Inst(typed)
-            return instance_of(self.q.model.returns_all(f"{receiver.cls}.__getitem__"))
+            picked = self.pick_overload(getitem, [key], {})
+            if picked is not None:
+                return picked
+            return instance_of(self.q.model.returns_all(getitem))
         if isinstance(receiver, Tup) and len(node.slice) == 1 and isinstance(node.slice[0].slice, cst.Index):
             key = node.slice[0].slice.value
             if isinstance(key, cst.Integer) and int(key.value, 0) < len(receiver.items):
@@ -158,6 +199,13 @@ class Expressions(Walk):
             typed = self.q.model.attribute_type(dotted)
             if typed is not None:
                 return Inst(typed), receiver.cls
+            if (self.q.model.knows_kinds and attr not in self.q.names and not attr.startswith("__")
+                    and self.q.model.kind(dotted) is None):
+                # The Language Reference, "Customizing attribute access": __getattr__ answers a
+                # name the class does not have (a column read as an attribute).
+                served = self.q.model.returns(f"{receiver.cls}.__getattr__")
+                if served is not None:
+                    return Inst(served), receiver.cls
             return Lib(dotted, bound=True), f"<{receiver.cls}>"
         if isinstance(receiver, OneOf):
             if receiver.member:

@@ -47,6 +47,15 @@ class Foreign:
 
 
 @dataclass(frozen=True)
+class Display(Foreign):
+    """A list, set or dict display: a builtin value whose items (a dict's values) are known one by
+    one, for telling overloads apart (`concat([t1, t2])`)."""
+
+    kind: str = "list"
+    items: tuple["Value", ...] = ()
+
+
+@dataclass(frozen=True)
 class ProjMod:
     """A module of the project being analysed."""
 

@@ -18,6 +18,8 @@ import ast
 from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping
 
+from .syntax import dotted_name
+
 # Builtin types a literal or a display can be an instance of. Names only: the values are
 # never built, and a library class that derives from one of these is judged apart.
 BUILTIN_TYPES = frozenset({
@@ -179,13 +181,13 @@ class AnnotationReader:
             return self.read(module, node.left).union(self.read(module, node.right))
         if isinstance(node, ast.Subscript):
             return self._subscript(module, node)
-        text = _dotted(node)
+        text = dotted_name(node)
         if text is None:
             return UNSURE
         return self._named(module, text, None)
 
     def _subscript(self, module: str, node: ast.Subscript) -> Accepts:
-        head_text = _dotted(node.value)
+        head_text = dotted_name(node.value)
         head = (head_text or "").rpartition(".")[2]
         items = node.slice.elts if isinstance(node.slice, ast.Tuple) else [node.slice]
         if head in ("Optional", "Union"):
@@ -196,7 +198,7 @@ class AnnotationReader:
         if head == "Literal":
             keys = []
             for item in items:
-                if isinstance(item, ast.Subscript) and _dotted(item.value) in ("Literal", "typing.Literal"):
+                if isinstance(item, ast.Subscript) and dotted_name(item.value) in ("Literal", "typing.Literal"):
                     keys.extend(self._subscript(module, item).literals)
                     continue
                 key = literal_key(item.value) if isinstance(item, ast.Constant) else None
@@ -243,17 +245,6 @@ class AnnotationReader:
         if outside.startswith(_STRUCTURAL_MODULES) or "." not in outside:
             return UNSURE
         return Accepts(foreign=(outside,))
-
-
-def _dotted(node: ast.expr) -> str | None:
-    parts: list[str] = []
-    while isinstance(node, ast.Attribute):
-        parts.append(node.attr)
-        node = node.value
-    if not isinstance(node, ast.Name):
-        return None
-    parts.append(node.id)
-    return ".".join(reversed(parts))
 
 
 def _is_ellipsis(node: ast.expr) -> bool:
