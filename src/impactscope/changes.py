@@ -37,7 +37,7 @@ class Kind(str, enum.Enum):
 
 _DOTTED = re.compile(r"[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-9_]*)*\Z")
 _IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
-_LIBRARY_KEYS = {"name", "release", "requires_python", "source", "import_name", "modules"}
+_LIBRARY_KEYS = {"name", "release", "requires_python", "source", "stubs", "import_name", "modules"}
 _CHANGE_KEYS = {
     "id", "member", "kind", "replacement", "parameter", "new_parameter",
     "position", "deprecated_in", "note", "dynamic", "certainty", "default",
@@ -86,6 +86,9 @@ class ChangeList:
     digest: str = ""
     modules: tuple[str, ...] = ()  # the library's top-level modules; () means (import_name,)
     path: Path | None = field(default=None, compare=False)  # the file it was read from, for messages
+    # A PEP 561 stub package (`heronframe-stubs`) read with the source: the stubs type what the
+    # source leaves untyped, the source keeps what the stubs dropped (deprecated members).
+    stubs: Path | None = None
     # The text it was read from, kept so that it is read once: the results file stores it, and
     # the path may be a pipe (`<(...)`) or a file that is gone by the time `report` runs.
     text: str = field(default="", compare=False, repr=False)
@@ -174,11 +177,15 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
                 f"{where}: [library] requires_python {library['requires_python']!r} is not a PEP 440 "
                 f'specifier; write e.g. ">=3.9"'
             ) from None
-    source = None
+    source = stubs = None
     if "source" in library:
         if not isinstance(library["source"], str):
             raise ChangeListError(f"{where}: [library] source must be a path string")
         source = (path.parent / library["source"]).resolve()
+    if "stubs" in library:
+        if not isinstance(library["stubs"], str):
+            raise ChangeListError(f"{where}: [library] stubs must be a path string")
+        stubs = (path.parent / library["stubs"]).resolve()
 
     types = _types(data.get("types", {}), where)
     entries = data.get("change", [])
@@ -202,6 +209,7 @@ def parse_change_list(raw: bytes, path: Path) -> ChangeList:
         release=release,
         requires_python=requires_python,
         source=source,
+        stubs=stubs,
         types=types,
         digest=hashlib.sha256(raw).hexdigest(),
         modules=modules,

@@ -119,6 +119,11 @@ def scan(
     library_installed: Optional[str] = typer.Option(
         None, "--library-installed", metavar="NAME", help="Read an installed distribution's files (never imported)."
     ),
+    library_stubs: Optional[Path] = typer.Option(
+        None, "--library-stubs", metavar="PATH",
+        help="Also read the library's PEP 561 stub package here (e.g. a -stubs folder): its types, with the "
+        "source's names (overrides [library] stubs in the change list).",
+    ),
     limit: List[str] = typer.Option(
         [], "--limit", metavar="NAME=VALUE",
         help="Change a reading limit, e.g. file_bytes=4000000 or members=500000 (repeatable; see README).",
@@ -147,6 +152,7 @@ def scan(
                 changes, roots, out, single=single, jobs=jobs, fresh=fresh, cluster=cluster,
                 progress=for_stream(sys.stderr, quiet=quiet),
                 library_source=library_source, library_installed=library_installed, limits=limits,
+                library_stubs=library_stubs,
             )
         )
     except KeyboardInterrupt as stop:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import multiprocessing
 import os
 import pickle
@@ -15,8 +16,10 @@ import impactscope.surface as surface_package
 from impactscope.changes import load_change_list
 from impactscope.scan import library as library_module
 from impactscope.scan import run as run_module
-from impactscope.scan.library import SURFACE_SUFFIX, ScanLibrary, prepare_library, source_digest
+from impactscope.scan.library import SURFACE_SUFFIX, ScanLibrary, library_digest, prepare_library, source_digest
 from impactscope.scan.run import run_scan
+from impactscope.store import ResultStore
+from impactscope.surface.check import UnknownMemberError
 from impactscope.surface.model import Surface
 
 from .helpers import CHANGES, build_corpus, snapshot, write_changes
@@ -173,3 +176,67 @@ def test_source_digest_never_opens_a_fifo(setup, tmp_path):
 
 def test_library_module_keeps_no_state_between_scans():
     assert not [name for name, value in vars(library_module).items() if isinstance(value, (dict, list, set)) and not name.startswith("__")]
+
+
+STUB_CHANGES = """\
+[library]
+name = "heronframe"
+release = "3.0"
+
+[[change]]
+id = "HF-1"
+member = "heronframe.Table.stack_rows"
+kind = "removed"
+"""
+
+
+def _stubbed_library(tmp_path: Path) -> tuple[Path, Path]:
+    """A source whose methods are untyped, and a PEP 561 stub package that types them but has
+    dropped the deprecated `stack_rows` (as real stub packages do). Invented, fictional."""
+    source = tmp_path / "lib" / "heronframe"
+    source.mkdir(parents=True)
+    (source / "__init__.py").write_text("from .core import Table\n", encoding="utf-8")
+    (source / "core.py").write_text(
+        "class Table:\n    def head(self):\n        return self\n    def stack_rows(self, other):\n        return self\n",
+        encoding="utf-8",
+    )
+    stubs = tmp_path / "lib" / "heronframe-stubs"
+    stubs.mkdir(parents=True)
+    (stubs / "__init__.pyi").write_text("from .core import Table as Table\n", encoding="utf-8")
+    (stubs / "core.pyi").write_text("class Table:\n    def head(self) -> Table: ...\n", encoding="utf-8")
+    return source, stubs
+
+
+def test_stubs_type_what_the_source_leaves_untyped_and_the_source_keeps_what_they_dropped(tmp_path: Path) -> None:
+    source, stubs = _stubbed_library(tmp_path)
+    changes = write_changes(tmp_path, STUB_CHANGES)
+    corpus = tmp_path / "corpus"
+    (corpus / "app").mkdir(parents=True)
+    (corpus / "app" / "main.py").write_text(
+        "import heronframe as hf\nt = hf.Table()\nt.head().stack_rows(1)\n", encoding="utf-8"
+    )
+
+    def level(out: Path, **options: object) -> str | None:
+        run_scan(changes, [corpus], out, jobs=1, library_source=source, **options)
+        store = ResultStore.open(out)
+        try:
+            return max((f.confidence.label for f in store.findings() if f.line == 3), default=None)
+        finally:
+            store.close()
+
+    # The source alone does not say what head() returns; with the stubs it is a Table.
+    assert level(tmp_path / "source.sqlite") != "resolved"
+    assert level(tmp_path / "both.sqlite", library_stubs=stubs) == "resolved"
+    # The stubs alone have no stack_rows: the change list is refused, naming the stubs.
+    with pytest.raises(UnknownMemberError, match="stack_rows.*heronframe-stubs"):
+        run_scan(changes, [corpus], tmp_path / "stubs.sqlite", jobs=1, library_stubs=stubs)
+
+
+def test_the_surface_file_changes_with_the_stubs(tmp_path: Path) -> None:
+    source, stubs = _stubbed_library(tmp_path)
+    changes = load_change_list(write_changes(tmp_path, STUB_CHANGES))
+    plain = library_digest(dataclasses.replace(changes, source=source))
+    both = library_digest(dataclasses.replace(changes, source=source, stubs=stubs))
+    assert plain == source_digest(source, "heronframe") and both != plain
+    (stubs / "core.pyi").write_text("class Table:\n    def head(self) -> int: ...\n", encoding="utf-8")
+    assert library_digest(dataclasses.replace(changes, source=source, stubs=stubs)) != both

@@ -18,11 +18,15 @@ import tempfile
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from impactscope import __version__
 from impactscope.changes import ChangeList
 from impactscope.resolve.model import SurfaceModel, TypesModel
 from impactscope.resolve.query import Query
+
+if TYPE_CHECKING:
+    from impactscope.surface.model import Surface
 
 SURFACE_SUFFIX = ".surface-"
 
@@ -98,14 +102,38 @@ def surface_file(out: Path, digest: str) -> Path:
     return out.with_name(f"{out.name}{SURFACE_SUFFIX}{digest[:24]}.json")
 
 
+def library_digest(changes: ChangeList) -> str:
+    """The digest of what the surface is built from: the source, the stubs, or both ("" for
+    neither: the change list's `[types]` alone)."""
+    parts = [source_digest(p, changes.import_name) for p in (changes.source, changes.stubs) if p is not None]
+    if len(parts) < 2:
+        return parts[0] if parts else ""
+    return hashlib.sha256(("stubs+source\0" + "\0".join(parts)).encode()).hexdigest()
+
+
+def build_library_surface(changes: ChangeList) -> "Surface":
+    """The surface of the library the change list names: its source, its stubs, or both merged
+    (PEP 561: the stubs describe the types; the source keeps the names the stubs left out)."""
+    from impactscope.surface import build_surface
+    from impactscope.surface.model import merge_surfaces
+
+    if changes.stubs is None:
+        assert changes.source is not None
+        return build_surface(changes.source, changes.import_name)
+    stubs = build_surface(changes.stubs, changes.import_name)
+    if changes.source is None:
+        return stubs
+    return merge_surfaces(stubs, build_surface(changes.source, changes.import_name))
+
+
 def prepare_library(changes: ChangeList, out: Path, digest: str | None = None) -> ScanLibrary:
     """The library for a scan into `out`: the surface file beside it is reused when its content
     hash matches, else the surface is built from the source and written there (older surface
     files of the same results file are removed). `digest`: the source's digest, if known."""
-    if changes.source is None:
+    if changes.source is None and changes.stubs is None:
         return ScanLibrary(changes)
     if not digest:
-        digest = source_digest(changes.source, changes.import_name)
+        digest = library_digest(changes)
     cache = surface_file(out, digest)
     from impactscope.surface.check import check_members
 
@@ -117,12 +145,10 @@ def prepare_library(changes: ChangeList, out: Path, digest: str | None = None) -
     else:
         # The change list may differ from the one the file was built for: check it (exit 2 on a
         # typo). `query` reads the surface from the JSON once; it is then kept for this process.
-        check_members(changes, cached.query.model.surface, changes.source)  # type: ignore[attr-defined,arg-type]
+        check_members(changes, cached.query.model.surface, changes.stubs or changes.source)  # type: ignore[attr-defined,arg-type]
         return cached
-    from impactscope.surface import build_surface
-
-    built = build_surface(changes.source, changes.import_name)
-    check_members(changes, built, changes.source)
+    built = build_library_surface(changes)
+    check_members(changes, built, changes.stubs or changes.source)
     text = json.dumps(built.to_json(), separators=(",", ":"))
     _write_atomically(cache, text)
     for stale in out.parent.glob(f"{glob.escape(out.name)}{SURFACE_SUFFIX}*.json"):
@@ -145,4 +171,4 @@ def _write_atomically(path: Path, text: str) -> None:
         raise
 
 
-__all__ = ["ScanLibrary", "prepare_library", "source_digest", "surface_file"]
+__all__ = ["ScanLibrary", "build_library_surface", "library_digest", "prepare_library", "source_digest", "surface_file"]

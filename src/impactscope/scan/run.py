@@ -37,7 +37,7 @@ from impactscope.scan.cache import (
 )
 from impactscope.scan.executor import Batch, Scanned, run_inline, run_pool
 from impactscope.scan.job import ScanJob
-from impactscope.scan.library import prepare_library, source_digest
+from impactscope.scan.library import library_digest, prepare_library
 from impactscope.resolve.faults import ANALYSIS_ERROR
 from impactscope.scan.progress import ScanProgress, Silent, Tally
 from impactscope.store import CachedProject, ResultStore, StoreError
@@ -185,6 +185,7 @@ def run_scan(
     cluster: str | None = None,
     library_source: str | os.PathLike[str] | None = None,
     library_installed: str | None = None,
+    library_stubs: str | os.PathLike[str] | None = None,
     limits: Limits = DEFAULT_LIMITS,
 ) -> ScanSummary:
     """Scan `roots` for the changes in `changes_path` into the results file `out`.
@@ -194,7 +195,7 @@ def run_scan(
     removed. `jobs` <= 0 means one worker per core; `cluster` is a Dask scheduler address or
     "local". Raises KeyboardInterrupt after committing the finished projects.
     """
-    changes = _with_library(load_change_list(changes_path), library_source, library_installed)
+    changes = _with_library(load_change_list(changes_path), library_source, library_installed, library_stubs)
     check_roots(roots)
     out = Path(out)
     _check_out(out)
@@ -204,7 +205,7 @@ def run_scan(
     if cluster is not None and not cluster.strip():
         raise ScanOptionError("--cluster needs a scheduler address such as tcp://host:8786, or `local`")
     workers = jobs if jobs > 0 else (os.cpu_count() or 1)
-    digest = source_digest(changes.source, changes.import_name) if changes.source is not None else ""
+    digest = library_digest(changes)
     settings = ScanSettings.of(changes, prefilter=prefilter, library=digest, limits=limits)
     fingerprint = settings.fingerprint
     ignored: list[tuple[str, str]] = []  # root-level items that are not projects
@@ -274,10 +275,20 @@ def run_scan(
 
 
 def _with_library(
-    changes: ChangeList, source: str | os.PathLike[str] | None, installed: str | None
+    changes: ChangeList, source: str | os.PathLike[str] | None, installed: str | None,
+    stubs: str | os.PathLike[str] | None = None,
 ) -> ChangeList:
-    """Apply --library-source / --library-installed: the change list then names that source,
-    so workers, clusters and the cache fingerprint all see one library."""
+    """Apply --library-source / --library-installed / --library-stubs: the change list then names
+    that source, so workers, clusters and the cache fingerprint all see one library."""
+    if stubs is not None:
+        where = Path(stubs)
+        if not where.exists():
+            raise ScanOptionError(f"--library-stubs {where}: no such file or folder; pass the stub package's folder")
+        changes = dataclasses.replace(changes, stubs=where.resolve())
+    if changes.stubs is not None and not changes.stubs.exists():
+        raise ScanOptionError(
+            f"[library] stubs {changes.stubs}: no such file or folder; fix the path (it is relative to the change list)"
+        )
     if source is not None and installed is not None:
         raise ScanOptionError("give --library-source or --library-installed, not both")
     if installed is not None:
