@@ -38,7 +38,9 @@ from pypi import DistFile, fetch
 
 HERE = Path(__file__).resolve().parent
 IMPACTSCOPE = [sys.executable, "-c", "from impactscope.cli import main; main()"]
-MODES = ("plain", "source")  # without / with --library-source
+# without --library-source, with it, and with it and the library's PEP 561 stub package
+# (--library-stubs), for a library whose corpus entry pins one
+MODES = ("plain", "source", "stubs")
 
 
 @dataclass(frozen=True)
@@ -48,6 +50,7 @@ class Library:
     old: DistFile
     new: DistFile
     platform: str | None
+    stubs: DistFile | None = None  # a stub package for `old` (pandas-stubs), read with its source
 
 
 @dataclass(frozen=True)
@@ -67,7 +70,9 @@ def load_corpus(path: Path = HERE / "corpus.toml") -> Corpus:
         old, new = (
             DistFile(name, entry[k]["version"], entry[k]["file"], "wheel", entry[k]["sha256"]) for k in ("old", "new")
         )
-        libraries.append(Library(name, HERE / entry["changes"], old, new, entry["old"].get("platform")))
+        stubs = entry.get("stubs")
+        stub_dist = None if stubs is None else DistFile(stubs["name"], stubs["version"], stubs["file"], "wheel", stubs["sha256"])
+        libraries.append(Library(name, HERE / entry["changes"], old, new, entry["old"].get("platform"), stub_dist))
     projects = tuple(
         (p["library"], DistFile(p["name"], p["version"], p["file"], p["kind"], p["sha256"], uploaded=p["uploaded"]))
         for p in data["project"]
@@ -83,6 +88,9 @@ def cmd_fetch(corpus: Corpus, work: Path) -> None:
         for dist in (lib.old, lib.new):
             fetch(dist, work / "dist" / "library", platform=lib.platform)
             print(f"library {dist.filename}")
+        if lib.stubs is not None:
+            fetch(lib.stubs, work / "dist" / "library")
+            print(f"library {lib.stubs.filename}")
         for dist in corpus.of(lib.name):
             fetch(dist, work / "dist" / lib.name)
             print(f"{lib.name:9} {dist.kind:5} {dist.filename}")
@@ -136,6 +144,11 @@ def unpack(archive: Path, target: Path, strip_top: bool) -> None:
         dest.write_bytes(data)
 
 
+def stubs_dir(work: Path, lib: Library) -> Path:
+    assert lib.stubs is not None
+    return work / "library" / f"{lib.stubs.name}-{lib.stubs.version}" / f"{lib.name}-stubs"
+
+
 def library_source(work: Path, lib: Library, which: str = "old") -> Path:
     dist = lib.old if which == "old" else lib.new
     return work / "library" / f"{lib.name}-{dist.version}" / lib.name
@@ -145,6 +158,8 @@ def cmd_unpack(corpus: Corpus, work: Path) -> None:
     for lib in corpus.libraries:
         for dist in (lib.old, lib.new):
             unpack(work / "dist" / "library" / dist.filename, work / "library" / f"{lib.name}-{dist.version}", False)
+        if lib.stubs is not None:
+            unpack(work / "dist" / "library" / lib.stubs.filename, stubs_dir(work, lib).parent, False)
         for dist in corpus.of(lib.name):
             unpack(work / "dist" / lib.name / dist.filename, work / "projects" / lib.name / dist.name, True)
         print(f"{lib.name}: {len(corpus.of(lib.name))} projects unpacked under {work / 'projects' / lib.name}")
@@ -197,11 +212,15 @@ def cmd_scan(corpus: Corpus, work: Path, jobs: int, archives: bool, only: str | 
             continue
         root = work / "dist" / lib.name if archives else work / "projects" / lib.name
         for mode in MODES:
+            if mode == "stubs" and lib.stubs is None:
+                continue
             out = out_dir / f"{lib.name}-{mode}.sqlite"
             command = [*IMPACTSCOPE, "scan", str(lib.changes), str(root), "--out", str(out),
                        "--jobs", str(jobs), "--fresh", "--quiet"]
-            if mode == "source":
+            if mode in ("source", "stubs"):
                 command += ["--library-source", str(library_source(work, lib))]
+            if mode == "stubs":
+                command += ["--library-stubs", str(stubs_dir(work, lib))]
             started = time.perf_counter()
             done = subprocess.run(command, capture_output=True, text=True, env=env)
             seconds = time.perf_counter() - started

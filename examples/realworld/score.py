@@ -121,7 +121,8 @@ def run(corpus: Corpus, work: Path, verdict_dir: Path = HERE / "verdicts", json_
                 continue
             found = read_findings(path)
             judged_changes = {k[4] for k in verdicts}
-            label = "without the library's source" if mode == "plain" else "with the library's source"
+            label = {"plain": "without the library's source", "source": "with the library's source",
+                     "stubs": f"with the library's source and {lib.stubs.name if lib.stubs else 'its'} stubs"}[mode]
             print(f"\n{lib.name} {lib.old.version} -> {lib.new.version}, {label} "
                   f"(scan {timings.get(f'{lib.name}-{mode}', '?')} s)")
             print(f"  {'change':26} {'sites':>5} {'R-prec':>6} {'R-rec':>6} {'any-rec':>7} {'poss':>5} "
