@@ -426,6 +426,7 @@ CASES = [
     Case("operator-chain-100k", _module(OPERATOR_CHAIN)),
     Case("nested-calls-3000", _module(NESTED_CALLS)),
     Case("nested-lists-3000", _module(NESTED_LISTS)),
+    Case("module-1.9mb", _module(SLOW_MODULE)),
     Case("time-budget-1s", _module(SLOW_MODULE), options=("--limit", "file_seconds=1")),
     # change lists
     Case("toml-deep", _module(""), changes=deep_toml, expect=2),
