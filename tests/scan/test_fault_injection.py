@@ -63,11 +63,19 @@ def test_killed_workers_and_a_full_disk_in_one_scan(tmp_path: Path, monkeypatch:
         if len(added) == FULL_AT:
             pages = self._db.execute("PRAGMA page_count").fetchone()[0]
             self._db.execute(f"PRAGMA max_page_count = {pages}")
-        real_add(self, result, key, commit=commit)
+        try:
+            real_add(self, result, key, commit=commit)
+        except StoreError:
+            pending.clear()  # the store rolled its open transaction back: those were never kept
+            raise
         pending.append(result.name)
 
     def commit(self):  # type: ignore[no-untyped-def]
-        real_commit(self)
+        try:
+            real_commit(self)
+        except StoreError:
+            pending.clear()  # rolled back, as above
+            raise
         committed.update(pending)
         pending.clear()
 
