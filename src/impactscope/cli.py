@@ -379,6 +379,10 @@ def rewrite(
     library_source: Optional[Path] = typer.Option(
         None, "--library-source", help="Read the library's own source here (overrides [library] source in the change list)."
     ),
+    library_stubs: Optional[Path] = typer.Option(
+        None, "--library-stubs", metavar="PATH",
+        help="Also read the library's PEP 561 stub package here, as scan does.",
+    ),
     apply: bool = typer.Option(False, "--apply", help="Rewrite folder projects in place instead of writing patches."),
     check: bool = typer.Option(False, "--check", help="Exit 1 when any rewrite is pending (patches are still written)."),
     quiet: bool = typer.Option(False, "--quiet", help="Print nothing but errors."),
@@ -399,6 +403,7 @@ def rewrite(
         raise typer.Exit(2)
     summary = _guarded(
         lambda: run_rewrite(changes, roots, out, single=single, jobs=jobs, library_source=library_source,
+                            library_stubs=library_stubs,
                             apply=apply, progress=for_stream(sys.stderr, quiet=quiet))
     )
     if not quiet:

@@ -4,7 +4,6 @@
 from __future__ import annotations
 
 import concurrent.futures
-import dataclasses
 import functools
 import json
 import os
@@ -25,7 +24,7 @@ from impactscope.rewrite.review import review_json, review_markdown
 from impactscope.scan.cache import held, picklable, replayed, streamed
 from impactscope.scan.library import ScanLibrary, prepare_library
 from impactscope.scan.progress import ScanProgress, Silent, Tally
-from impactscope.scan.run import count_projects
+from impactscope.scan.run import count_projects, with_library
 
 REVIEW_MD = "review.md"
 REVIEW_JSON = "review.json"
@@ -60,12 +59,13 @@ def run_rewrite(
     single: bool = False,
     jobs: int = 1,
     library_source: str | os.PathLike[str] | None = None,
+    library_stubs: str | os.PathLike[str] | None = None,
     apply: bool = False,
     progress: ScanProgress | None = None,
 ) -> RewriteSummary:
     """Rewrite the corpus under `roots` for the changes in `changes_path`; patches and review
     files go to the folder `out` (with `apply`, folder projects are edited in place instead)."""
-    changes = _with_source(load_change_list(changes_path), library_source)
+    changes = with_library(load_change_list(changes_path), library_source, None, library_stubs)
     check_roots(roots)
     out = Path(out)
     if out.exists() and not out.is_dir():
@@ -105,19 +105,6 @@ def run_rewrite(
         review=len(reviews), settled=sum(p.settled for p in done), seconds=time.perf_counter() - started,
         out=out, applied=apply,
     )
-
-
-def _with_source(changes: ChangeList, source: str | os.PathLike[str] | None) -> ChangeList:
-    if source is not None:
-        where = Path(source)
-        if not where.exists():
-            raise RewriteOptionError(f"--library-source {where}: no such file or folder; pass the library's package folder")
-        return dataclasses.replace(changes, source=where.resolve())
-    if changes.source is not None and not changes.source.exists():
-        raise RewriteOptionError(
-            f"[library] source {changes.source}: no such file or folder; fix the path (it is relative to the change list)"
-        )
-    return changes
 
 
 def _one(library: ScanLibrary, project: Project) -> ProjectRewrite:

@@ -195,7 +195,7 @@ def run_scan(
     removed. `jobs` <= 0 means one worker per core; `cluster` is a Dask scheduler address or
     "local". Raises KeyboardInterrupt after committing the finished projects.
     """
-    changes = _with_library(load_change_list(changes_path), library_source, library_installed, library_stubs)
+    changes = with_library(load_change_list(changes_path), library_source, library_installed, library_stubs)
     check_roots(roots)
     out = Path(out)
     _check_out(out)
@@ -274,7 +274,7 @@ def run_scan(
     )
 
 
-def _with_library(
+def with_library(
     changes: ChangeList, source: str | os.PathLike[str] | None, installed: str | None,
     stubs: str | os.PathLike[str] | None = None,
 ) -> ChangeList:
