@@ -115,6 +115,8 @@ def run(corpus: Corpus, work: Path, verdict_dir: Path = HERE / "verdicts", json_
         change_ids = [c["id"] for c in changes_of(lib)]
         summary["libraries"][lib.name] = {}
         for mode in MODES:
+            if mode == "stubs" and lib.stubs is None:
+                continue  # no stub package pinned for this library
             path = results_path(work, lib.name, mode, archives)
             if not path.exists():
                 print(f"{lib.name} {mode}: no results at {path} (run.py scan first)")
