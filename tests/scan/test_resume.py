@@ -3,7 +3,8 @@
 The scans run as subprocesses (the signals are real) with the commit policy of scan/run.py set
 to "every COMMIT_EVERY finished projects" instead of "every half second": the first commit then
 comes after a few projects whatever the machine's speed, so a small corpus is still being
-scanned when the signal lands, and the size of every committed batch is known.
+scanned when the signal lands, and the size of every committed batch is known. One kill test
+keeps the time-based commits instead (every 0 s), so that branch of the policy is run too.
 """
 
 from __future__ import annotations
@@ -23,18 +24,21 @@ PROJECTS = 48  # plus the loose notebook: 12 batches, so a signal after the firs
 BULK = 20
 COMMIT_EVERY = 4
 
-#: `impactscope` with scan/run.py's commit policy made count-based (the same hook test_cli_errors patches).
-_ENTRY = f"""\
+#: `impactscope` with scan/run.py's commit policy set (the same hook test_cli_errors patches).
+_ENTRY = """\
+import sys
 import impactscope.scan.run as run
 assert isinstance(run.COMMIT_SECONDS, float) and isinstance(run.COMMIT_PROJECTS, int), "commit policy renamed"
-run.COMMIT_SECONDS, run.COMMIT_PROJECTS = 3600.0, {COMMIT_EVERY}
+run.COMMIT_SECONDS, run.COMMIT_PROJECTS = float(sys.argv.pop(1)), int(sys.argv.pop(1))
 from impactscope.cli import main
 main()
 """
+BY_COUNT = (3600.0, COMMIT_EVERY)
+BY_TIME = (0.0, 10**6)
 
 
-def _cli(*args: object) -> list[str]:
-    return [sys.executable, "-c", _ENTRY, "scan", *map(str, args)]
+def _cli(*args: object, policy: tuple[float, int] = BY_COUNT) -> list[str]:
+    return [sys.executable, "-c", _ENTRY, *map(str, policy), "scan", *map(str, args)]
 
 
 def _committed(results: Path) -> int:
@@ -89,16 +93,17 @@ def setup(tmp_path_factory):
     return base, changes, root, expected
 
 
-@pytest.mark.parametrize("jobs", [1, 2])
-def test_sigkill_then_rerun_gives_the_uninterrupted_results(setup, jobs):
+@pytest.mark.parametrize(("jobs", "policy"), [(1, BY_COUNT), (2, BY_COUNT), (1, BY_TIME)], ids=["1-count", "2-count", "1-time"])
+def test_sigkill_then_rerun_gives_the_uninterrupted_results(setup, jobs, policy):
     base, changes, root, expected = setup
-    out = base / f"killed{jobs}.sqlite"
-    cmd = _cli(changes, root, "--out", out, "--jobs", jobs, "--quiet")
+    out = base / f"killed{jobs}-{policy[1]}.sqlite"
+    cmd = _cli(changes, root, "--out", out, "--jobs", jobs, "--quiet", policy=policy)
     killed = _interrupt_after_first_commit(cmd, out, signal.SIGKILL)
     assert killed.returncode == -signal.SIGKILL
     partial = snapshot(out)
     names = _check_partial(partial, expected)
-    assert len(names) % COMMIT_EVERY == 0, "a kill left part of a batch committed"
+    if policy == BY_COUNT:
+        assert len(names) % COMMIT_EVERY == 0, "a kill left part of a batch committed"
     rerun = subprocess.run(cmd[:-1], capture_output=True, text=True, check=True)  # without --quiet
     assert f"{len(names)} unchanged, reused" in rerun.stderr, rerun.stderr
     assert snapshot(out) == expected
