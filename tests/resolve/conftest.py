@@ -142,3 +142,17 @@ def line_of(text: str, marker: str) -> int:
 @pytest.fixture
 def q() -> Query:
     return query()
+
+
+def library_query(folder: Path, library: Mapping[str, str], changes: bytes) -> Query:
+    """A query whose library is read from `library` (path -> text, dedented) written in `folder`."""
+    import textwrap
+
+    from impactscope.resolve.model import library_model
+
+    for path, text in library.items():
+        target = folder / path
+        target.parent.mkdir(parents=True, exist_ok=True)
+        target.write_text(textwrap.dedent(text).lstrip("\n"))
+    parsed = parse_change_list(changes, Path("changes.toml"))
+    return Query(parsed, library_model(parsed, source=folder / "heronframe"))

@@ -22,7 +22,7 @@ from impactscope.resolve.model import library_model
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
 
-from .conftest import at
+from .conftest import at, library_query
 
 LIBRARY = {
     "heronframe/__init__.py": """
@@ -155,13 +155,7 @@ kind = "removed"
 
 @pytest.fixture(scope="module")
 def query(tmp_path_factory: pytest.TempPathFactory) -> Query:
-    root = tmp_path_factory.mktemp("lib")
-    for path, text in LIBRARY.items():
-        target = root / path
-        target.parent.mkdir(parents=True, exist_ok=True)
-        target.write_text(textwrap.dedent(text).lstrip("\n"))
-    changes = parse_change_list(CHANGES, Path("changes.toml"))
-    return Query(changes, library_model(changes, source=root / "heronframe"))
+    return library_query(tmp_path_factory.mktemp("lib"), LIBRARY, CHANGES)
 
 
 def found(query: Query, code: str, files: dict[str, str] | None = None) -> list[Finding]:

@@ -11,18 +11,15 @@ on). The library stubs below are invented test data in the demo's scenario (hero
 from __future__ import annotations
 
 import textwrap
-from pathlib import Path
 
 import pytest
 
-from impactscope.changes import parse_change_list
 from impactscope.corpus.sources import read_python
 from impactscope.findings import Finding
-from impactscope.resolve.model import library_model
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
 
-from .conftest import at
+from .conftest import at, library_query
 
 STUBS = {
     "heronframe/__init__.pyi": """
@@ -77,13 +74,7 @@ kind = "removed"
 
 @pytest.fixture(scope="module")
 def query(tmp_path_factory: pytest.TempPathFactory) -> Query:
-    root = tmp_path_factory.mktemp("stubs")
-    for path, text in STUBS.items():
-        target = root / path
-        target.parent.mkdir(parents=True, exist_ok=True)
-        target.write_text(textwrap.dedent(text).lstrip("\n"))
-    changes = parse_change_list(CHANGES, Path("changes.toml"))
-    return Query(changes, library_model(changes, source=root / "heronframe"))
+    return library_query(tmp_path_factory.mktemp("stubs"), STUBS, CHANGES)
 
 
 def found(query: Query, code: str) -> list[Finding]:
