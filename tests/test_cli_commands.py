@@ -193,3 +193,26 @@ def test_weights_show_in_every_format_and_must_match_a_project(scanned_demo_corp
     refused = runner.invoke(app, ["report", results, "--weights", str(stranger)])
     assert refused.exit_code == 2 and "Traceback" not in refused.output
     assert "--weights nobody.csv: none of its 1 project names is a project of these results" in refused.output
+
+
+def test_a_scan_in_process_gives_back_the_sigterm_handler_it_found(tmp_path: Path) -> None:
+    import signal
+
+    corpus = tmp_path / "corpus" / "app"
+    corpus.mkdir(parents=True)
+    (corpus / "main.py").write_text("import heronframe\n", encoding="utf-8")
+    changes = tmp_path / "changes.toml"
+    changes.write_text('[library]\nname = "heronframe"\n\n[[change]]\nmember = "heronframe.stack"\nkind = "removed"\n',
+                       encoding="utf-8")
+
+    def mine(signum, frame):  # type: ignore[no-untyped-def]
+        pass
+
+    before = signal.signal(signal.SIGTERM, mine)
+    try:
+        done = CliRunner().invoke(app, ["scan", str(changes), str(tmp_path / "corpus"), "--output",
+                                        str(tmp_path / "r.sqlite"), "--jobs", "1", "--quiet"])
+        assert done.exit_code == 0, done.output
+        assert signal.getsignal(signal.SIGTERM) is mine
+    finally:
+        signal.signal(signal.SIGTERM, before)

@@ -144,8 +144,11 @@ def scan(
     limits = _guarded(lambda: DEFAULT_LIMITS.updated(limit))
     # SIGTERM (a CI job cancelled, `kill`) ends a scan as Ctrl-C does: finished projects are
     # committed, the workers stopped, and the same command resumes.
+    # The handler before this scan comes back after it: a program that runs scans in process
+    # keeps its own SIGTERM behaviour.
+    previous = None
     if threading.current_thread() is threading.main_thread():  # only there can Python take signals
-        signal.signal(signal.SIGTERM, _terminated)
+        previous = signal.signal(signal.SIGTERM, _terminated)
     try:
         summary = _guarded(
             lambda: run_scan(
@@ -162,6 +165,9 @@ def scan(
             err=True,
         )
         raise typer.Exit(143 if isinstance(stop, Terminated) else 130) from None
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
     if not quiet:
         reused = f" ({summary.reused} unchanged, reused)" if summary.reused else ""
         died = summary.faults.get("worker died", 0)

@@ -16,6 +16,8 @@ import ast
 import re
 import warnings
 
+from impactscope.corpus.limits import DEFAULT_LIMITS
+
 # A file below all three counts cannot reach the depths above (each level needs one of these).
 OPENERS = 1_000  # "(", "[", "{"
 LAMBDAS = 1_000  # "lambda"
@@ -32,7 +34,7 @@ _CHAIN = re.compile(r"(?:\.[^\W\d]\w*){%d}" % CHAIN)
 # characters of code than this is read at token level instead. Spaces, tabs and newlines are not
 # counted: narrowing leaves blank lines behind, and they cost libcst next to nothing. The most
 # libcst was given from one file of the real-world corpus was 123,809 (EoN/analytic.py, whole).
-LIBCST_CHARS = 200_000
+LIBCST_CHARS = DEFAULT_LIMITS.parse_chars  # the default; a scan reads its Limits
 _WHITESPACE = (" ", "\t", "\n")
 
 

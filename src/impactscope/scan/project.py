@@ -31,7 +31,7 @@ from impactscope.scan.slicing import narrow
 NO_CANDIDATE = "no candidate"
 TOO_DEEP = "too deeply nested"
 TOO_LARGE = "too large to parse"
-_GUARDED = {TOO_DEEP: "nested too deeply to parse safely", TOO_LARGE: f"over {LIBCST_CHARS:,} characters of code to parse"}
+_GUARDED = {TOO_DEEP: "nested too deeply to parse safely", TOO_LARGE: "over the limit parse_chars of code to parse (raise it with --limit parse_chars=N)"}
 
 
 def _is_manifest(path: str, size: int) -> bool:
@@ -121,7 +121,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         if path in faults:
             continue
         try:
-            deep = clock.run(path, _without_deep_cells, sources[path])
+            deep = clock.run(path, _without_deep_cells, sources[path], project.limits.parse_chars)
         except Exception as exc:  # noqa: BLE001 - the guard is part of the analysis of this file
             faults[path] = describe(exc, stage="nesting guard")
             keep.discard(path)
@@ -203,16 +203,17 @@ def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
     return result
 
 
-def _without_deep_cells(source: Source) -> Source | str:
+def _without_deep_cells(source: Source, parse_chars: int = LIBCST_CHARS) -> Source | str:
     """`source` without the cells libcst must not parse (they are counted as skipped): nested too
-    deeply (its native parser would crash the process) or, past the first LIBCST_CHARS of code,
-    too large (its tree would take gigabytes). For a module file that is either, the reason."""
+    deeply (its native parser would crash the process) or, past the first `parse_chars` of code
+    (Limits.parse_chars), too large (its tree would take gigabytes). For a module file that is
+    either, the reason."""
     refused: list[tuple[int | None, str]] = []
     kept = []
     size = 0
     for cell in source.cells:
         size += code_size(cell.code)
-        reason = TOO_DEEP if too_deep(cell.code) else TOO_LARGE if size > LIBCST_CHARS else None
+        reason = TOO_DEEP if too_deep(cell.code) else TOO_LARGE if size > parse_chars else None
         if reason is None:
             kept.append(cell)
         else:
