@@ -24,7 +24,7 @@ from typing import IO, Generator, Iterable, Iterator, Sequence, Union
 
 from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
-from impactscope.corpus.roots import Entry, Project, archive_stem, check_roots, discover
+from impactscope.corpus.roots import Entry, NotAProject, Project, archive_stem, check_roots, discover, survey
 from impactscope.errors import InputError
 from impactscope.scan.cache import (
     ScanSettings,
@@ -128,14 +128,18 @@ class Reused:
     prior: CachedProject
 
 
-Planned = Union[Batch, Reused]
+Planned = Union[Batch, Reused, NotAProject]
 
 
-def _plan(found: Iterable[Project], cached: dict[str, CachedProject], fingerprint: str) -> Iterator[Planned]:
-    """Batches of the projects that need scanning, and the unchanged projects, as they are found."""
+def _plan(found: Iterable[Project | NotAProject], cached: dict[str, CachedProject], fingerprint: str) -> Iterator[Planned]:
+    """Batches of the projects that need scanning, and the unchanged projects and the root items
+    that are not projects (passed on as they are), as they are found."""
     batch: list[Project] = []
     weight = 0
     for project in found:
+        if isinstance(project, NotAProject):
+            yield project
+            continue
         prior = cached.get(project.name)
         stamp = origin_stamp(project.origin)
         entries: list[Entry] | None = None
@@ -208,10 +212,7 @@ def run_scan(
     digest = library_digest(changes)
     settings = ScanSettings.of(changes, prefilter=prefilter, library=digest, limits=limits)
     fingerprint = settings.fingerprint
-    ignored: list[tuple[str, str]] = []  # root-level items that are not projects
-    found = _nonempty(
-        discover(roots, single=single, library=changes.import_name, ignored=ignored, limits=limits), roots, ignored
-    )
+    found = _nonempty(survey(roots, single=single, library=changes.import_name, limits=limits), roots)
     lock = _exclusive(out)  # held until this process ends or closes it: one writer at a time
     try:
         if fresh:
@@ -229,6 +230,7 @@ def run_scan(
     )
     tallier = _Tallier(total, display)
     seen: set[str] = set()
+    ignored: list[tuple[str, str]] = []  # root-level items that are not projects, as they come
     removed = 0
     faults: dict[str, int] = {}
     display.start(total)
@@ -242,6 +244,9 @@ def run_scan(
             last_commit = time.monotonic()
             uncommitted = 0
             for scanned in results:
+                if isinstance(scanned, NotAProject):
+                    ignored.append((scanned.where, scanned.reason))
+                    continue
                 if isinstance(scanned, Reused):
                     seen.add(scanned.name)
                     tallier.add(scanned.prior.files, scanned.prior.findings, reused=True)
@@ -340,15 +345,19 @@ def _check_out(out: Path) -> None:
         raise ScanOptionError(f"--out {out}: the folder {folder} is not writable; pass another --out")
 
 
-def _nonempty(found: Iterator[Project], roots: Sequence[str], ignored: list[tuple[str, str]]) -> Iterator[Project]:
-    """`found`, after checking that it holds a project (only the first is looked at; the rest are
+def _nonempty(found: Iterator[Project | NotAProject], roots: Sequence[str]) -> Iterator[Project | NotAProject]:
+    """`found`, after checking that it holds a project (read up to the first; the rest are
     discovered as the scan goes). A scan of nothing is a mistake (a wrong path), not a result."""
+    ignored: list[NotAProject] = []
     first = next(found, None)
+    while isinstance(first, NotAProject):
+        ignored.append(first)
+        first = next(found, None)
     if first is None:
         where = ", ".join(roots)
         what = "the root" if len(roots) == 1 else "the roots"
         if ignored:
-            reasons = sorted({reason for _, reason in ignored})
+            reasons = sorted({item.reason for item in ignored})
             held = f"{'holds' if len(roots) == 1 else 'hold'} {len(ignored)} item(s) that are not projects ({'; '.join(reasons)})"
         else:
             held = "is empty" if len(roots) == 1 else "are empty"
@@ -356,7 +365,7 @@ def _nonempty(found: Iterator[Project], roots: Sequence[str], ignored: list[tupl
             f"{where}: no projects to scan: {what} {held}; pass a folder or archive whose children are "
             "projects, or add --single to scan a root as one project"
         )
-    return itertools.chain((first,), found)
+    return itertools.chain(ignored, (first,), found)
 
 
 def _execute(
@@ -366,17 +375,17 @@ def _execute(
     settings: ScanSettings,
     workers: int,
     cluster: str | None,
-) -> Generator[Scanned | Reused, None, None]:
+) -> Generator[Scanned | Reused | NotAProject, None, None]:
     """Run the batches, passing the reused projects on in between; the library is prepared
     (surface read or loaded from beside `out`) only once there is a batch, so a rescan that
     changed nothing never touches it."""
     # The executor pulls batches as it has room; the reused projects met on the way wait here
     # until the next result goes out.
-    waiting: deque[Reused] = deque()
+    waiting: deque[Reused | NotAProject] = deque()
 
     def batches() -> Iterator[Batch]:
         for item in planned:
-            if isinstance(item, Reused):
+            if isinstance(item, (Reused, NotAProject)):
                 waiting.append(item)
             else:
                 yield item
@@ -403,7 +412,7 @@ def _execute(
     yield from _drained(waiting)
 
 
-def _drained(waiting: deque[Reused]) -> Iterator[Reused]:
+def _drained(waiting: deque[Reused | NotAProject]) -> Iterator[Reused | NotAProject]:
     while waiting:
         yield waiting.popleft()
 
