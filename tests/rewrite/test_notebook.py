@@ -72,3 +72,22 @@ def test_a_line_count_change_in_a_list_source_keeps_the_separators() -> None:
 def test_a_v3_notebook_is_not_spliced() -> None:
     with pytest.raises(NotebookShapeError):
         cell_sources(json.dumps({"nbformat": 3, "worksheets": []}))
+
+
+def test_a_moved_chain_takes_the_import_in_another_cell_along(tmp_path: Path) -> None:
+    """The notebook's code cells are one module: `import heronframe.plotting` in the first cell
+    follows the chain rewritten in the third (docs/rewrite.md)."""
+    cells = [
+        _code(["import heronframe.plotting\n", "import heronframe as hf"], 0),
+        {"cell_type": "markdown", "id": "m1", "metadata": {}, "source": ["heronframe.plotting"]},
+        _code(["t = hf.Table()\n", "heronframe.plotting.scatter_grid(t, 'a', 'b')"], 2),
+    ]
+    before = _notebook(cells, indent=1)
+    (changed,) = rewrite_files(tmp_path, {"nb.ipynb": before}).files
+    expected = before.replace('"import heronframe.plotting\\n"', '"import heronframe.viz\\n"')
+    expected = expected.replace('"heronframe.plotting.scatter_grid', '"heronframe.viz.scatter_grid')
+    assert changed.new.decode("utf-8") == expected
+    nbformat.validate(nbformat.reads(expected, as_version=4))
+    again = tmp_path / "again"
+    again.mkdir()
+    assert rewrite_files(again, {"nb.ipynb": expected}).files == ()

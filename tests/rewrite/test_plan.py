@@ -35,6 +35,35 @@ PAIRS = {
         "import heronframe as hf\n\nhf.plotting.scatter_grid(t, 'x', 'y')\n",
         "import heronframe as hf\n\nhf.viz.scatter_grid(t, 'x', 'y')\n",
     ),
+    "moved: `import old.module` becomes `import new.module` when nothing else reads it": (
+        "import heronframe.plotting\n\ndef render(tbl):\n    return heronframe.plotting.scatter_grid(tbl, 'a', 'b')\n",
+        "import heronframe.viz\n\ndef render(tbl):\n    return heronframe.viz.scatter_grid(tbl, 'a', 'b')\n",
+    ),
+    "moved: `import old.module` still read stays, `import new.module` follows it": (
+        "import heronframe.plotting\n\nheronframe.plotting.scatter_grid(t, 'a', 'b')\nprint(heronframe.plotting.__name__)\n",
+        "import heronframe.plotting\nimport heronframe.viz\n\nheronframe.viz.scatter_grid(t, 'a', 'b')\n"
+        "print(heronframe.plotting.__name__)\n",
+    ),
+    "moved: an indented import keeps its indentation and the file its CRLF": (
+        "def render(tbl):\r\n    import heronframe.plotting\r\n    return heronframe.plotting.scatter_grid(tbl, 'a', 'b')\r\n",
+        "def render(tbl):\r\n    import heronframe.viz\r\n    return heronframe.viz.scatter_grid(tbl, 'a', 'b')\r\n",
+    ),
+    "moved: an added import takes the old one's indentation and line end": (
+        "def render(tbl):\r\n    import heronframe.plotting\r\n    heronframe.plotting.scatter_grid(tbl, 'a', 'b')\r\n"
+        "    return heronframe.plotting",
+        "def render(tbl):\r\n    import heronframe.plotting\r\n    import heronframe.viz\r\n"
+        "    heronframe.viz.scatter_grid(tbl, 'a', 'b')\r\n    return heronframe.plotting",
+    ),
+    "moved: `import top` alone gains no import (the library's __init__ decides)": (
+        "import heronframe\n\nheronframe.plotting.scatter_grid(t, 'a', 'b')\n",
+        "import heronframe\n\nheronframe.viz.scatter_grid(t, 'a', 'b')\n",
+    ),
+    "moved: the new module imported already is not imported twice": (
+        "import heronframe.plotting\nimport heronframe.viz\n\nheronframe.plotting.scatter_grid(t, 'a', 'b')\n"
+        "heronframe.plotting.__name__\n",
+        "import heronframe.plotting\nimport heronframe.viz\n\nheronframe.viz.scatter_grid(t, 'a', 'b')\n"
+        "heronframe.plotting.__name__\n",
+    ),
     "parameter renamed by keyword; a positional use stays": (
         "import heronframe as hf\n\nt = hf.Table()\nt.pivot('a', 'b', 'c', fill=0)\nt.pivot('a', 'b', 'c', 0)\n",
         "import heronframe as hf\n\nt = hf.Table()\nt.pivot('a', 'b', 'c', fill_value=0)\nt.pivot('a', 'b', 'c', 0)\n",
@@ -94,6 +123,12 @@ def test_a_re_exported_name_keeps_its_binding(tmp_path: Path) -> None:
         # A fallback import: the scan reads its failure as handled (possible at most), so it stays.
         ("try:\n    from heronframe.plotting import scatter_grid\nexcept ImportError:\n    scatter_grid = None\n", "possible"),
         ("import heronframe as hf\n\nopts = {}\nhf.read_table('a.csv', **opts)\n", "kwargs"),
+        # The import of the old module is a fallback, kept as it is: its chain is not rewritten alone.
+        (
+            "try:\n    import heronframe.plotting\nexcept ImportError:\n    pass\n\n"
+            "heronframe.plotting.scatter_grid(t, 'x', 'y')\n",
+            "inside try/except ImportError",
+        ),
         (
             "import heronframe as hf\n\nclass Mine(hf.Table):\n    def stack_rows(self, other):\n        return other\n",
             "override",
@@ -154,3 +189,9 @@ def test_a_python2_file_goes_to_review(tmp_path: Path) -> None:
     result = rewrite_files(tmp_path, {"old.py": source})
     assert result.files == ()
     assert result.review and all("token level" in r.why for r in result.review)
+
+
+@pytest.mark.parametrize("name", [n for n in sorted(PAIRS) if n.startswith("moved: ")])
+def test_a_second_run_over_a_moved_rewrite_changes_nothing(tmp_path: Path, name: str) -> None:
+    _, after = PAIRS[name]
+    assert rewritten(tmp_path, {"main.py": after}) == {}

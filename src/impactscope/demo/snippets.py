@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import json
 import random
+import re
 from collections import Counter
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -145,6 +146,8 @@ class SourceBuilder:
         self._sites: list[tuple[int, Expect]] = []
         self._legacy: list[tuple[int, Expect]] = []
         self._becomes: list[tuple[int, str]] = []
+        self._module_imports: list[tuple[int, str, str]] = []  # line, old module, the module it moved to
+        self.group: list[SourceBuilder] = [self]  # the builders of one module (a notebook's code cells)
 
     @property
     def next_line(self) -> int:
@@ -163,6 +166,14 @@ class SourceBuilder:
         self._sites.extend((number, expect) for expect in expects)
         if becomes is not None:
             self._becomes.append((number, becomes(text)))
+        return number
+
+    def module_import(self, old: str, new: str) -> int:
+        """`import old`, where `old` is a module whose members moved to `new`. When the rewrite
+        turns a chain `old.member` of this module into `new.member`, the import follows (see
+        `rewrites`)."""
+        number = self.line(f"import {old}")
+        self._module_imports.append((number, old, new))
         return number
 
     def legacy(self, text: str, *expects: Expect) -> int:
@@ -191,8 +202,16 @@ class SourceBuilder:
 
     @property
     def rewrites(self) -> tuple[tuple[int, str], ...]:
-        """(line, expected text after the rewrite) of the lines a rewrite changes."""
-        return tuple(self._becomes)
+        """(line, expected text after the rewrite) of the lines a rewrite changes. An
+        `import old` of `module_import` becomes `import new` when a chain through `old` is
+        rewritten in the module and no line reads `old` after the rewrite, and gains an
+        `import new` after it when one still does (docs/rewrite.md)."""
+        out = list(self._becomes)
+        for number, old, new in self._module_imports:
+            rewritten, read = _chains_after(self.group, old, new)
+            if rewritten:
+                out.append((number, f"import {new}" if not read else f"import {old}\nimport {new}"))
+        return tuple(sorted(out))
 
     @property
     def source_lines(self) -> tuple[str, ...]:
@@ -200,6 +219,24 @@ class SourceBuilder:
 
     def text(self) -> str:
         return "".join(f"{line}\n" for line in self._lines)
+
+
+def _chains_after(group: Sequence[SourceBuilder], old: str, new: str) -> tuple[bool, bool]:
+    """Whether a chain `x.<old's rest>.member` of `group` becomes `x.<new's rest>.member`,
+    and whether a line still reads `x.<old's rest>` after the rewrite (imports and comments
+    aside; the demo writes no `#` inside strings)."""
+    old_chain = re.compile(rf"\w\.{re.escape(old.partition('.')[2])}\b")
+    new_chain = re.compile(rf"\w\.{re.escape(new.partition('.')[2])}\.")
+    rewritten = read = False
+    for b in group:
+        after = dict(b._becomes)
+        for number, text in enumerate(b.source_lines, start=1):
+            code = after.get(number, text).split("#")[0]
+            if code.lstrip().startswith(("import ", "from ")):
+                continue
+            rewritten |= number in after and bool(old_chain.search(text)) and bool(new_chain.search(code))
+            read |= bool(old_chain.search(code))
+    return rewritten, read
 
 
 class Namer:
@@ -322,7 +359,7 @@ def header(b: SourceBuilder, c: Ctx, kind: str) -> str:
         rule = "alias-import-plain"
     elif kind == "import-sub":
         alias = "heronframe"
-        b.line("import heronframe.plotting")
+        b.module_import("heronframe.plotting", "heronframe.viz")
         c.note("import-nonsite")
         rule = "alias-import-submodule"
     elif kind == "importlib":
@@ -439,7 +476,7 @@ def s_import_plotting(b: SourceBuilder, c: Ctx) -> None:
     x, y = c.cols(2)
     f = c.fresh(c.choice(["render", "plot_station", "grid_view"]))
     if variant == 0:
-        b.line("import heronframe.plotting")
+        b.module_import("heronframe.plotting", "heronframe.viz")
         callee = "heronframe.plotting"
     elif variant == 1:
         callee = c.fresh(c.choice(["hp", "hplot", "plots"]))
@@ -1410,9 +1447,12 @@ class NotebookBuilder:
 
     def __init__(self) -> None:
         self._cells: list[tuple[str, SourceBuilder, int]] = []
+        self._code: list[SourceBuilder] = []  # the code cells: one module for the rewrite
 
     def code(self) -> SourceBuilder:
         b = SourceBuilder()
+        b.group = self._code
+        self._code.append(b)
         self._cells.append(("code", b, 0))
         return b
 

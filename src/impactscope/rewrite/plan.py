@@ -19,10 +19,12 @@ from libcst.metadata import MetadataWrapper, ParentNodeProvider, PositionProvide
 from impactscope.changes import Change, Kind
 from impactscope.findings import Confidence, Finding
 from impactscope.rewrite.transform import (
+    AddImport,
     AddKeyword,
     DropArgument,
     Edit,
     MoveImport,
+    RenameImport,
     RenameKeyword,
     RenameName,
     RenameString,
@@ -45,6 +47,7 @@ class CellPlan:
     rewritten: list[Finding] = field(default_factory=list)  # sites with an edit
     settled: list[Finding] = field(default_factory=list)  # sites that need none (a positional use of a renamed parameter, ...)
     review: list[Review] = field(default_factory=list)
+    moved: set[tuple[str, str]] = field(default_factory=set)  # (old module, new module) of rewritten chains
 
     def add(self, node: cst.CSTNode, edit: Edit) -> None:
         self.edits.setdefault(node, []).append(edit)
@@ -99,6 +102,7 @@ class Planner:
         is_class: Callable[[str], bool],
         spelled_elsewhere: Callable[[str], bool],
         binds_top: Callable[[str, str], bool] = lambda name, top: False,
+        guarded: frozenset[str] = frozenset(),
         line_offset: int = 0,
     ) -> None:
         wrapper = MetadataWrapper(module)
@@ -107,6 +111,7 @@ class Planner:
         self.is_class = is_class
         self.spelled_elsewhere = spelled_elsewhere
         self.binds_top = binds_top  # whether a name is bound to a top module (name, top) in this file
+        self.guarded = guarded  # modules this file imports inside try/except ImportError
         self.offset = line_offset
         self.positions = wrapper.resolve(PositionProvider)
         self.parents = wrapper.resolve(ParentNodeProvider)
@@ -264,7 +269,12 @@ class Planner:
         chain = (get_full_name_for_node(attribute) or "").split(".")
         member = change.member.split(".")
         if len(chain) == len(member) and chain[1:] == member[1:] and self.binds_top(chain[0], member[0]):
+            old_module, new_module = change.member.rpartition(".")[0], change.replacement.rpartition(".")[0]
+            if old_module in self.guarded:
+                # The issue keeps such imports as they are; a chain renamed without its import breaks.
+                return f"import {old_module} is inside try/except ImportError: rewrite the import and its uses by hand"
             self.plan.add(attribute, ReplaceExpression(".".join([chain[0], *change.replacement.split(".")[1:]])))
+            self.plan.moved.add((old_module, new_module))
             self.plan.rewritten.append(finding)
             return None
         return "reached through a module name bound to the old place: rewrite its import by hand"
@@ -402,3 +412,100 @@ def imported_names(module: cst.Module) -> set[str]:
 
     module.visit(Imports())
     return out
+
+
+def follow_imports(plans: list[CellPlan], binds_top: Callable[[str, str], bool]) -> None:
+    """After chains `old.module.member` became `new.module.member` (in any of `plans`, the cells
+    of one file): each `import old.module` becomes `import new.module` when nothing reads
+    `old.module` any more, else `import new.module` is added after it (unless the file has it).
+    With no `import old.module`, nothing is added: `import top` then leaves `top.new` to the
+    library's own `__init__`. Edits go into the plans of the cells holding the imports."""
+    for old, new in sorted(set().union(*(plan.moved for plan in plans))):
+        imports = [(plan, found) for plan in plans for found in _imports_of(plan.module, old)]
+        if any(_reads(plan, old, binds_top) for plan in plans):
+            if any(_imports_of(plan.module, new) for plan in plans):
+                continue
+            for plan, (statement, _index, own_line) in imports:
+                if own_line:
+                    plan.add(statement, AddImport(new))
+            continue
+        for plan, (statement, index, _own_line) in imports:
+            plan.add(statement, RenameImport(index, new))
+
+
+def _imports_of(module: cst.Module, dotted: str) -> list[tuple[cst.Import, int, bool]]:
+    """Every `import dotted` alias (no `as`) in `module`: its statement, its index there, and
+    whether the statement is a line of its own (a line can follow it)."""
+    out: list[tuple[cst.Import, int, bool]] = []
+
+    class Imports(cst.CSTVisitor):
+        line = 0
+
+        def visit_SimpleStatementLine(self, node: cst.SimpleStatementLine) -> None:
+            self.line += 1
+
+        def leave_SimpleStatementLine(self, original_node: cst.SimpleStatementLine) -> None:
+            self.line -= 1
+
+        def visit_Import(self, node: cst.Import) -> None:
+            for index, alias in enumerate(node.names):
+                if alias.asname is None and get_full_name_for_node(alias.name) == dotted:
+                    out.append((node, index, self.line > 0))
+
+    module.visit(Imports())
+    return out
+
+
+def _reads(plan: CellPlan, dotted: str, binds_top: Callable[[str, str], bool]) -> bool:
+    """Whether the cell, once its edits are made, still reads the module `dotted` through a name
+    bound to its top module (`top.sub`, `top.sub.x`, `alias.sub.x`); imports are not reads."""
+    top, _, rest = dotted.partition(".")
+    found = False
+
+    class Reads(cst.CSTVisitor):
+        def visit_Import(self, node: cst.Import) -> bool:
+            return False
+
+        def visit_ImportFrom(self, node: cst.ImportFrom) -> bool:
+            return False
+
+        def visit_Attribute(self, node: cst.Attribute) -> bool:
+            nonlocal found
+            if any(isinstance(e, ReplaceExpression) for e in plan.edits.get(node, ())):
+                return False  # rewritten: reads the new module
+            head, _, tail = (get_full_name_for_node(node) or "").partition(".")
+            if (tail == rest or tail.startswith(rest + ".")) and binds_top(head, top):
+                found = True
+                return False
+            return True
+
+    plan.module.visit(Reads())
+    return found
+
+
+def guarded_imports(modules: Iterable[cst.Module]) -> frozenset[str]:
+    """Modules named by `import M` inside the body of a `try` that handles ImportError (or
+    ModuleNotFoundError, or any exception with a bare `except:`): a fallback the issue keeps."""
+    out: set[str] = set()
+
+    class Inner(cst.CSTVisitor):
+        def visit_Import(self, node: cst.Import) -> None:
+            out.update(get_full_name_for_node(alias.name) or "" for alias in node.names)
+
+    class Tries(cst.CSTVisitor):
+        def visit_Try(self, node: cst.Try) -> None:
+            if any(_handles_import_error(h) for h in node.handlers):
+                node.body.visit(Inner())
+
+    for module in modules:
+        module.visit(Tries())
+    return frozenset(out)
+
+
+def _handles_import_error(handler: cst.ExceptHandler) -> bool:
+    if handler.type is None:
+        return True
+    kinds = handler.type.elements if isinstance(handler.type, cst.Tuple) else [handler.type]
+    names = {(get_full_name_for_node(k.value if isinstance(k, cst.Element) else k) or "").rpartition(".")[2]
+             for k in kinds}
+    return bool(names & {"ImportError", "ModuleNotFoundError"})

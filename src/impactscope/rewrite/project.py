@@ -19,7 +19,16 @@ from impactscope.findings import Finding
 from impactscope.resolve.query import Query
 from impactscope.rewrite.lines import Lines, apply, hunks
 from impactscope.rewrite.notebook import NotebookShapeError, cell_sources, splice
-from impactscope.rewrite.plan import Planner, Review, imported_names, top_bindings, why_not_rewritten
+from impactscope.rewrite.plan import (
+    CellPlan,
+    Planner,
+    Review,
+    follow_imports,
+    guarded_imports,
+    imported_names,
+    top_bindings,
+    why_not_rewritten,
+)
 from impactscope.rewrite.pyfile import PyFile
 from impactscope.rewrite.transform import apply_edits
 from impactscope.scan.project import scan_project
@@ -162,7 +171,8 @@ def _rewrite_file(path: str, data: bytes, findings: list[Finding], changes: dict
     except (SyntaxError, UnicodeDecodeError, LookupError, cst.ParserSyntaxError, RecursionError) as exc:
         return f"cannot be parsed again for rewriting ({type(exc).__name__})"
     plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere,
-                   binds_top=top_names.read([module])).run(findings)
+                   binds_top=top_names.read([module]), guarded=guarded_imports([module])).run(findings)
+    follow_imports([plan], top_names)
     new_code = apply_edits(plan.module, plan.edits).code
     text = apply(file.lines, hunks(file.lines.normalised, new_code))
     try:
@@ -192,8 +202,8 @@ def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: 
         except (cst.ParserSyntaxError, RecursionError):
             pass
     top_names.read(list(parsed.values()))  # a name bound in one cell serves the cells after it
-    new_sources: dict[int, str] = {}
-    done: list[Finding] = []
+    guarded = guarded_imports(parsed.values())
+    plans: dict[int, CellPlan] = {}
     left: list[Review] = []
     quiet = 0
     for index, cell_findings in sorted(by_cell.items(), key=lambda kv: -1 if kv[0] is None else kv[0]):
@@ -205,13 +215,23 @@ def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: 
         if module is None:
             left.extend(Review(f, "cell cannot be parsed again for rewriting") for f in cell_findings)
             continue
-        offset = cell.first_line - 1
         plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere,
-                       binds_top=top_names, line_offset=offset).run(cell_findings)
+                       binds_top=top_names, guarded=guarded, line_offset=cell.first_line - 1).run(cell_findings)
         left.extend(plan.review)
         quiet += len(plan.settled)
+        plans[index] = plan
+    # The notebook's cells are one module: an import in one cell serves the uses in the others.
+    for index, module in parsed.items():
+        if index is not None and index in sources and index not in plans:
+            plans[index] = CellPlan(module)
+    follow_imports([plans[i] for i in sorted(plans)], top_names)
+    new_sources: dict[int, str] = {}
+    done: list[Finding] = []
+    for index, plan in sorted(plans.items()):
         if not plan.edits:
             continue
+        cell = code_cells[index]
+        offset = cell.first_line - 1
         original = Lines.of(sources[index].text(raw))
         new_code = apply_edits(plan.module, plan.edits).code
         changed = hunks(cell.code, new_code)

@@ -67,7 +67,23 @@ class MoveImport:
     asname: str | None = None  # set: the alias binds this name (the old one, kept for its users)
 
 
-Edit = Union[RenameName, ReplaceExpression, RenameString, RenameKeyword, AddKeyword, DropArgument, MoveImport]
+@dataclass(frozen=True)
+class RenameImport:
+    """In `import a.b, c`: the alias at `index` (no `as`) imports the dotted `name` instead."""
+
+    index: int
+    name: str
+
+
+@dataclass(frozen=True)
+class AddImport:
+    """`import name` on a line of its own after the statement's line, at its indentation."""
+
+    name: str
+
+
+Edit = Union[RenameName, ReplaceExpression, RenameString, RenameKeyword, AddKeyword, DropArgument, MoveImport,
+             RenameImport, AddImport]
 
 
 def apply_edits(module: cst.Module, edits: Mapping[cst.CSTNode, list[Edit]]) -> cst.Module:
@@ -81,7 +97,7 @@ class _Rewriter(cst.CSTTransformer):
     def __init__(self, edits: Mapping[cst.CSTNode, list[Edit]]) -> None:
         super().__init__()
         self.edits = edits
-        self.split: dict[cst.CSTNode, list[cst.ImportFrom]] = {}  # new statements, by the line they follow
+        self.split: dict[cst.CSTNode, list[cst.BaseSmallStatement]] = {}  # new statements, by the statement they follow
 
     def leave_Name(self, original: cst.Name, updated: cst.Name) -> cst.BaseExpression:
         for edit in self.edits.get(original, ()):
@@ -174,6 +190,17 @@ class _Rewriter(cst.CSTTransformer):
             return updated.with_changes(module=cst.parse_expression(first[0]), names=_listed(first[1]),
                                         lpar=None, rpar=None)
         return updated.with_changes(names=_listed(stay, parenthesised=updated.lpar is not None))
+
+    def leave_Import(self, original: cst.Import, updated: cst.Import) -> cst.Import:
+        for edit in self.edits.get(original, ()):
+            if isinstance(edit, RenameImport):
+                aliases = list(updated.names)
+                aliases[edit.index] = aliases[edit.index].with_changes(name=cst.parse_expression(edit.name))
+                updated = updated.with_changes(names=aliases)
+            elif isinstance(edit, AddImport):
+                added = cst.Import(names=[cst.ImportAlias(name=cst.parse_expression(edit.name))])  # type: ignore[arg-type]
+                self.split.setdefault(original, []).append(added)
+        return updated
 
     def leave_SimpleStatementLine(
         self, original: cst.SimpleStatementLine, updated: cst.SimpleStatementLine
