@@ -63,8 +63,13 @@ def _exposure(report: Report, change: ChangeReport) -> str:
 def _rewrite(report: Report, change: ChangeReport) -> str:
     if change.kind not in REWRITTEN or (change.kind in (Kind.REMOVED,) and not change.replacement):
         return "no automatic rewrite (each use needs a person's judgement)"
-    return ("`impactscope rewrite CHANGES.toml PATH/TO/YOUR/PROJECT --output rewrite/`, with this release's "
-            "change list, writes a patch for the proven uses and lists the rest for review")
+    command = ("`impactscope rewrite CHANGES.toml PATH/TO/YOUR/PROJECT --output rewrite/`, with this release's "
+               "change list, writes a patch for the proven uses and lists the rest for review")
+    if change.kind in (Kind.DEFAULT_CHANGED, Kind.PARAMETER_REMOVED):
+        # Mechanical only with the old default (`default = ...` in the change list), which the
+        # report does not carry: say what the patch needs.
+        return command + "; it needs the old default in the change list (`default = ...`), else every use goes to review"
+    return command
 
 
 def _replacement(change: ChangeReport) -> str:
