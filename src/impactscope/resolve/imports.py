@@ -10,7 +10,7 @@ import libcst as cst
 from libcst.helpers import get_full_name_for_node
 
 from impactscope.changes import Kind
-from impactscope.import_names import resolve_relative
+from impactscope.import_names import package_of, resolve_relative
 from impactscope.resolve.query import Query
 from impactscope.resolve.scopes import Scope, merge
 from impactscope.resolve.values import UNKNOWN, Foreign, Lib, ProjMod, Value
@@ -61,12 +61,14 @@ class Imports(Walk):
                 self.bind(scope, dotted.split(".")[0], top)
 
     def _package(self, level: int) -> str:
-        parts = self.module.split(".")
-        if not self.is_package:
-            parts = parts[:-1]
-        if level > 1:
-            parts = parts[: len(parts) - (level - 1)] if level - 1 <= len(parts) else []
-        return ".".join(parts)
+        """The package `level` leading dots name (the Language Reference's rule, one
+        implementation: import_names.resolve_relative). Where Python would refuse the import
+        (more dots than the module's package has levels, or a top-level module), the project's
+        root is taken instead: a project's module names start at its root folder, which is often
+        not the top of the package the code was written in (a repository's `src/`, a subfolder
+        shipped alone), so the dots may well be right in the code's own layout."""
+        package = package_of(self.module, self.is_package)
+        return resolve_relative(package, level) or ""
 
     def import_from(self, s: cst.ImportFrom, scope: Scope) -> None:
         level = len(s.relative)
