@@ -64,6 +64,28 @@ PAIRS = {
         "import heronframe.plotting\nimport heronframe.viz\n\nheronframe.viz.scatter_grid(t, 'a', 'b')\n"
         "heronframe.plotting.__name__\n",
     ),
+    "moved: `__import__(\"old.module\")` names the new module when nothing else reads it": (
+        'hf = __import__("heronframe.plotting")\n\nhf.plotting.scatter_grid(t, "a", "b")\n',
+        'hf = __import__("heronframe.viz")\n\nhf.viz.scatter_grid(t, "a", "b")\n',
+    ),
+    "moved: a string import keeps its quotes and prefix, and the file its CRLF": (
+        "hf = __import__(r'heronframe.plotting')\r\n\r\ndef f(t):\r\n    return hf.plotting.scatter_grid(t, 'a', 'b')\r\n",
+        "hf = __import__(r'heronframe.viz')\r\n\r\ndef f(t):\r\n    return hf.viz.scatter_grid(t, 'a', 'b')\r\n",
+    ),
+    "moved: `importlib.import_module(\"old.module\")` for its effect follows a chain from the top module": (
+        'import importlib\nimport heronframe as hf\n\nimportlib.import_module("heronframe.plotting")\n'
+        'hf.plotting.scatter_grid(t, "a", "b")\n',
+        'import importlib\nimport heronframe as hf\n\nimportlib.import_module("heronframe.viz")\n'
+        'hf.viz.scatter_grid(t, "a", "b")\n',
+    ),
+    "moved: a method called on the chain's result is no read of the old module": (
+        "import heronframe.plotting\n\nprint(heronframe.plotting.scatter_grid(t, 'a', 'b').strip())\n",
+        "import heronframe.viz\n\nprint(heronframe.viz.scatter_grid(t, 'a', 'b').strip())\n",
+    ),
+    "moved: an `import old.module` and a string import of it follow together": (
+        'import heronframe.plotting\nhf = __import__("heronframe.plotting")\n\nhf.plotting.scatter_grid(t, "a", "b")\n',
+        'import heronframe.viz\nhf = __import__("heronframe.viz")\n\nhf.viz.scatter_grid(t, "a", "b")\n',
+    ),
     "parameter renamed by keyword; a positional use stays": (
         "import heronframe as hf\n\nt = hf.Table()\nt.pivot('a', 'b', 'c', fill=0)\nt.pivot('a', 'b', 'c', 0)\n",
         "import heronframe as hf\n\nt = hf.Table()\nt.pivot('a', 'b', 'c', fill_value=0)\nt.pivot('a', 'b', 'c', 0)\n",
@@ -128,6 +150,29 @@ def test_a_re_exported_name_keeps_its_binding(tmp_path: Path) -> None:
             "try:\n    import heronframe.plotting\nexcept ImportError:\n    pass\n\n"
             "heronframe.plotting.scatter_grid(t, 'x', 'y')\n",
             "inside try/except ImportError",
+        ),
+        # The same fallback through a string import (the call's ImportError is handled).
+        (
+            'try:\n    hf = __import__("heronframe.plotting")\nexcept ImportError:\n    hf = None\n\n'
+            'hf.plotting.scatter_grid(t, "x", "y")\n',
+            "inside try/except ImportError",
+        ),
+        # The string import cannot both keep loading the old module and load the new one.
+        (
+            'hf = __import__("heronframe.plotting")\n\nhf.plotting.scatter_grid(t, "a", "b")\n'
+            "print(hf.plotting.__name__)\n",
+            "imported by a string (__import__/import_module) and still read",
+        ),
+        # `import_module` returns the old module itself: a name bound to it reads it.
+        (
+            'import importlib\nimport heronframe as hf\n\nm = importlib.import_module("heronframe.plotting")\n'
+            'hf.plotting.scatter_grid(t, "a", "b")\n',
+            "imported by a string (__import__/import_module) and still read",
+        ),
+        # The string's text is not the module's name as written (an escape): not edited in place.
+        (
+            'hf = __import__("heronframe\\x2eplotting")\n\nhf.plotting.scatter_grid(t, "a", "b")\n',
+            "not one plain literal",
         ),
         (
             "import heronframe as hf\n\nclass Mine(hf.Table):\n    def stack_rows(self, other):\n        return other\n",

@@ -146,7 +146,8 @@ class SourceBuilder:
         self._sites: list[tuple[int, Expect]] = []
         self._legacy: list[tuple[int, Expect]] = []
         self._becomes: list[tuple[int, str]] = []
-        self._module_imports: list[tuple[int, str, str]] = []  # line, old module, the module it moved to
+        # line, old module, the module it moved to, and whether the line names it in a string
+        self._module_imports: list[tuple[int, str, str, bool]] = []
         self.group: list[SourceBuilder] = [self]  # the builders of one module (a notebook's code cells)
 
     @property
@@ -173,7 +174,15 @@ class SourceBuilder:
         turns a chain `old.member` of this module into `new.member`, the import follows (see
         `rewrites`)."""
         number = self.line(f"import {old}")
-        self._module_imports.append((number, old, new))
+        self._module_imports.append((number, old, new, False))
+        return number
+
+    def string_import(self, text: str, old: str, new: str) -> int:
+        """A line importing `old` by a string literal `"old"` (`__import__("old")`, ...). The
+        string follows the chains as `import old` does when nothing reads `old` after the
+        rewrite; when something does, the chains stay as they are (see `rewrites`)."""
+        number = self.line(text)
+        self._module_imports.append((number, old, new, True))
         return number
 
     def legacy(self, text: str, *expects: Expect) -> int:
@@ -205,12 +214,20 @@ class SourceBuilder:
         """(line, expected text after the rewrite) of the lines a rewrite changes. An
         `import old` of `module_import` becomes `import new` when a chain through `old` is
         rewritten in the module and no line reads `old` after the rewrite, and gains an
-        `import new` after it when one still does (docs/rewrite.md)."""
+        `import new` after it when one still does; a `string_import` names `new` in its string
+        when nothing reads `old`, and when something does the chains through `old` of the
+        module are not rewritten (docs/rewrite.md)."""
         out = list(self._becomes)
-        for number, old, new in self._module_imports:
+        for number, old, new, by_string in self._module_imports:
             rewritten, read = _chains_after(self.group, old, new)
-            if rewritten:
+            if rewritten and by_string and not read:
+                out.append((number, self._lines[number - 1].replace(f'"{old}"', f'"{new}"')))
+            elif rewritten and not by_string and not _withdrawn(self.group, old, new):
                 out.append((number, f"import {new}" if not read else f"import {old}\nimport {new}"))
+        for old, new in {(o, n) for b in self.group for _, o, n, _ in b._module_imports}:
+            if _withdrawn(self.group, old, new):
+                chain, moved = _chain_pattern(old), re.compile(rf"\w\.{re.escape(new.partition('.')[2])}\.")
+                out = [(n, t) for n, t in out if not (chain.search(self._lines[n - 1]) and moved.search(t))]
         return tuple(sorted(out))
 
     @property
@@ -221,18 +238,30 @@ class SourceBuilder:
         return "".join(f"{line}\n" for line in self._lines)
 
 
+def _chain_pattern(module: str) -> re.Pattern[str]:
+    return re.compile(rf"\w\.{re.escape(module.partition('.')[2])}\b")
+
+
+def _withdrawn(group: Sequence[SourceBuilder], old: str, new: str) -> bool:
+    """Whether the chains through `old` go to review: a string import of `old` while a line
+    still reads it."""
+    by_string = any(o == old and s for b in group for _, o, _, s in b._module_imports)
+    return by_string and _chains_after(group, old, new)[1]
+
+
 def _chains_after(group: Sequence[SourceBuilder], old: str, new: str) -> tuple[bool, bool]:
     """Whether a chain `x.<old's rest>.member` of `group` becomes `x.<new's rest>.member`,
     and whether a line still reads `x.<old's rest>` after the rewrite (imports and comments
     aside; the demo writes no `#` inside strings)."""
-    old_chain = re.compile(rf"\w\.{re.escape(old.partition('.')[2])}\b")
+    old_chain = _chain_pattern(old)
     new_chain = re.compile(rf"\w\.{re.escape(new.partition('.')[2])}\.")
     rewritten = read = False
     for b in group:
         after = dict(b._becomes)
+        imports = {number for number, *_ in b._module_imports}
         for number, text in enumerate(b.source_lines, start=1):
             code = after.get(number, text).split("#")[0]
-            if code.lstrip().startswith(("import ", "from ")):
+            if number in imports or code.lstrip().startswith(("import ", "from ")):
                 continue
             rewritten |= number in after and bool(old_chain.search(text)) and bool(new_chain.search(code))
             read |= bool(old_chain.search(code))
@@ -375,7 +404,7 @@ def header(b: SourceBuilder, c: Ctx, kind: str) -> str:
     elif kind == "dunder-sub":
         # The Language Reference: __import__("a.b") returns the top-level package `a`.
         alias = c.choice(MODULE_ALIASES)
-        b.line(f'{alias} = __import__("heronframe.plotting")')
+        b.string_import(f'{alias} = __import__("heronframe.plotting")', "heronframe.plotting", "heronframe.viz")
         rule = "alias-dunder-import-sub"
     elif kind == "try":
         alias = c.choice(MODULE_ALIASES)

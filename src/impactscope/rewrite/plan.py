@@ -47,7 +47,8 @@ class CellPlan:
     rewritten: list[Finding] = field(default_factory=list)  # sites with an edit
     settled: list[Finding] = field(default_factory=list)  # sites that need none (a positional use of a renamed parameter, ...)
     review: list[Review] = field(default_factory=list)
-    moved: set[tuple[str, str]] = field(default_factory=set)  # (old module, new module) of rewritten chains
+    # The rewritten chains by (old module, new module): their import follows them, or they go back.
+    moved: dict[tuple[str, str], list[tuple[Finding, cst.CSTNode]]] = field(default_factory=dict)
 
     def add(self, node: cst.CSTNode, edit: Edit) -> None:
         self.edits.setdefault(node, []).append(edit)
@@ -272,9 +273,9 @@ class Planner:
             old_module, new_module = change.member.rpartition(".")[0], change.replacement.rpartition(".")[0]
             if old_module in self.guarded:
                 # The issue keeps such imports as they are; a chain renamed without its import breaks.
-                return f"import {old_module} is inside try/except ImportError: rewrite the import and its uses by hand"
+                return f"the import of {old_module} is inside try/except ImportError: rewrite the import and its uses by hand"
             self.plan.add(attribute, ReplaceExpression(".".join([chain[0], *change.replacement.split(".")[1:]])))
-            self.plan.moved.add((old_module, new_module))
+            self.plan.moved.setdefault((old_module, new_module), []).append((finding, attribute))
             self.plan.rewritten.append(finding)
             return None
         return "reached through a module name bound to the old place: rewrite its import by hand"
@@ -418,11 +419,22 @@ def follow_imports(plans: list[CellPlan], binds_top: Callable[[str, str], bool])
     """After chains `old.module.member` became `new.module.member` (in any of `plans`, the cells
     of one file): each `import old.module` becomes `import new.module` when nothing reads
     `old.module` any more, else `import new.module` is added after it (unless the file has it).
-    With no `import old.module`, nothing is added: `import top` then leaves `top.new` to the
-    library's own `__init__`. Edits go into the plans of the cells holding the imports."""
+    A call `__import__("old.module")` / `importlib.import_module("old.module")` gets the new
+    module in its string when nothing reads the old one; otherwise the chains go back to review
+    (see `_string_imports`). With no import of `old.module`, nothing is added: `import top` then
+    leaves `top.new` to the library's own `__init__`. Edits go into the plans of the cells
+    holding the imports."""
     for old, new in sorted(set().union(*(plan.moved for plan in plans))):
+        calls = [(plan, call) for plan in plans for call in _string_imports(plan.module, old)]
+        read = any(_reads(plan, old, binds_top) for plan in plans)
+        why = _why_string_import_stays([call for _, call in calls], old, read)
+        if why is not None:
+            _withdraw(plans, (old, new), why)
+            continue
+        for plan, call in calls:
+            plan.add(call.string, RenameString(new))
         imports = [(plan, found) for plan in plans for found in _imports_of(plan.module, old)]
-        if any(_reads(plan, old, binds_top) for plan in plans):
+        if read:
             if any(_imports_of(plan.module, new) for plan in plans):
                 continue
             for plan, (statement, _index, own_line) in imports:
@@ -431,6 +443,68 @@ def follow_imports(plans: list[CellPlan], binds_top: Callable[[str, str], bool])
             continue
         for plan, (statement, index, _own_line) in imports:
             plan.add(statement, RenameImport(index, new))
+
+
+@dataclass(frozen=True)
+class _StringImport:
+    """A call importing a module named by its first argument, a string."""
+
+    string: cst.BaseString  # the argument
+    plain: bool  # one literal whose text between the quotes is the module's name
+    result_read: bool  # returns the module itself (not its top package), and the value is used
+
+
+_IMPORT_FUNCTIONS = ("__import__", "importlib.import_module", "import_module")
+
+
+def _string_imports(module: cst.Module, dotted: str) -> list[_StringImport]:
+    """Every `__import__("dotted")` / `importlib.import_module("dotted")` in `module`. The
+    Library Reference (`__import__`, `importlib.import_module`): `__import__("a.b")` returns the
+    top package `a` (read through chains, as `_reads` sees them), `import_module("a.b")` and
+    `__import__("a.b", fromlist=...)` return `a.b` itself: any use of that value reads it."""
+    out: list[_StringImport] = []
+
+    class Calls(cst.CSTVisitor):
+        METADATA_DEPENDENCIES = (ParentNodeProvider,)
+
+        def visit_Call(self, node: cst.Call) -> None:
+            func = get_full_name_for_node(node.func) or ""
+            if func not in _IMPORT_FUNCTIONS or not node.args or node.args[0].star:
+                return
+            first = node.args[0].value
+            if not isinstance(first, (cst.SimpleString, cst.ConcatenatedString)) or first.evaluated_value != dotted:
+                return
+            plain = isinstance(first, cst.SimpleString) and first.raw_value == dotted
+            submodule = func != "__import__" or len(node.args) > 1
+            used = not isinstance(self.get_metadata(ParentNodeProvider, node), cst.Expr)
+            out.append(_StringImport(first, plain, submodule and used))
+
+    MetadataWrapper(module, unsafe_skip_copy=True).visit(Calls())
+    return out
+
+
+def _why_string_import_stays(calls: list[_StringImport], old: str, read: bool) -> str | None:
+    """Why the chains through `old` cannot follow its import by a string, or None."""
+    if not calls:
+        return None
+    if read or any(c.result_read for c in calls):
+        return f"{old} is imported by a string (__import__/import_module) and still read: rewrite the import and its uses by hand"
+    if not all(c.plain for c in calls):
+        return f"{old} is imported by a string that is not one plain literal: rewrite the import and its uses by hand"
+    return None
+
+
+def _withdraw(plans: list[CellPlan], moved: tuple[str, str], why: str) -> None:
+    """Undo the chain rewrites of `moved` (a chain renamed without its import breaks): review."""
+    for plan in plans:
+        for finding, node in plan.moved.pop(moved, []):
+            left = [e for e in plan.edits.get(node, ()) if not isinstance(e, ReplaceExpression)]
+            if left:
+                plan.edits[node] = left
+            else:
+                plan.edits.pop(node, None)
+            plan.rewritten.remove(finding)
+            plan.review.append(Review(finding, why))
 
 
 def _imports_of(module: cst.Module, dotted: str) -> list[tuple[cst.Import, int, bool]]:
@@ -473,7 +547,12 @@ def _reads(plan: CellPlan, dotted: str, binds_top: Callable[[str, str], bool]) -
             nonlocal found
             if any(isinstance(e, ReplaceExpression) for e in plan.edits.get(node, ())):
                 return False  # rewritten: reads the new module
-            head, _, tail = (get_full_name_for_node(node) or "").partition(".")
+            # Names and attributes only: `x.sub.f(...).y` holds the chain `x.sub.f`, read (or
+            # rewritten) on its own below; the full name libcst gives it would look through the call.
+            base: cst.BaseExpression = node
+            while isinstance(base, cst.Attribute):
+                base = base.value
+            head, _, tail = ((get_full_name_for_node(node) or "") if isinstance(base, cst.Name) else "").partition(".")
             if (tail == rest or tail.startswith(rest + ".")) and binds_top(head, top):
                 found = True
                 return False
@@ -484,13 +563,22 @@ def _reads(plan: CellPlan, dotted: str, binds_top: Callable[[str, str], bool]) -
 
 
 def guarded_imports(modules: Iterable[cst.Module]) -> frozenset[str]:
-    """Modules named by `import M` inside the body of a `try` that handles ImportError (or
-    ModuleNotFoundError, or any exception with a bare `except:`): a fallback the issue keeps."""
+    """Modules named by `import M` or `__import__("M")` / `import_module("M")` inside the body
+    of a `try` that handles ImportError (or ModuleNotFoundError, or any exception with a bare
+    `except:`): a fallback the issue keeps."""
     out: set[str] = set()
 
     class Inner(cst.CSTVisitor):
         def visit_Import(self, node: cst.Import) -> None:
             out.update(get_full_name_for_node(alias.name) or "" for alias in node.names)
+
+        def visit_Call(self, node: cst.Call) -> None:
+            # `__import__("M")` / `importlib.import_module("M")`: the same fallback, by a string.
+            first = node.args[0].value if node.args else None
+            if (get_full_name_for_node(node.func) or "") in _IMPORT_FUNCTIONS and isinstance(
+                first, (cst.SimpleString, cst.ConcatenatedString)
+            ) and isinstance(first.evaluated_value, str):
+                out.add(first.evaluated_value)
 
     class Tries(cst.CSTVisitor):
         def visit_Try(self, node: cst.Try) -> None:

@@ -217,7 +217,6 @@ def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: 
             continue
         plan = Planner(module, changes=changes, is_class=is_class, spelled_elsewhere=spelled_elsewhere,
                        binds_top=top_names, guarded=guarded, line_offset=cell.first_line - 1).run(cell_findings)
-        left.extend(plan.review)
         quiet += len(plan.settled)
         plans[index] = plan
     # The notebook's cells are one module: an import in one cell serves the uses in the others.
@@ -225,6 +224,7 @@ def _rewrite_notebook(path: str, data: bytes, findings: list[Finding], changes: 
         if index is not None and index in sources and index not in plans:
             plans[index] = CellPlan(module)
     follow_imports([plans[i] for i in sorted(plans)], top_names)
+    left.extend(r for i in sorted(plans) for r in plans[i].review)  # after: a chain can go back to review
     new_sources: dict[int, str] = {}
     done: list[Finding] = []
     for index, plan in sorted(plans.items()):
