@@ -7,16 +7,11 @@ import json
 
 from impactscope.report.model import ChangeReport, Report
 from impactscope.report.terminal import FAILED_ROWS, to_table
-from impactscope.report.views import warnings, weights_text
+from impactscope.report.views import confidence_text, warnings, weights_text
 
 
 def to_json(report: Report) -> str:
     return json.dumps(report.to_json(), indent=2, sort_keys=False) + "\n"
-
-
-def _confidence(report: Report) -> str:
-    level = report.interval_confidence
-    return f"{level:.0%}" if level is not None else "95%"
 
 
 def _bounds(change: ChangeReport) -> str:
@@ -72,7 +67,7 @@ def to_markdown(report: Report) -> str:
         "",
         "Projects hit are given as proven / likely / at most (resolved, inferred, possible). "
         f"Share is of the {_users(report)}: the proven share, with the interval running from the low end "
-        f"for proven to the high end for at most ({_confidence(report)} Wilson score). Exposure counts proven "
+        f"for proven to the high end for at most ({confidence_text(report)} Wilson score). Exposure counts proven "
         "projects whose declared requirement admits the release / excludes it / declares none.",
         "",
         "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
@@ -90,7 +85,7 @@ def to_markdown(report: Report) -> str:
         lines += [f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
                   for c in low]
     if report.weights is not None:
-        lines += ["", f"## Share of the weight ({_confidence(report)} interval)", "",
+        lines += ["", f"## Share of the weight ({confidence_text(report)} interval)", "",
                   "| change | proven | at most |", "|---|---|---|"]
         for c in report.changes:
             w = c.weighted_share

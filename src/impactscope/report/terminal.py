@@ -43,8 +43,9 @@ def terminal_width() -> int:
 def to_table(report: Report, width: int | None = None, *, sites: int = DEFAULT_SITES, summary: bool = False) -> str:
     width = width or terminal_width()
     lines = _heading(report, width)
-    sure = [c for c in by_impact(report) if not c.low_certainty]
-    low = [c for c in by_impact(report) if c.low_certainty]
+    ranked = by_impact(report)
+    sure = [c for c in ranked if not c.low_certainty]
+    low = [c for c in ranked if c.low_certainty]
     lines += ["", *wrap("Projects hit by each change, most proven first. Proven: a use resolved to the member; "
                         "likely: inferred; at most: any possible use. Share: of the "
                         f"{plural(report.totals.projects_using_library, 'project')} that use {report.library}, "
