@@ -103,8 +103,8 @@ def classify_path(
 
 
 def _size_reason(name: str, size: int, limits: Limits) -> str | None:
-    name_limit = "notebook_bytes" if name.endswith(".ipynb") else "file_bytes"
-    return limits.reason(name_limit) if size > getattr(limits, name_limit) else None
+    limit, reason = read_limit(name, limits)
+    return reason if size > limit else None
 
 
 def read_limit(path: str, limits: Limits) -> tuple[int, str]:

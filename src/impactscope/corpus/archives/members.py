@@ -22,8 +22,7 @@ class Member:
     link: str | None = None  # a link's target
     link_from_top: bool = False  # the target is archive-relative (tar hard links)
     error: str | None = None
-    skip: str | None = None  # known not to be read before any reading (a special file, a ratio)
-    note: str = ""
+    skip: str | None = None  # known not to be read before any reading (a special file)
 
 
 def _link_reason(member: Member, parts: tuple[str, ...], prefix: tuple[str, ...]) -> str:
@@ -61,7 +60,7 @@ def member_entry(member: Member, prefix: tuple[str, ...]) -> Entry:
     if member.link is not None:
         return skipped_entry(path, member.size, member.stamp, _link_reason(member, parts, prefix))
     if member.skip is not None:
-        return skipped_entry(path, member.size, member.stamp, member.skip, member.note)
+        return skipped_entry(path, member.size, member.stamp, member.skip)
     return Entry(path, member.size, member.stamp, None, None, member.read)
 
 
@@ -88,6 +87,3 @@ class End:
 
 def entry_error(exc: LimitExceeded) -> EntryError:
     return EntryError(exc.detail, exc.reason)
-
-
-# zip -------------------------------------------------------------------------

@@ -291,6 +291,3 @@ def zip_entries(source: ZipSource, name: str, library: str, limits: Limits) -> I
         if cut is not None:
             entries.append(skipped_entry(display(name), 0, "", limits.reason("members"), cut.note()))
         yield from entries
-
-
-# tar -------------------------------------------------------------------------
