@@ -17,8 +17,6 @@ from typing import Iterator, Mapping
 from impactscope.errors import InputError
 from impactscope.rewrite.lines import after_newlines
 
-from impactscope.errors import InputError
-
 _WS = re.compile(r"[ \t\n\r]*")
 _STRING = re.compile(r'"(?:[^"\\]|\\.)*"', re.S)
 _SCALAR = re.compile(r"[^\s,\]}]+")

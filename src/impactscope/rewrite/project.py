@@ -88,12 +88,11 @@ def rewrite_project(project: Project, query: Query) -> ProjectRewrite:
     rewritten: list[Finding] = []
     review: list[Review] = []
     settled = 0
+    tops = sorted(query.changes.top_modules)
     for path, findings in sorted(by_file.items()):
-        todo = [f for f in findings if why_not_rewritten(f, changes[f.change], is_class) is None]
-        if not todo or path not in kept:
-            for f in findings:
-                why = why_not_rewritten(f, changes[f.change], is_class)
-                review.append(Review(f, why or "the file could not be read again"))
+        whys = [why_not_rewritten(f, changes[f.change], is_class) for f in findings]
+        if all(why is not None for why in whys) or path not in kept:
+            review.extend(Review(f, why or "the file could not be read again") for f, why in zip(findings, whys))
             continue
         others = [t for p, t in texts.items() if p != path]
 
@@ -101,15 +100,13 @@ def rewrite_project(project: Project, query: Query) -> ProjectRewrite:
             word = re.compile(rf"(?<!\w){re.escape(name)}(?!\w)")
             return any(name in t and word.search(t) for t in others)
 
-        tops = sorted(query.changes.top_modules)
-
         def bound_elsewhere(name: str, top: str, others: list[str] = others) -> bool:
             return any(name in t and _binds_in_text(t, name, top) for t in others)
 
         outcome = _rewrite_file(path, kept[path], findings, changes, is_class, spelled_elsewhere,
                                 _TopNames(tops, bound_elsewhere))
         if isinstance(outcome, str):
-            review.extend(Review(f, why_not_rewritten(f, changes[f.change], is_class) or outcome) for f in findings)
+            review.extend(Review(f, why or outcome) for f, why in zip(findings, whys))
             continue
         new, done, left, quiet = outcome
         review.extend(left)

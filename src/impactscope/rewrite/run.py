@@ -16,7 +16,6 @@ from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus import Project, check_roots, discover
 from impactscope.corpus.roots import archive_stem
 from impactscope.errors import InputError
-from impactscope.errors import InputError
 from impactscope.rewrite.patch import project_patch
 from impactscope.rewrite.plan import Review
 from impactscope.rewrite.project import ProjectRewrite, rewrite_project
