@@ -6,13 +6,10 @@ import re
 
 from impactscope.gate.rules import Outcome, Status
 from impactscope.gate.run import GateRun
+from impactscope.report.views import plural
 
 LINES = 24
 COLUMNS = 100
-
-
-def _plural(n: int, word: str) -> str:
-    return f"{n} {word}{'' if n == 1 else 's'}"
 
 
 def _fit(text: str) -> str:
@@ -29,13 +26,13 @@ def to_terminal(run: GateRun) -> str:
     if failed:
         rules = len({o.rule.id for o in failed})
         changes = len({o.change.id for o in failed})
-        head = (f"gate FAILED: {_plural(rules, 'rule')} failed ({_plural(len(failed), 'check')}) for "
-                f"{changes} of {_plural(len(m.changes), 'change')} of {what}")
+        head = (f"gate FAILED: {plural(rules, 'rule')} failed ({plural(len(failed), 'check')}) for "
+                f"{changes} of {plural(len(m.changes), 'change')} of {what}")
     else:
-        head = (f"gate passed: every rule holds for the {_plural(len(m.changes), 'change')} of {what}"
+        head = (f"gate passed: every rule holds for the {plural(len(m.changes), 'change')} of {what}"
                 f"{f' ({len(waived)} waived)' if waived else ''}")
-    failures = f"; the scan failed on {_plural(m.files_failed, 'file')}" if m.files_failed else ""
-    lines = [head, f"{_plural(m.projects, 'project')} scanned, {m.users} use {m.library}{failures}; "
+    failures = f"; the scan failed on {plural(m.files_failed, 'file')}" if m.files_failed else ""
+    lines = [head, f"{plural(m.projects, 'project')} scanned, {m.users} use {m.library}{failures}; "
                    f"policy {run.policy.path}",
              f"{'rule':<24}{'held':>8}{'failed':>8}{'waived':>8}{'not checked':>13}"]
     for rule in dict.fromkeys(o.rule for o in verdict.outcomes):
