@@ -3,7 +3,7 @@ class's instance, a user function's inferred return), and the shape a call passe
 
 from __future__ import annotations
 
-from typing import Sequence
+from typing import Callable, Sequence
 
 import libcst as cst
 
@@ -75,19 +75,25 @@ class Calls(Walk):
             if isinstance(init, UserFunc):
                 self.call_user(init, scope)
         if isinstance(func, Lib) and self.q.model.returns(func.name) is None and not any(a.star for a in node.args):
-            positional = [fact_of(a.value, v) for a, v in zip(node.args, values) if a.keyword is None]
-            keywords = {a.keyword.value: fact_of(a.value, v) for a, v in zip(node.args, values) if a.keyword is not None}
-            picked = self.pick_overload(func.name, positional, keywords)
+            def arguments() -> tuple[list[Fact], dict[str, Fact]]:
+                positional = [fact_of(a.value, v) for a, v in zip(node.args, values) if a.keyword is None]
+                keywords = {a.keyword.value: fact_of(a.value, v) for a, v in zip(node.args, values) if a.keyword is not None}
+                return positional, keywords
+
+            picked = self.pick_overload(func.name, arguments)
             if picked is not None:
                 return picked
         return self.call_result(func)
 
-    def pick_overload(self, dotted: str, positional: list[Fact], keywords: dict[str, Fact]) -> Value | None:
+    def pick_overload(self, dotted: str, arguments: Callable[[], tuple[list[Fact], dict[str, Fact]]]) -> Value | None:
         """What a call of an overloaded library callable gives, from the overloads it can match
-        first (resolve/overloads.py); None when the overloads cannot tell."""
+        first (resolve/overloads.py); None when the overloads cannot tell. `arguments` gives what
+        is known of the arguments (positional, by keyword), asked only for an overloaded callable:
+        most calls are not, and reading literals costs."""
         overloads = self.q.model.overloads(dotted)
         if not overloads:
             return None
+        positional, keywords = arguments()
         outcomes = select(overloads, positional, keywords, self.q.model)
         if outcomes is None:
             return None
@@ -108,17 +114,19 @@ class Calls(Walk):
         method, reflected = dunders
         if isinstance(left, Inst) and not (isinstance(right, Inst) and right.cls != left.cls):
             if self.q.model.kind(f"{left.cls}.{method}") is not None:
-                return self.call_dunder(left.cls, method, [fact_of(right_node, right)])
+                return self.call_dunder(left.cls, method, right_node, right)
             return UNKNOWN
         if isinstance(right, Inst) and literal_of(left_node) is not None:
             if self.q.model.kind(f"{right.cls}.{reflected}") is not None:
-                return self.call_dunder(right.cls, reflected, [fact_of(left_node, left)])
+                return self.call_dunder(right.cls, reflected, left_node, left)
         return UNKNOWN
 
-    def call_dunder(self, cls: str, method: str, positional: list[Fact]) -> Value:
+    def call_dunder(self, cls: str, method: str, other: cst.BaseExpression | None = None,
+                    value: Value = UNKNOWN) -> Value:
+        """`cls.method(other)` for an operator (no `other` for a unary one)."""
         dotted = f"{cls}.{method}"
         if self.q.model.returns(dotted) is None:
-            picked = self.pick_overload(dotted, positional, {})
+            picked = self.pick_overload(dotted, lambda: ([fact_of(other, value)] if other is not None else [], {}))
             if picked is not None:
                 return picked
         return self.call_result(Lib(dotted, bound=True))

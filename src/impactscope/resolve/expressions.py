@@ -97,7 +97,7 @@ class Expressions(Walk):
             dunder = UNARY.get(type(node.operator).__name__)
             if dunder is None:
                 return Foreign("literal")  # `not x` is a bool
-            return self.call_dunder(operand.cls, dunder, []) if isinstance(operand, Inst) else UNKNOWN
+            return self.call_dunder(operand.cls, dunder) if isinstance(operand, Inst) else UNKNOWN
         if isinstance(node, cst.IfExp):
             self.expr(node.test, scope)
             return join(self.expr(node.body, scope), self.expr(node.orelse, scope))
@@ -117,22 +117,26 @@ class Expressions(Walk):
         """`x[key]`: for a library instance, what the library's `__getitem__` is typed to return
         (column selection, `.loc[...]` indexers); anything else is not known."""
         receiver = self.expr(node.value, scope)
-        key = UNKNOWN_FACT
+        index: tuple[cst.BaseExpression, Value] | None = None  # `x[key]`: the key and its value
         for element in node.slice:
             if len(node.slice) == 1 and isinstance(element.slice, cst.Index) and element.slice.star is None:
-                key = fact_of(element.slice.value, self.expr(element.slice.value, scope))
+                index = element.slice.value, self.expr(element.slice.value, scope)
             else:
                 self.generic(element, scope)
-        if len(node.slice) > 1:
-            key = Fact(builtin="tuple")  # `x[a, b]` passes one tuple
-        elif isinstance(node.slice[0].slice, cst.Slice):
-            key = Fact(builtin="slice")
+
+        def key() -> tuple[list[Fact], dict[str, Fact]]:
+            if len(node.slice) > 1:
+                return [Fact(builtin="tuple")], {}  # `x[a, b]` passes one tuple
+            if isinstance(node.slice[0].slice, cst.Slice):
+                return [Fact(builtin="slice")], {}
+            return [fact_of(*index) if index is not None else UNKNOWN_FACT], {}
+
         if isinstance(receiver, Inst):
             getitem = f"{receiver.cls}.__getitem__"
             typed = self.q.model.returns(getitem)
             if typed is not None:
                 return Inst(typed)
-            picked = self.pick_overload(getitem, [key], {})
+            picked = self.pick_overload(getitem, key)
             if picked is not None:
                 return picked
             return instance_of(self.q.model.returns_all(getitem))
