@@ -34,7 +34,7 @@ _ITEM_CONTAINERS = frozenset({
 })
 _MAPPINGS = frozenset({"Mapping", "MutableMapping", "dict", "Dict", "DefaultDict", "defaultdict", "OrderedDict"})
 _CONCRETE = {"list": "list", "List": "list", "set": "set", "Set": "set", "frozenset": "frozenset",
-             "FrozenSet": "frozenset", "dict": "dict", "Dict": "dict", "tuple": "tuple", "Tuple": "tuple"}
+             "FrozenSet": "frozenset", "dict": "dict", "Dict": "dict"}
 _ANY = frozenset({"Any", "object", "builtins.object", "typing.Any", "typing_extensions.Any"})
 # Modules whose classes are abstract or structural: a builtin value may well be one of them.
 _STRUCTURAL_MODULES = ("typing.", "typing_extensions.", "collections.abc.", "_typeshed.", "numbers.")
