@@ -70,20 +70,12 @@ def to_markdown(report: Report) -> str:
         f"for proven to the high end for at most ({confidence_text(report)} Wilson score). Exposure counts proven "
         "projects whose declared requirement admits the release / excludes it / declares none.",
         "",
-        "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
-        "|---|---|---|---|---|---|---|",
     ]
     sure, low = _by_certainty(report)
-    for c in sure:
-        lines.append(
-            f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
-        )
+    lines += _changes_table(sure)
     if low:
-        lines += ["", f"## Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts", "",
-                  "| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
-                  "|---|---|---|---|---|---|---|"]
-        lines += [f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
-                  for c in low]
+        lines += ["", f"## Low-certainty draft entries ({_low_line(report)}): review them before relying on these counts", ""]
+        lines += _changes_table(low)
     if report.weights is not None:
         lines += ["", f"## Share of the weight ({confidence_text(report)} interval)", "",
                   "| change | proven | at most |", "|---|---|---|"]
@@ -122,6 +114,13 @@ def to_markdown(report: Report) -> str:
         for reason, count in _not_projects(report):
             lines.append(f"| {reason} | {count} |")
     return "\n".join(lines) + "\n"
+
+
+def _changes_table(changes: list[ChangeReport]) -> list[str]:
+    return ["| change | member | kind | projects hit | share of users | exposed / shielded / unconstrained | sites |",
+            "|---|---|---|---|---|---|---|",
+            *(f"| {c.id} | `{c.member}` | {c.kind.value} | {_bounds(c)} | {_share(c)} | {_exposed(c)} | {c.sites} |"
+              for c in changes)]
 
 
 def _by_certainty(report: Report) -> tuple[list[ChangeReport], list[ChangeReport]]:
