@@ -18,7 +18,7 @@ from impactscope.report.charts import exposure_chart, files_chart, impact_chart,
 from impactscope.report.model import ChangeReport, Report
 from impactscope.report.views import DEFAULT_SITES, LEVEL_WORDS, by_impact, confidence_text, example_sites
 from impactscope.report.views import hit_by_any, hit_projects, interval, percent, plural, site_text, warnings
-from impactscope.report.views import weights_text
+from impactscope.report.views import release_name, weights_text
 
 PATTERN_ROWS = 8  # patterns drawn per change; the table below the chart lists them all
 
@@ -155,7 +155,7 @@ def _accounting(report: Report) -> str:
 
 
 def to_html(report: Report, sites: int = DEFAULT_SITES) -> str:
-    name = f"{report.library} {report.release}" if report.release else report.library
+    name = release_name(report)
     t = report.totals
     hit = hit_by_any(report)
     changes = by_impact(report)

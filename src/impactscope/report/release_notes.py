@@ -13,7 +13,7 @@ from pathlib import Path
 from impactscope.changes import Kind
 from impactscope.errors import InputError
 from impactscope.report.model import ChangeReport, Report
-from impactscope.report.views import by_impact, confidence_text, interval, percent, plural
+from impactscope.report.views import by_impact, confidence_text, interval, percent, plural, release_name
 
 # Which towncrier type a change is news of: a removal breaks code that works today; the other
 # kinds change a member that stays, which is what a deprecation or behaviour note announces.
@@ -55,7 +55,7 @@ def _measured(report: Report, change: ChangeReport) -> str:
 
 def _exposure(report: Report, change: ChangeReport) -> str:
     e = change.exposure
-    release = f"{report.library} {report.release}" if report.release else "the release"
+    release = release_name(report, "the release")
     return (f"of the {plural(change.projects.resolved, 'project')} proven, {e.exposed} declare a requirement "
             f"that admits {release}, {e.shielded} one that excludes it, {e.unconstrained} none")
 
@@ -95,7 +95,7 @@ def _facts(report: Report, change: ChangeReport) -> list[tuple[str, str]]:
 
 def to_release_notes(report: Report) -> str:
     """One `###` section per change, most projects proven first, under one `##` heading."""
-    name = f"{report.library} {report.release}" if report.release else report.library
+    name = release_name(report)
     lines = [f"## Changes that can break code using {name}", ""]
     if not report.complete:
         lines += ["> The scan behind these figures was interrupted: they cover part of the corpus.", ""]

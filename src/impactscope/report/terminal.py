@@ -24,6 +24,7 @@ from impactscope.report.views import (
     interval,
     percent,
     plural,
+    release_name,
     site_text,
     warnings,
     weights_text,
@@ -57,7 +58,7 @@ def to_table(report: Report, width: int | None = None, *, sites: int = DEFAULT_S
                             f"{plural(lo.projects_affected, 'project')} hit at most): review them before relying "
                             "on these counts", width)]
         lines += _hits_table(report, low, width)
-    release = f"{report.library} {report.release}" if report.release else "the release"
+    release = release_name(report, "the release")
     lines += ["", *wrap(f"Proven projects by what their declared requirement says of {release}, and sites "
                         "(uses in the code) per change.", width)]
     lines += _exposure_table(report, [*sure, *low])
@@ -74,7 +75,7 @@ def to_table(report: Report, width: int | None = None, *, sites: int = DEFAULT_S
 def _heading(report: Report, width: int) -> list[str]:
     t = report.totals
     hit = hit_by_any(report)
-    name = f"{report.library} {report.release}" if report.release else report.library
+    name = release_name(report)
     first = (f"{name}: the planned changes hit {plural(hit.resolved, 'project')} proven, {hit.inferred} likely, "
              f"{hit.possible} at most, of the {plural(t.projects_using_library, 'project')} that use "
              f"{report.library} ({plural(t.projects, 'project')} scanned)")

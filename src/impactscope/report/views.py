@@ -85,6 +85,13 @@ def warnings(report: Report) -> list[str]:
     return out
 
 
+def release_name(report: Report, otherwise: str | None = None) -> str:
+    """`heronframe 3.0`; without a release, `otherwise` (the library's name unless given)."""
+    if report.release:
+        return f"{report.library} {report.release}"
+    return report.library if otherwise is None else otherwise
+
+
 def plural(count: int, noun: str, nouns: str | None = None) -> str:
     """`1 project`, `2 projects` (`nouns` when the plural is not noun + s)."""
     return f"{count} {noun if count == 1 else (nouns or noun + 's')}"
