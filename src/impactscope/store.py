@@ -173,11 +173,11 @@ class ResultStore:
             raise StoreError(f"{p}: no such results file; run `impactscope scan CHANGES ROOT --output {p}` first")
         try:
             db = sqlite3.connect(f"file:{p}?mode=ro", uri=True)
-            keys = {row[0] for row in db.execute("SELECT key FROM meta")}
+            meta = dict(db.execute("SELECT key, value FROM meta"))
             db.execute("SELECT 1 FROM findings LIMIT 1").fetchone()
         except sqlite3.DatabaseError as exc:
             raise StoreError(f"{p}: not an impactscope results file ({exc}); pass the file `scan --out` wrote") from None
-        missing = sorted(_REQUIRED_META - keys)
+        missing = sorted(_REQUIRED_META - meta.keys())
         if missing:
             db.close()
             # Another program's SQLite file, or one from a version before these keys.
@@ -185,7 +185,7 @@ class ResultStore:
                 f"{p}: not an impactscope results file, or one from an older version (it lacks "
                 f"{', '.join(missing)}); scan again with `impactscope scan CHANGES ROOT --output {p} --fresh`"
             )
-        found = db.execute("SELECT value FROM meta WHERE key = 'format'").fetchone()[0]
+        found = meta["format"]
         if found != FORMAT:
             db.close()
             raise StoreError(

@@ -27,7 +27,8 @@ from dataclasses import dataclass
 from typing import Any, Generator, Iterable, Iterator, Sequence
 
 from impactscope.corpus.roots import Entry, Project
-from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED, describe
+from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.resolve.faults import describe
 from impactscope.scan.cache import origin_stamp, project_key
 from impactscope.scan.job import ScanJob
 from impactscope.scan.project import ProjectResult, failed_project, scan_project

@@ -18,8 +18,8 @@ from impactscope.corpus.sources import (
 )
 from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding, Reading
-from impactscope.outcomes import FileOutcome, ProjectResult
-from impactscope.resolve.faults import ANALYSIS_ERROR, describe
+from impactscope.outcomes import ANALYSIS_ERROR, FileOutcome, ProjectResult
+from impactscope.resolve.faults import describe
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import FileAnalysis, ProjectResolver
 from impactscope.resolve.query import Query
@@ -212,13 +212,13 @@ def _without_deep_cells(source: Source, parse_chars: int = LIBCST_CHARS) -> Sour
     kept = []
     size = 0
     for cell in source.cells:
-        size += code_size(cell.code)
-        reason = TOO_DEEP if too_deep(cell.code) else TOO_LARGE if size > parse_chars else None
+        cost = code_size(cell.code)
+        reason = TOO_DEEP if too_deep(cell.code) else TOO_LARGE if size + cost > parse_chars else None
         if reason is None:
             kept.append(cell)
+            size += cost
         else:
             refused.append((cell.index, reason))
-            size -= code_size(cell.code)
     if not refused:
         return source
     if source.kind == "module":
