@@ -23,10 +23,12 @@ import time
 from collections.abc import Callable, Iterator
 from typing import TypeVar
 
+from impactscope.corpus.limits import REASONS
+
 __all__ = ["OVER_BUDGET", "FileClock", "FileOverBudget", "OverBudget"]
 
-# The skip reason of a file stopped by its budget (corpus.limits.REASONS["file_seconds"]).
-OVER_BUDGET = "over time budget"
+# The skip reason of a file stopped by its budget.
+OVER_BUDGET = REASONS["file_seconds"]
 
 T = TypeVar("T")
 
