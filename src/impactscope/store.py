@@ -176,7 +176,7 @@ class ResultStore:
             meta = dict(db.execute("SELECT key, value FROM meta"))
             db.execute("SELECT 1 FROM findings LIMIT 1").fetchone()
         except sqlite3.DatabaseError as exc:
-            raise StoreError(f"{p}: not an impactscope results file ({exc}); pass the file `scan --out` wrote") from None
+            raise StoreError(f"{p}: not an impactscope results file ({exc}); pass the file `scan --output` wrote") from None
         missing = sorted(_REQUIRED_META - meta.keys())
         if missing:
             db.close()

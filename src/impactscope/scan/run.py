@@ -156,7 +156,7 @@ def _plan(found: Iterable[Project | NotAProject], cached: dict[str, CachedProjec
             work = project
         else:
             # A streamed tar member can only be read now, while its project is being listed.
-            entries = [held(e) for e in project.entries()] if streamed(project) else list(project.entries())
+            entries = [held(e, project.limits) for e in project.entries()] if streamed(project) else list(project.entries())
             key = project_key(fingerprint, project, None, entries)
             work = replayed(project, entries)
         if prior is not None and prior.key == key:
@@ -166,7 +166,7 @@ def _plan(found: Iterable[Project | NotAProject], cached: dict[str, CachedProjec
             # Holds an open archive: take the bytes now, so it can travel and be listed again.
             # (A streamed project holds them already; a zip root's project can be listed again.)
             again = entries if entries is not None and streamed(project) else project.entries()
-            work = replayed(project, [held(e) for e in again])
+            work = replayed(project, [held(e, project.limits) for e in again])
         batch.append(work)
         weight += _weight(project, entries)
         if len(batch) >= BATCH_PROJECTS or weight >= BATCH_BYTES:
