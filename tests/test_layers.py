@@ -15,7 +15,7 @@ PACKAGE = Path(impactscope.__file__).parent
 # units do not import each other.
 LAYERS: tuple[frozenset[str], ...] = (
     frozenset({"errors"}),
-    frozenset({"changes", "findings", "import_names", "estimate"}),
+    frozenset({"changes", "findings", "import_names", "estimate", "dunder_all"}),
     frozenset({"outcomes", "corpus", "exposure", "forks", "sampling"}),
     frozenset({"surface"}),
     frozenset({"resolve"}),

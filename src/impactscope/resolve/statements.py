@@ -7,6 +7,7 @@ from typing import Callable, Sequence
 
 import libcst as cst
 
+from impactscope import dunder_all
 from impactscope.resolve.scopes import Scope
 from impactscope.resolve.values import (
     UNKNOWN,
@@ -83,14 +84,20 @@ class Statements(Walk):
         else:
             self.generic(s, scope)
 
+    # `__all__` so far (a class-level default: the value is frozen and only ever replaced).
+    all_state: dunder_all.DunderAll = dunder_all.ABSENT
+
     def small(self, s: cst.BaseSmallStatement, scope: Scope) -> None:
+        if scope.kind == "module" and (change := all_change(s)) is not None:
+            self.all_state = dunder_all.apply(self.all_state, change)
+            known = self.all_state.parts if self.all_state.defined else None
+            # Another module's list (`x.__all__`) is not looked up here, and an unknowable one is
+            # None too: `star_exports` then takes the public names, a guess, where §7.11 would
+            # leave the names unknown (the surface's `star_names` does).
+            self.result.all_names = None if known is None else dunder_all.names(known)
         if isinstance(s, cst.Expr):
             self.expr(s.value, scope)
         elif isinstance(s, cst.Assign):
-            if scope.kind == "module" and any(
-                isinstance(t.target, cst.Name) and t.target.value == "__all__" for t in s.targets
-            ):
-                self.result.all_names = _literal_names(s.value)
             pairs = _unpacked(s)
             if pairs is not None:
                 values = [self.expr(el.value, scope) for el in pairs]
@@ -239,12 +246,58 @@ def _unpacked(s: cst.Assign) -> Sequence[cst.BaseElement] | None:
             return None
     return elements
 
-def _literal_names(value: cst.BaseExpression) -> tuple[str, ...] | None:
-    if not isinstance(value, (cst.List, cst.Tuple)):
-        return None
-    names = []
-    for el in value.elements:
-        if not isinstance(el.value, cst.SimpleString) or not isinstance(el.value.evaluated_value, str):
-            return None
-        names.append(el.value.evaluated_value)
-    return tuple(names)
+def all_change(s: cst.BaseSmallStatement) -> dunder_all.Change | None:
+    """What a statement does to `__all__`, for `impactscope.dunder_all` (None: nothing)."""
+    if isinstance(s, cst.Assign) and any(_dotted(t.target) == "__all__" for t in s.targets):
+        return dunder_all.Change("=", (_all_term(s.value),))
+    if isinstance(s, cst.AnnAssign) and _dotted(s.target) == "__all__" and s.value is not None:
+        return dunder_all.Change("=", (_all_term(s.value),))
+    if isinstance(s, cst.AugAssign) and _dotted(s.target) == "__all__":
+        return dunder_all.Change("+=" if isinstance(s.operator, cst.AddAssign) else "other", (_all_term(s.value),))
+    if isinstance(s, cst.Del) and any(_dotted(t) == "__all__" for t in _listed(s.target)):
+        return dunder_all.Change("del")
+    if (isinstance(s, cst.Expr) and isinstance(call := s.value, cst.Call) and isinstance(call.func, cst.Attribute)
+            and _dotted(call.func.value) == "__all__"):
+        plain = all(a.keyword is None and not a.star for a in call.args)
+        args = tuple(_all_term(a.value) for a in call.args)
+        return dunder_all.Change(call.func.attr.value if plain else "other", args)
+    return None
+
+
+def _all_term(node: cst.BaseExpression) -> dunder_all.Term:
+    if isinstance(node, (cst.List, cst.Tuple)):
+        found = [_text(el.value) if isinstance(el, cst.Element) else None for el in node.elements]
+        return dunder_all.OPAQUE if None in found else dunder_all.Names(tuple(t for t in found if t is not None))
+    if (text := _text(node)) is not None:
+        return dunder_all.Text(text)
+    if isinstance(node, cst.Integer):
+        return dunder_all.Number(int(node.evaluated_value))
+    if isinstance(node, cst.Name) and node.value == "__all__":
+        return dunder_all.OWN
+    if isinstance(node, cst.Attribute) and node.attr.value == "__all__" and (module := _dotted(node.value)) is not None:
+        return dunder_all.Other(module)
+    if isinstance(node, cst.BinaryOperation) and isinstance(node.operator, cst.Add):
+        return dunder_all.Sum(_all_term(node.left), _all_term(node.right))
+    if (isinstance(node, cst.Call) and len(node.args) == 1 and node.args[0].keyword is None and not node.args[0].star
+            and (func := _dotted(node.func)) is not None):
+        return dunder_all.Call(func, _all_term(node.args[0].value))
+    return dunder_all.OPAQUE
+
+
+def _listed(target: cst.BaseExpression) -> list[cst.BaseExpression]:
+    """`del a, b` names two targets (`ast` makes them two; libcst, one tuple)."""
+    return [el.value for el in target.elements] if isinstance(target, (cst.Tuple, cst.List)) else [target]
+
+
+def _text(node: cst.BaseExpression) -> str | None:
+    """A string literal's value (`"a" "b"` too), as `ast` reads it; None for bytes and f-strings."""
+    value = node.evaluated_value if isinstance(node, (cst.SimpleString, cst.ConcatenatedString)) else None
+    return value if isinstance(value, str) else None
+
+
+def _dotted(node: cst.BaseExpression) -> str | None:
+    """`a.b.c` for a Name/Attribute chain, else None."""
+    if isinstance(node, cst.Attribute):
+        head = _dotted(node.value)
+        return None if head is None else f"{head}.{node.attr.value}"
+    return node.value if isinstance(node, cst.Name) else None

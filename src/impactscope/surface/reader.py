@@ -7,6 +7,7 @@ import ast
 import hashlib
 from dataclasses import dataclass
 
+from impactscope import dunder_all
 from impactscope.import_names import package_of, resolve_relative
 
 from .model import Parameter
@@ -18,6 +19,7 @@ from .syntax import (
     TRY_NODES,
     TYPE_ALIAS_NODE,
     TYPEVAR,
+    all_change,
     changes_all,
     doc_digest,
     dotted_name,
@@ -90,8 +92,7 @@ class ModuleReader:
         self.raw = raw
         self.class_aliases = class_aliases
         self.ops: list[tuple] = []
-        self.all_parts: list[tuple] | None = None  # None: the module has no __all__
-        self.all_dynamic = False
+        self.all_state = dunder_all.ABSENT
         # A module-level function that adds to __all__ (numpy 1.x `extend_all(module)`): the static
         # list is only a part, so a star import takes the namespace's public names instead.
         self.all_runtime = False
@@ -149,6 +150,8 @@ class ModuleReader:
             return bound | self.block(getattr(st, "orelse", []), shadow, type_only, scope)
         if type_only:
             return set()
+        if scope is None and (change := all_change(st)) is not None:
+            self.all_state = dunder_all.apply(self.all_state, change)
         if isinstance(st, (ast.FunctionDef, ast.AsyncFunctionDef)):
             return self.function(st, scope, shadow)
         if isinstance(st, ast.ClassDef):
@@ -157,13 +160,7 @@ class ModuleReader:
             return self.assign(st.targets, st.value, None, st.lineno, scope, shadow)
         if isinstance(st, ast.AnnAssign):
             return self.assign([st.target], st.value, st.annotation, st.lineno, scope, shadow)
-        if isinstance(st, ast.AugAssign):
-            if scope is None and isinstance(st.target, ast.Name) and st.target.id == "__all__":
-                parts = self._all_parts(st.value) if isinstance(st.op, ast.Add) else None
-                self._set_all(None if parts is None or self.all_parts is None else [*self.all_parts, *parts])
-            return set()
-        if isinstance(st, ast.Expr) and scope is None:
-            self._all_call(st.value)
+        if isinstance(st, (ast.AugAssign, ast.Expr)):
             return set()
         if isinstance(st, ast.Delete) and scope is None:
             for target in st.targets:
@@ -313,8 +310,7 @@ class ModuleReader:
             if isinstance(target, ast.Name):
                 name = target.id
                 if scope is None and name == "__all__":
-                    self._set_all(self._all_parts(value) if value is not None else None)
-                    continue
+                    continue  # read by all_change
                 if name in shadow:
                     continue
                 bound.add(name)
@@ -473,42 +469,14 @@ class ModuleReader:
 
     # __all__ ---------------------------------------------------------------------------
 
-    def _all_parts(self, node: ast.expr) -> list[tuple] | None:
-        if isinstance(node, (ast.List, ast.Tuple, ast.Set)):
-            names = [string_value(e) for e in node.elts]
-            return None if None in names else [("lit", tuple(names))]
-        if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Add):
-            left, right = self._all_parts(node.left), self._all_parts(node.right)
-            return None if left is None or right is None else [*left, *right]
-        if isinstance(node, ast.Name) and node.id == "__all__":
-            return None if self.all_parts is None else list(self.all_parts)
-        if isinstance(node, ast.Attribute) and node.attr == "__all__":
-            text = dotted_name(node.value)
-            return None if text is None else [("ref", text)]
-        if isinstance(node, ast.Call) and last_part(dotted_name(node.func)) in ("list", "tuple", "sorted") and len(node.args) == 1 and not node.keywords:
-            return self._all_parts(node.args[0])
-        return None
+    @property
+    def all_parts(self) -> tuple[dunder_all.Part, ...] | None:
+        """None: the module binds no `__all__`; empty too when what it binds is unknowable."""
+        return (self.all_state.parts or ()) if self.all_state.defined else None
 
-    def _set_all(self, parts: list[tuple] | None) -> None:
-        self.all_dynamic = parts is None
-        self.all_parts = [] if parts is None else parts
-
-    def _all_call(self, node: ast.expr) -> None:
-        if not (isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and dotted_name(node.func.value) == "__all__"):
-            return
-        if self.all_parts is None or self.all_dynamic:
-            self._set_all(None)
-            return
-        method, args = node.func.attr, node.args
-        name = string_value(args[0]) if len(args) == 1 else None
-        if method == "extend" and len(args) == 1 and (parts := self._all_parts(args[0])) is not None:
-            self.all_parts.extend(parts)
-        elif method == "append" and name is not None:
-            self.all_parts.append(("lit", (name,)))
-        elif method == "remove" and name is not None:
-            self.all_parts.append(("remove", name))
-        else:
-            self._set_all(None)
+    @property
+    def all_dynamic(self) -> bool:
+        return self.all_state.defined and self.all_state.parts is None
 
     def _scan_runtime_names(self, tree: ast.Module) -> None:
         """Names built at run time: `globals()[k] = v`, `globals().update(...)`, setattr on sys.modules."""

@@ -6,6 +6,8 @@ from __future__ import annotations
 import ast
 import hashlib
 
+from impactscope import dunder_all
+
 
 PROPERTY = frozenset({"property", "cached_property", "abstractproperty"})
 # Outside names whose call makes a property (the standard library's documentation of each).
@@ -95,11 +97,53 @@ def changes_all(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
     """Whether a function adds to or rewrites the module's `__all__` when called."""
     for sub in ast.walk(node):
         if (isinstance(sub, ast.Call) and isinstance(sub.func, ast.Attribute) and isinstance(sub.func.value, ast.Name)
-                and sub.func.value.id == "__all__" and sub.func.attr in ("append", "extend", "insert", "remove")):
+                and sub.func.value.id == "__all__" and sub.func.attr in dunder_all.METHODS):
             return True
         if isinstance(sub, ast.Global) and "__all__" in sub.names:
             return True
     return False
+
+
+def all_change(st: ast.stmt) -> dunder_all.Change | None:
+    """What a statement does to `__all__`, for `impactscope.dunder_all` (None: nothing)."""
+    if isinstance(st, ast.Assign) and any(dotted_name(t) == "__all__" for t in st.targets):
+        return dunder_all.Change("=", (_all_term(st.value),))
+    if isinstance(st, ast.AnnAssign) and dotted_name(st.target) == "__all__" and st.value is not None:
+        return dunder_all.Change("=", (_all_term(st.value),))
+    if isinstance(st, ast.AugAssign) and dotted_name(st.target) == "__all__":
+        return dunder_all.Change("+=" if isinstance(st.op, ast.Add) else "other", (_all_term(st.value),))
+    if isinstance(st, ast.Delete) and any(dotted_name(t) == "__all__" for t in _listed(st.targets)):
+        return dunder_all.Change("del")
+    if (isinstance(st, ast.Expr) and isinstance(call := st.value, ast.Call) and isinstance(call.func, ast.Attribute)
+            and dotted_name(call.func.value) == "__all__"):
+        plain = not call.keywords and not any(isinstance(a, ast.Starred) for a in call.args)
+        return dunder_all.Change(call.func.attr if plain else "other", tuple(_all_term(a) for a in call.args))
+    return None
+
+
+def _listed(targets: list[ast.expr]) -> list[ast.expr]:
+    """`del (a, b)` names two targets, as `del a, b` does."""
+    return [t for target in targets for t in (target.elts if isinstance(target, (ast.Tuple, ast.List)) else [target])]
+
+
+def _all_term(node: ast.expr) -> dunder_all.Term:
+    if isinstance(node, (ast.List, ast.Tuple)):
+        found = [string_value(e) for e in node.elts]
+        return dunder_all.OPAQUE if None in found else dunder_all.Names(tuple(t for t in found if t is not None))
+    if (text := string_value(node)) is not None:
+        return dunder_all.Text(text)
+    if isinstance(node, ast.Constant) and type(node.value) is int:
+        return dunder_all.Number(node.value)
+    if isinstance(node, ast.Name) and node.id == "__all__":
+        return dunder_all.OWN
+    if isinstance(node, ast.Attribute) and node.attr == "__all__" and (module := dotted_name(node.value)) is not None:
+        return dunder_all.Other(module)
+    if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Add):
+        return dunder_all.Sum(_all_term(node.left), _all_term(node.right))
+    if (isinstance(node, ast.Call) and len(node.args) == 1 and not isinstance(node.args[0], ast.Starred)
+            and not node.keywords and (func := dotted_name(node.func)) is not None):
+        return dunder_all.Call(func, _all_term(node.args[0]))
+    return dunder_all.OPAQUE
 
 
 def returns_value(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
