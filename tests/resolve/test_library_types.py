@@ -28,7 +28,7 @@ LIBRARY = {
     "heronframe/__init__.py": """
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
-        from heronframe.io import read_table, pick, load
+        from heronframe.io import read_table, pick, load, read_all, columns_of, pair
         from heronframe import util
     """,
     "heronframe/core/__init__.py": "",
@@ -79,7 +79,7 @@ LIBRARY = {
                 return iter(())
     """,
     "heronframe/io.py": """
-        from typing import overload, Literal
+        from typing import Iterator, overload, Literal
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
 
@@ -102,6 +102,18 @@ LIBRARY = {
         def load(path, many: Literal[False] = ...) -> Table: ...
         def load(path, many=False):
             return {} if many else Table()
+
+
+        def read_all(paths) -> "list[Table]":
+            return [Table() for _ in paths]
+
+
+        def columns_of(table) -> Iterator[Column]:
+            yield Column()
+
+
+        def pair(a, b) -> tuple[Table, Column]:
+            return Table(), Column()
     """,
     "heronframe/_checks.py": """
         __all__ = ["assert_same"]
@@ -512,3 +524,74 @@ def test_a_call_from_another_module_passes_its_arguments(query: Query) -> None:
     # `helpers` never imports the library: the Column reaches it through main's call.
     assert at(hits, 2, "C-PAIRS") == "resolved"
     assert at(hits, 4, "T-STACK") is None  # a Column has no stack_rows
+
+
+def test_a_list_the_library_returns_hands_out_its_items(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        tables = hf.read_all(["a", "b"])
+        tables[0].stack_rows(1)
+        tables[1:][0].stack_rows(2)
+        for t in tables:
+            t.stack_rows(3)
+        [c.iter_pairs() for c in hf.columns_of(t)]
+        tables.append(hf.Table())
+        hf.pair(1, 2)[0].stack_rows(4)
+        for x in [hf.Table(), hf.Table()]:
+            x.stack_rows(5)
+    """
+    hits = found(query, code)
+    # PEP 484/585: `list[X]`, `Iterator[X]` type the items; the Language Reference ("Subscriptions",
+    # "Slicings", "The for statement"): an index gives one item, a slice a list of them, a loop
+    # binds each item in turn. A fixed `tuple[X, Y]` is not a container of one kind of item.
+    for line in (3, 4, 6, 11):
+        assert at(hits, line, "T-STACK") == "resolved", line
+    assert at(hits, 7, "C-PAIRS") == "resolved"
+    # The list's own `append` is the builtin's: the container is proven not to be a Table.
+    assert at(hits, 8, "T-STACK") is None
+
+
+def test_a_helper_returns_what_it_was_given(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        def tidy(table):
+            table = table.transpose()
+            return table
+        def checked(value):
+            return value
+        first = tidy(unknown())
+        first.stack_rows(1)
+        second = tidy(hf.read_table("p"))
+        second.stack_rows(2)
+        checked(hf.Column()).iter_pairs()
+        checked([1]).iter_pairs()
+    """
+    hits = found(query, code)
+    # What a function returns can be what it was given: each call that passes a library value
+    # reads the body with it (the Language Reference, "Calls": parameters are bound to arguments).
+    assert at(hits, 8, "T-STACK") == "inferred"  # called with something unknown
+    assert at(hits, 10, "T-STACK") == "resolved"
+    assert at(hits, 11, "C-PAIRS") == "resolved"
+    # A list in, a list out: not the Column another call passed (a builtin proves the receiver).
+    assert at(hits, 12, "C-PAIRS") is None
+
+
+def test_unpacking_a_function_that_returns_a_tuple_on_one_path(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        def page(n):
+            table = hf.read_table(n)
+            if n == 0:
+                return table, 3
+            return table
+        t, pages = page(0)
+        t.stack_rows(1)
+        page(2).stack_rows(2)
+        whole = page(2)
+        whole.stack_rows(3)
+    """
+    hits = found(query, code)
+    # Unpacking into two targets only works on the path that returns the pair (the Language
+    # Reference, assignment statements); any other use sees the other path's value.
+    for line in (8, 9, 11):
+        assert at(hits, line, "T-STACK") == "resolved", line

@@ -9,7 +9,7 @@ from typing import Callable, Sequence
 import libcst as cst
 
 from impactscope.resolve.scopes import Scope, merge
-from impactscope.resolve.values import UNKNOWN, Foreign, Tup, UserInst, Value, join
+from impactscope.resolve.values import UNKNOWN, Foreign, Tup, UserInst, Value, join, plain
 from impactscope.resolve.walk import Walk
 
 _BUILTINS = frozenset(dir(builtins))
@@ -45,6 +45,8 @@ class Bindings(Walk):
         scope.names[name] = value
 
     def assign(self, target: cst.BaseExpression, value: Value, scope: Scope) -> None:
+        if not isinstance(target, (cst.Tuple, cst.List)):
+            value = plain(value)
         if isinstance(target, cst.Name):
             self.bind(scope, target.value, value)
         elif isinstance(target, (cst.Tuple, cst.List)):

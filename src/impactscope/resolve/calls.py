@@ -16,6 +16,7 @@ from impactscope.resolve.values import (
     UNKNOWN,
     Foreign,
     Inst,
+    Items,
     Lib,
     OneOf,
     Super,
@@ -23,6 +24,7 @@ from impactscope.resolve.values import (
     UserFunc,
     UserInst,
     Value,
+    plain,
 )
 from impactscope.resolve.walk import Walk
 
@@ -47,9 +49,8 @@ class Calls(Walk):
     def call(self, node: cst.Call, scope: Scope) -> Value:
         # The references the callee itself yields carry the call's shape (patterns show it).
         func = self.expr(node.func, scope, call=call_shape(node.args))
-        values = [self.expr(arg.value, scope) for arg in node.args]
-        if isinstance(func, UserFunc):
-            note_arguments(func, node, values)
+        values = [plain(self.expr(arg.value, scope)) for arg in node.args]
+        given = note_arguments(func, node, values) if isinstance(func, UserFunc) else None
         if isinstance(func, Foreign) and func.name in ("importlib.import_module", "builtins.__import__"):
             return self.dynamic_import(node, func.name)
         if isinstance(func, Foreign) and func.name == "builtins.type" and len(node.args) == 1 and not node.args[0].star:
@@ -67,7 +68,7 @@ class Calls(Walk):
             # return what they are documented to, whatever they are given.
             return Foreign(f"{func.name}()")
         if isinstance(func, UserFunc):
-            return self.call_user(func, scope)
+            return self.call_user(func, scope, given)
         if isinstance(func, UserClass):
             # Instantiating runs __init__: from module level, with that moment's bindings, so the
             # attributes it sets are known to methods called on the instance afterwards.
@@ -138,6 +139,9 @@ class Calls(Walk):
                 return Inst(returned)
             if self.q.model.is_class(func.name):
                 return Inst(func.name)
+            items = self.q.model.items(func.name)
+            if items is not None:
+                return Items(name="builtins.list()", cls=items)
             outcomes = self.q.model.returns_all(func.name)
             if len(outcomes) == 1:
                 # One library class among outcomes that do not agree: the others are not the

@@ -21,6 +21,7 @@ from impactscope.resolve.values import (
     Value,
     is_library,
     join,
+    returned,
 )
 from impactscope.resolve.walk import Walk
 
@@ -150,16 +151,29 @@ class Definitions(Walk):
             self.expr(expr, scope)
         return None
 
-    def returns_of(self, func: UserFunc) -> Value:
+    def returns_of(self, func: UserFunc, given: dict[str, Value] | None = None) -> Value:
         """What a call returns. A body not run yet is read quietly now, with the bindings of the
-        moment of the call; its references are recorded once, when its scope ends."""
-        if func.returns is not None:
+        moment of the call; its references are recorded once, when its scope ends.
+
+        `given` holds what this call passes, by parameter. Where that differs from what the
+        parameters are known to receive in general (`passed`: defaults and every call's library
+        values, joined), the body is read again quietly with this call's values, once per
+        distinct set: what it returns may be what it was given (`return df.copy()`), and a call
+        that passes a list does not get back the Table another call passed."""
+        own = _own_arguments(func, given or {})
+        if func.returns is not None and not own:
             return func.returns
         if func.state == "running" or self._quiet >= _INFERENCE_DEPTH:
-            return UNKNOWN
-        return self._run(func, record=False)
+            return func.returns if func.returns is not None else UNKNOWN
+        if not own:
+            return self._run(func, record=False)
+        key = tuple(sorted(own.items(), key=lambda item: item[0]))
+        if key not in func.by_arguments:
+            func.by_arguments[key] = UNKNOWN  # a recursive call meanwhile learns nothing
+            func.by_arguments[key] = self._run_given(func, own)
+        return func.by_arguments[key]
 
-    def call_user(self, func: UserFunc, scope: Scope) -> Value:
+    def call_user(self, func: UserFunc, scope: Scope, given: dict[str, Value] | None = None) -> Value:
         """A call from module level runs the body with the bindings of that moment (the Language
         Reference resolves free names when the code runs), recording what it sees; a few such
         runs cover "called before the import, and after"."""
@@ -168,8 +182,10 @@ class Definitions(Walk):
             and func.top_runs < 3 and not self._quiet
         ):
             func.top_runs += 1
-            return self._run(func, record=True)
-        return self.returns_of(func)
+            returned = self._run(func, record=True)
+            if not _own_arguments(func, given or {}):
+                return returned
+        return self.returns_of(func, given)
 
     def flush(self, scope: Scope) -> None:
         """Run deferred bodies with the bindings their scope ends with, recording references."""
@@ -184,19 +200,32 @@ class Definitions(Walk):
         # Another module's function is read here only to learn what it returns: its own module
         # records its references.
         quiet = not record or func.home is not self
+        read_with = dict(func.passed)
         with self._standing(replace(self.at, cell=func.cell, top=func.top)), self._quietly(quiet):
             result = self._run_body(func)
-        func.returns = result
+        func.returns, func.read_with = result, read_with
         # A quiet reading changes nothing about the recorded run still to come.
         func.state = "done" if not quiet and not self._quiet else previous_state
         return result
 
-    def _run_body(self, func: UserFunc) -> Value:
+    def _run_given(self, func: UserFunc, given: dict[str, Value]) -> Value:
+        """Read the body quietly with one call's library arguments, leaving what the function
+        is known to return in general (and its recorded run) as they were."""
+        previous_state = func.state
+        func.state = "running"
+        try:
+            with self._standing(replace(self.at, cell=func.cell, top=func.top)), self._quietly(True):
+                return self._run_body(func, given)
+        finally:
+            func.state = previous_state
+
+    def _run_body(self, func: UserFunc, given: dict[str, Value] | None = None) -> Value:
         fscope = Scope("function", func.scope, owner=func.owner)
         declared = func.declared
         positional = [*func.node.params.posonly_params, *func.node.params.params]
         for i, p in enumerate(all_params(func.node.params)):
-            value: Value = declared.get(p.name.value) or func.passed.get(p.name.value, UNKNOWN)
+            value: Value = (declared.get(p.name.value) or (given or {}).get(p.name.value)
+                            or func.passed.get(p.name.value, UNKNOWN))
             if i == 0 and p in positional and func.owner is not None:
                 if func.kind in _FIRST_PARAM_METHODS:
                     value = UserInst(func.owner)
@@ -205,25 +234,40 @@ class Definitions(Walk):
             fscope.names[p.name.value] = value
         self.suite(func.node.body, fscope)
         self.flush(fscope)
-        result: Value = UNKNOWN
-        for r in fscope.returns:
-            result = join(result, r)
+        result = returned(fscope.returns)
         decl = func.returns_decl
         if result is UNKNOWN and decl is not None:
             result = decl
         elif isinstance(result, Tup) and isinstance(decl, Tup) and len(result.items) == len(decl.items):
-            result = Tup(tuple(d if r is UNKNOWN else r for r, d in zip(result.items, decl.items)))
+            result = replace(result, items=tuple(d if r is UNKNOWN else r for r, d in zip(result.items, decl.items)))
         return result
 
 
-def note_arguments(func: UserFunc, node: cst.Call, values: Sequence[Value]) -> None:
+def _own_arguments(func: UserFunc, given: dict[str, Value]) -> dict[str, Value]:
+    """The values a call passes that differ from what its parameters received when the body was
+    read in general: a library value, or a value known not to be the library's where others
+    pass one. An unknown argument says nothing, so the general reading stands for it."""
+    own: dict[str, Value] = {}
+    known = func.read_with if func.returns is not None else func.passed
+    for name, value in given.items():
+        general = known.get(name, UNKNOWN)
+        if value is UNKNOWN or value == general or name in func.declared:
+            continue
+        if is_library(value) or is_library(general):
+            own[name] = value
+    return own
+
+
+def note_arguments(func: UserFunc, node: cst.Call, values: Sequence[Value]) -> dict[str, Value]:
     """Remember the library values a call passes to a project function's parameters, so its body
-    sees them (a call through an instance or class attribute binds the first parameter itself)."""
+    sees them (a call through an instance or class attribute binds the first parameter itself).
+    Returns what this call passes, by parameter."""
     params = func.node.params
     positional = [p.name.value for p in (*params.posonly_params, *params.params)]
     if func.owner is not None and func.kind in ("method", "classmethod") and isinstance(node.func, cst.Attribute):
         positional = positional[1:]
     named = {p.name.value for p in (*params.params, *params.kwonly_params)}
+    given: dict[str, Value] = {}
     index = 0
     for arg, value in zip(node.args, values):
         if arg.star:
@@ -235,6 +279,8 @@ def note_arguments(func: UserFunc, node: cst.Call, values: Sequence[Value]) -> N
         else:
             name = positional[index] if index < len(positional) else None
             index += 1
+        if name is not None:
+            given[name] = value
         if name is not None and is_library(value) and func.passed.get(name) != value:
             func.passed[name] = join(func.passed.get(name, UNKNOWN), value)
             if func.state == "done" and func.reruns < 1:
@@ -242,6 +288,8 @@ def note_arguments(func: UserFunc, node: cst.Call, values: Sequence[Value]) -> N
                 func.reruns += 1
                 func.state = "pending"
                 func.scope.function_home().pending.append(func)
+    return given
+
 
 def all_params(params: cst.Parameters) -> list[cst.Param]:
     out = [*params.posonly_params, *params.params]

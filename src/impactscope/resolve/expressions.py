@@ -17,6 +17,7 @@ from impactscope.resolve.values import (
     Display,
     Foreign,
     Inst,
+    Items,
     Lib,
     OneOf,
     ProjMod,
@@ -26,7 +27,9 @@ from impactscope.resolve.values import (
     UserFunc,
     UserInst,
     Value,
+    item_of,
     join,
+    plain,
 )
 from impactscope.resolve.walk import Walk
 
@@ -116,7 +119,7 @@ class Expressions(Walk):
     def subscript(self, node: cst.Subscript, scope: Scope) -> Value:
         """`x[key]`: for a library instance, what the library's `__getitem__` is typed to return
         (column selection, `.loc[...]` indexers); anything else is not known."""
-        receiver = self.expr(node.value, scope)
+        receiver = plain(self.expr(node.value, scope))
         index: tuple[cst.BaseExpression, Value] | None = None  # `x[key]`: the key and its value
         for element in node.slice:
             if len(node.slice) == 1 and isinstance(element.slice, cst.Index) and element.slice.star is None:
@@ -140,6 +143,9 @@ class Expressions(Walk):
             if picked is not None:
                 return picked
             return instance_of(self.q.model.returns_all(getitem))
+        if isinstance(receiver, Items) and len(node.slice) == 1:
+            # A slice of the list is a list of the same items; an index, one item.
+            return receiver if isinstance(node.slice[0].slice, cst.Slice) else Inst(receiver.cls)
         if isinstance(receiver, Tup) and len(node.slice) == 1 and isinstance(node.slice[0].slice, cst.Index):
             key = node.slice[0].slice.value
             if isinstance(key, cst.Integer) and int(key.value, 0) < len(receiver.items):
@@ -163,6 +169,7 @@ class Expressions(Walk):
     ) -> Value:
         """`receiver.attr` read at `node`: its value, and the references it makes."""
         attr = node.attr.value
+        receiver = plain(receiver)
         value, how = self.attribute(receiver, attr)
         named = how if isinstance(value, Inst) else None  # a typed attribute: its own path, kept
         if record and (isinstance(value, Lib) or named is not None):
@@ -254,9 +261,9 @@ class Expressions(Walk):
         clause: cst.CompFor | None = node.for_in
         first = True
         while clause is not None:
-            self.expr(clause.iter, scope if first else inner)
+            iterated = self.expr(clause.iter, scope if first else inner)
             first = False
-            self.assign(clause.target, UNKNOWN, inner)
+            self.assign(clause.target, item_of(iterated), inner)
             for cond in clause.ifs:
                 self.expr(cond.test, inner)
             clause = clause.inner_for_in

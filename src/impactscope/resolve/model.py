@@ -34,6 +34,8 @@ class LibraryModel(Protocol):
 
     def attribute_type(self, dotted: str) -> str | None: ...
 
+    def items(self, dotted: str) -> str | None: ...
+
     def overloads(self, dotted: str) -> "tuple[Overload, ...]": ...
 
     def only_library_bases(self, cls: str) -> bool: ...
@@ -85,6 +87,9 @@ class TypesModel:
 
     def attribute_type(self, dotted: str) -> str | None:
         return None  # `[types]` says what calls return, not what attributes hold
+
+    def items(self, dotted: str) -> str | None:
+        return None  # a change list's `[types]` names no container returns
 
     def overloads(self, dotted: str) -> "tuple[Overload, ...]":
         return ()  # `[types]` gives one return type per name
@@ -143,6 +148,13 @@ class SurfaceModel:
 
     def attribute_type(self, dotted: str) -> str | None:
         return self._surface.attribute_type(dotted)  # type: ignore[attr-defined]
+
+    def items(self, dotted: str) -> str | None:
+        """The library class of the items a callable returns in a list or another sequence."""
+        if self._types.returns(dotted) or self._types.returns(self.canonical(dotted)):
+            return None  # the change list's `[types]` decides
+        member = self._surface.member(dotted)  # type: ignore[attr-defined]
+        return None if member is None or member.items is None else self.canonical(member.items)
 
     def overloads(self, dotted: str) -> "tuple[Overload, ...]":
         if self._types.returns(dotted) or self._types.returns(self.canonical(dotted)):

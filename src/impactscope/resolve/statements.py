@@ -18,6 +18,7 @@ from impactscope.resolve.values import (
     UserFunc,
     UserInst,
     Value,
+    item_of,
 )
 from impactscope.resolve.walk import Walk
 
@@ -64,8 +65,8 @@ class Statements(Walk):
         elif isinstance(s, cst.Else):
             self.suite(s.body, scope)
         elif isinstance(s, cst.For):
-            self.expr(s.iter, scope)
-            self.loop(scope, s.body, s.orelse, lambda: self.assign(s.target, UNKNOWN, scope))
+            iterated = self.expr(s.iter, scope)
+            self.loop(scope, s.body, s.orelse, lambda: self.assign(s.target, item_of(iterated), scope))
         elif isinstance(s, cst.While):
             self.expr(s.test, scope)
             self.loop(scope, s.body, s.orelse, None)

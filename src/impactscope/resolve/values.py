@@ -56,6 +56,26 @@ class Display(Foreign):
 
 
 @dataclass(frozen=True)
+class Items(Foreign):
+    """A builtin container the library returns (`-> list[X]`), whose items are instances of the
+    library class `cls`: indexing or looping gives one; its own methods are the builtin's."""
+
+    cls: str = ""
+
+
+def item_of(value: "Value") -> "Value":
+    """What a loop over `value` binds its target to, when known."""
+    if isinstance(value, Items):
+        return Inst(value.cls)
+    if isinstance(value, Display) and value.kind != "dict":
+        found: Value = UNKNOWN
+        for item in value.items:
+            found = join(found, item)
+        return found
+    return UNKNOWN
+
+
+@dataclass(frozen=True)
 class ProjMod:
     """A module of the project being analysed."""
 
@@ -87,6 +107,10 @@ class UserFunc:
     # joined (a library value wins, as in `join`: the use breaks for the calls that pass one).
     passed: dict[str, "Value"] = field(default_factory=dict)
     reruns: int = 0  # recorded runs again because a later call passed a library value
+    read_with: dict[str, "Value"] = field(default_factory=dict)  # `passed` when `returns` was read
+    # What a call returns given the library values it passes (by parameter name), for a body whose
+    # plain reading returns nothing of the library: `def tidy(df): return df.copy()`.
+    by_arguments: dict[tuple[tuple[str, "Value"], ...], "Value"] = field(default_factory=dict)
 
 
 @dataclass(eq=False)
@@ -138,6 +162,34 @@ class Tup:
     unpacking it gives each target its own item."""
 
     items: tuple["Value", ...]
+    # A function that returns this tuple on some paths and something else on others
+    # (`return df, pages` / `return df`): unpacking means the tuple; any other use, the rest.
+    otherwise: "Value | None" = None
+
+
+def plain(value: "Value") -> "Value":
+    """`value` as anything but an unpacking target sees it."""
+    return value.otherwise if isinstance(value, Tup) and value.otherwise is not None else value
+
+
+def returned(values: "list[Value]") -> "Value":
+    """What a function returns, from its return statements' values: their join, except that
+    tuples of one length returned beside other values stay a tuple for unpacking (with the
+    other values as its `otherwise`)."""
+    tuples = [v for v in values if isinstance(v, Tup)]
+    others: Value = UNKNOWN
+    for v in values:
+        if not isinstance(v, Tup) or v.otherwise is not None:
+            others = join(others, plain(v))
+    if not tuples or len({len(t.items) for t in tuples}) != 1 or others is UNKNOWN:
+        result: Value = UNKNOWN
+        for v in values:
+            result = join(result, plain(v))
+        return result
+    items = tuple(UNKNOWN for _ in tuples[0].items)
+    for t in tuples:
+        items = tuple(join(a, b) for a, b in zip(items, t.items))
+    return Tup(items, otherwise=others)
 
 
 class _Unknown:
@@ -171,6 +223,7 @@ def join(a: Value, b: Value) -> Value:
     """
     if a is b or a == b:
         return a
+    a, b = plain(a), plain(b)
     if a is UNKNOWN or a is None:
         return b
     if b is UNKNOWN or b is None:

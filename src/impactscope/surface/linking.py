@@ -21,6 +21,13 @@ from .syntax import (
     last_part,
 )
 
+# The containers whose items a subscript or a loop hands out one by one (the `typing` and
+# `collections.abc` names, and the builtins PEP 585 made generic).
+_SEQUENCE_HEADS = frozenset({
+    "list", "List", "Sequence", "MutableSequence", "Iterator", "Iterable", "Generator", "tuple", "Tuple",
+    "Collection",
+})
+
 
 class Linker:
     """Resolves names across the library on demand; every recursive step is memoised and guarded."""
@@ -398,6 +405,35 @@ class Linker:
         found = mapped.pop()
         return found if found in self.raw and self.raw[found].kind == "class" else None
 
+    def item_class(self, name: str) -> str | None:
+        """The one library class of the items a callable returns in a builtin container
+        (`list[X]`, `Sequence[X]`, `Iterator[X]`, `tuple[X, ...]`), when every signature agrees."""
+        r = self.raw[name]
+        if r.kind == "class" or self.kind(name) not in CALLABLE_KINDS:
+            return None
+        sigs = r.overloads or [(r.returns_ann, r.self_ann, (), ())]
+        found = {self._items_of(r.module, ret) for ret, *_ in sigs}
+        return found.pop() if len(found) == 1 else None
+
+    def _items_of(self, module: str, node: ast.expr | None) -> str | None:
+        if isinstance(node, ast.Constant) and isinstance(node.value, str):
+            try:
+                node = ast.parse(node.value.strip(), mode="eval").body
+            except SyntaxError:
+                return None
+        if not isinstance(node, ast.Subscript) or last_part(dotted_name(node.value)) not in _SEQUENCE_HEADS:
+            return None
+        items = node.slice.elts if isinstance(node.slice, ast.Tuple) else [node.slice]
+        head = last_part(dotted_name(node.value))
+        if head in ("tuple", "Tuple"):
+            # `tuple[X, ...]` only: a fixed tuple's items differ by position.
+            if len(items) != 2 or not (isinstance(items[1], ast.Constant) and items[1].value is Ellipsis):
+                return None
+        elif len(items) != 1 and head not in ("Generator", "Iterator", "Iterable"):
+            return None
+        outs = self.outcomes(module, items[0], None)
+        return outs[0] if len(outs) == 1 and outs[0] not in (None, SELF) else None
+
     def annotation_class(self, module: str, node: ast.expr | None, self_class: str | None) -> str | None:
         """The one library class an annotation names: `X`, "X", Self, Optional[X], X | None, X[T]."""
         outs = self.outcomes(module, node, None)
@@ -560,7 +596,8 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
                                # Kept only when it says more than `returns` does, so the JSON stays small.
                                returns_all=every if every != ((returns,) if returns else ()) and r.kind != "class" else (),
                                doc=r.doc, annotation=ast.unparse(r.returns_ann) if r.returns_ann is not None else "",
-                               overloads=link.overloads(name) if kind in CALLABLE_KINDS and returns is None else ())
+                               overloads=link.overloads(name) if kind in CALLABLE_KINDS and returns is None else (),
+                               items=link.item_class(name) if returns is None else None)
 
     aliases: dict[str, str] = {}
     private: dict[str, str] = {}

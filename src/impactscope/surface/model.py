@@ -82,6 +82,7 @@ class Member:
     doc: str = ""
     annotation: str = ""
     overloads: tuple[Overload, ...] = ()  # PEP 484 overloads, kept when they return different things
+    items: str | None = None  # for `-> list[X]` and kin: the library class X of the items
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -527,6 +528,7 @@ def _member_json(m: Member) -> dict[str, Any]:
         "doc": m.doc,
         "annotation": m.annotation,
         **({"overloads": [o.to_json() for o in m.overloads]} if m.overloads else {}),
+        **({"items": m.items} if m.items else {}),
     }
 
 
@@ -550,6 +552,7 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         doc=d.get("doc", ""),
         annotation=d.get("annotation", ""),
         overloads=tuple(Overload.from_json(o) for o in d.get("overloads", ())),
+        items=d.get("items"),
     )
 
 
