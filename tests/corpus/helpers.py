@@ -11,7 +11,7 @@ import zipfile
 from collections.abc import Mapping
 from pathlib import Path
 
-from impactscope.corpus.roots import Limits, Project, discover
+from impactscope.corpus.roots import Limits, NotAProject, Project, survey
 
 
 LIB = "heronframe"
@@ -104,8 +104,22 @@ def listing(project: Project) -> dict[str, str | None]:
 def projects(
     *roots: os.PathLike[str] | str, single: bool = False, limits: Limits = Limits()
 ) -> dict[str, dict[str, str | None]]:
-    found = discover(list(roots), single=single, library=LIB, limits=limits)
-    return {p.name: listing(p) for p in found}
+    return surveyed(*roots, single=single, limits=limits)[0]
+
+
+def surveyed(
+    *roots: os.PathLike[str] | str, single: bool = False, limits: Limits = Limits()
+) -> tuple[dict[str, dict[str, str | None]], list[NotAProject]]:
+    """What `survey` finds, read as a scan reads it: each project's listing while it is current
+    (a tar root's entries can be read only then), and the items that are not projects."""
+    found: dict[str, dict[str, str | None]] = {}
+    others: list[NotAProject] = []
+    for item in survey(list(roots), single=single, library=LIB, limits=limits):
+        if isinstance(item, NotAProject):
+            others.append(item)
+        else:
+            found[item.name] = listing(item)
+    return found, others
 
 
 def snapshot(base: Path) -> list[tuple[str, int]]:

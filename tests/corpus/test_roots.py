@@ -42,6 +42,7 @@ from .helpers import (
     prefixed,
     projects,
     snapshot,
+    surveyed,
     tar_bytes,
     tar_members,
     write_tar,
@@ -252,10 +253,9 @@ def test_root_level_items_that_are_not_projects_are_reported(tmp_path: Path) -> 
         zf.writestr("p/a.py", "x = 1\n")
         zf.writestr("../escape.py", "x = 1\n")
         zf.writestr("readme.txt", "hi\n")
-    ignored: list[tuple[str, str]] = []
-    names = [p.name for p in discover([root, archive], library="heronframe", ignored=ignored)]
-    assert names == ["proj", "p"]
-    reasons = {os.path.basename(where.split("!")[-1]): reason for where, reason in ignored}
+    items = list(survey([root, archive], library="heronframe"))
+    assert [i.name for i in items if isinstance(i, Project)] == ["proj", "p"]
+    reasons = {os.path.basename(i.where.split("!")[-1]): i.reason for i in items if isinstance(i, NotAProject)}
     assert reasons["NOTES.md"].startswith("not a project")
     assert reasons[".hidden"] == "hidden"
     assert reasons["escape.py"] == "unsafe path"
@@ -263,8 +263,7 @@ def test_root_level_items_that_are_not_projects_are_reported(tmp_path: Path) -> 
 
 
 def test_survey_returns_what_is_not_a_project_as_values(tmp_path: Path) -> None:
-    # survey() hands out both kinds in root order; discover() is its projects, and `ignored`
-    # (kept for callers not moved yet) receives the rest as it comes.
+    # survey() hands out both kinds in root order; discover() is its projects.
     root = tmp_path / "root"
     (root / "b").mkdir(parents=True)
     (root / "b" / "a.py").write_text("x = 1\n")
@@ -277,9 +276,7 @@ def test_survey_returns_what_is_not_a_project_as_values(tmp_path: Path) -> None:
     assert shown == [("NotAProject", "root/NOTES.md"), ("Project", "b"), ("Project", "q"),
                      ("NotAProject", "t.tar!.cache/x.py"), ("NotAProject", "t.tar!r.txt")]
     assert all(i.reason for i in items if isinstance(i, NotAProject))
-    ignored: list[tuple[str, str]] = []
-    assert [p.name for p in discover([root, tar], library=LIB, ignored=ignored)] == ["b", "q"]
-    assert ignored == [(i.where, i.reason) for i in items if isinstance(i, NotAProject)]
+    assert [p.name for p in discover([root, tar], library=LIB)] == ["b", "q"]
 
 
 def test_wheels_in_a_folder_are_projects(tmp_path: Path) -> None:
@@ -287,9 +284,8 @@ def test_wheels_in_a_folder_are_projects(tmp_path: Path) -> None:
     root.mkdir()
     write_zip(root / WHEEL_NAME, WHEEL_FILES)
     write_zip(root / "other-0.1-py2.py3-none-any.whl", {"other.py": "x = 1\n"})
-    ignored: list[tuple[str, str]] = []
-    found = list(discover([root], library=LIB, ignored=ignored))
-    assert ignored == []
+    found = list(survey([root], library=LIB))
+    assert all(isinstance(p, Project) for p in found)
     assert [p.name for p in found] == ["other-0.1-py2.py3-none-any", "wpkg-1.0-py3-none-any"]
     assert listing(found[1]) == WHEEL_LISTING
     assert found[1].origin == str(root / WHEEL_NAME)
@@ -340,11 +336,10 @@ def test_a_tar_root_never_makes_a_phantom_project(tmp_path: Path, members: list[
                 info.size = 2
                 archive.addfile(info, io.BytesIO(b"x\n"))
     files = {name.removeprefix("./") for name, kind in members if kind == "f" and not name.startswith(".h")}
-    ignored: list[tuple[str, str]] = []
-    found = {p.name: listing(p) for p in discover([path], library=LIB, ignored=ignored)}
+    found, others = surveyed(path)
     assert set(found) == {"proj", "other"}  # no proj@root
     assert {f"{name}/{file}" for name, listed in found.items() for file in listed} == files
-    assert all(reason == "hidden" for _, reason in ignored)
+    assert all(item.reason == "hidden" for item in others)
 
 
 def test_scattered_tar_projects_are_held_within_the_archive_bound(tmp_path: Path) -> None:
@@ -442,10 +437,15 @@ def _reference_members(path: Path) -> list[bool]:
         return [info.isdir() for info in archive.getmembers()]
 
 
-def _drain(found: Iterator[Project]) -> dict[str, list[Entry]]:
-    """Every project's entries, each read while it is current, as a scan does."""
+def _drain(found: Iterator[Project | NotAProject]) -> tuple[dict[str, list[Entry]], list[NotAProject]]:
+    """Every project's entries, each read while it is current, as a scan does; and the items
+    that are not projects."""
     listed: dict[str, list[Entry]] = {}
+    others: list[NotAProject] = []
     for project in found:
+        if isinstance(project, NotAProject):
+            others.append(project)
+            continue
         entries = []
         for entry in project.entries():
             try:
@@ -457,7 +457,7 @@ def _drain(found: Iterator[Project]) -> dict[str, list[Entry]]:
         assert len(paths) == len(set(paths)), paths  # paths unique within a project
         assert project.name not in listed
         listed[project.name] = entries
-    return listed
+    return listed, others
 
 
 @settings(max_examples=120, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
@@ -479,13 +479,12 @@ def test_fuzzed_archives_are_read_whole_and_every_member_is_accounted(
     is_dir = _reference_members(path)
     # As one project: each file member of the first `cap` is one entry, and one more entry
     # stands for the members past the bound.
-    (listed,) = _drain(discover([path], single=True, library=LIB, limits=limits)).values()
+    (listed,) = _drain(survey([path], single=True, library=LIB, limits=limits))[0].values()
     expected = is_dir[:cap].count(False) + (len(is_dir) > cap)
     assert len(listed) == expected, [(e.path, e.skip, e.error) for e in listed]
     # As a root of projects: nothing crashes, names and paths stay unique, nothing is lost.
-    ignored: list[tuple[str, str]] = []
-    projects_found = _drain(discover([path], library=LIB, limits=limits, ignored=ignored))
-    accounted = sum(map(len, projects_found.values())) + len(ignored)
+    projects_found, others = _drain(survey([path], library=LIB, limits=limits))
+    accounted = sum(map(len, projects_found.values())) + len(others)
     tops = sum(1 for name, kind, _, _ in members[:cap]
                if kind != "dir" and archive_stem(name) is not None and member_parts(name) == (name,))
     assert accounted >= is_dir[:cap].count(False) - tops
@@ -508,5 +507,4 @@ def test_fuzzed_damaged_archives_never_raise(
             raw[at] = value
     path = tmp_path_factory.mktemp("damaged") / f"case.{form}"
     path.write_bytes(bytes(raw[:cut] if data.draw(st.booleans(), label="truncate") else raw))
-    ignored: list[tuple[str, str]] = []
-    _drain(discover([path], single=single, library=LIB, ignored=ignored, limits=Limits(members=8)))
+    _drain(survey([path], single=single, library=LIB, limits=Limits(members=8)))

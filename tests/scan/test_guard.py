@@ -7,21 +7,36 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.findings import Confidence
-from impactscope.scan.guard import LIBCST_CHARS, code_size, too_large
+from impactscope.scan.guard import code_size
 from impactscope.scan.project import TOO_LARGE
 from impactscope.scan.run import run_scan
 
 from .helpers import _notebook, snapshot, write_changes
 
 USE = "hf.stack([])\n"  # 12 characters of code: one use of the removed member on each line
-MANY = LIBCST_CHARS // 12 + 100  # just past the bound
+MANY = DEFAULT_LIMITS.parse_chars // 12 + 100  # just past the bound
 
 
 def test_blank_lines_and_indentation_cost_nothing() -> None:
-    code = "x = 1\n" + "\n" * 10 * LIBCST_CHARS + " \t" * LIBCST_CHARS
-    assert code_size(code) == 3 and not too_large(code)
-    assert too_large("x" * (LIBCST_CHARS + 1)) and not too_large("x" * LIBCST_CHARS)
+    code = "x = 1\n" + "\n" * 10_000 + " \t" * 10_000
+    assert code_size(code) == 3
+
+
+def test_the_bound_is_limits_parse_chars_of_code(tmp_path: Path) -> None:
+    # A file with exactly parse_chars of code is parsed; one more character is over the bound
+    # (in a statement that uses the library: narrowing would blank any other).
+    at = "import heronframe as hf\n" + USE
+    root = tmp_path / "corpus" / "p"
+    root.mkdir(parents=True)
+    (root / "at.py").write_text(at + "\n  \n", encoding="utf-8")
+    (root / "over.py").write_text(at.replace("([])", "([1])"), encoding="utf-8")
+    out = tmp_path / "r.sqlite"
+    run_scan(write_changes(tmp_path), [root.parent], out, jobs=1, limits=Limits(parse_chars=code_size(at)))
+    files = {f.path: f for _, f in snapshot(out)["files"]}  # type: ignore[union-attr]
+    assert files["at.py"].status == "parsed"
+    assert files["over.py"].status == "unparsed" and "parse_chars" in files["over.py"].detail
 
 
 def test_a_file_too_large_for_libcst_is_read_at_token_level(tmp_path: Path) -> None:

@@ -197,16 +197,12 @@ def discover(
     *,
     single: bool = False,
     library: str,
-    ignored: list[tuple[str, str]] | None = None,
     limits: Limits = DEFAULT_LIMITS,
 ) -> Iterator[Project]:
-    """The projects of `survey`. `ignored`, when given, receives each `NotAProject` as
-    (where, reason) as it comes: kept for callers that have not moved to `survey` yet."""
+    """The projects of `survey`, for callers that have no use for what is not a project."""
     for item in survey(roots, single=single, library=library, limits=limits):
         if isinstance(item, Project):
             yield item
-        elif ignored is not None:
-            ignored.append((item.where, item.reason))
 
 
 def _single_project(location: str, root_name: str, library: str, limits: Limits) -> Project:

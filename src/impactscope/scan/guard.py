@@ -16,8 +16,6 @@ import ast
 import re
 import warnings
 
-from impactscope.corpus.limits import DEFAULT_LIMITS
-
 # A file below all three counts cannot reach the depths above (each level needs one of these).
 OPENERS = 1_000  # "(", "[", "{"
 LAMBDAS = 1_000  # "lambda"
@@ -31,21 +29,16 @@ _CHAIN = re.compile(r"(?:\.[^\W\d]\w*){%d}" % CHAIN)
 # libcst builds about 1 KB of Python objects per character it parses, and its native parser cannot
 # be stopped by the time budget (measured here, libcst 1.x: a module of 373 KB took 12 s and 374 MB,
 # one list display of 420 KB 16.5 s and 461 MB). A file (or a notebook's cells together) with more
-# characters of code than this is read at token level instead. Spaces, tabs and newlines are not
-# counted: narrowing leaves blank lines behind, and they cost libcst next to nothing. The most
-# libcst was given from one file of the real-world corpus was 123,809 (EoN/analytic.py, whole).
-LIBCST_CHARS = DEFAULT_LIMITS.parse_chars  # the default; a scan reads its Limits
+# characters of code than Limits.parse_chars is read at token level instead. Spaces, tabs and
+# newlines are not counted: narrowing leaves blank lines behind, and they cost libcst next to
+# nothing. The most libcst was given from one file of the real-world corpus was 123,809
+# (EoN/analytic.py, whole).
 _WHITESPACE = (" ", "\t", "\n")
 
 
 def code_size(code: str) -> int:
     """What parsing `code` costs libcst, in characters that are not spaces, tabs or newlines."""
     return len(code) - sum(code.count(blank) for blank in _WHITESPACE)
-
-
-def too_large(code: str) -> bool:
-    """Whether libcst's tree of `code` would take more memory than a scan may spend on a file."""
-    return code_size(code) > LIBCST_CHARS
 
 
 def _may_be_deep(code: str) -> bool:
@@ -76,4 +69,4 @@ def too_deep(code: str) -> bool:
     return False
 
 
-__all__ = ["LIBCST_CHARS", "code_size", "too_deep", "too_large"]
+__all__ = ["code_size", "too_deep"]

@@ -24,7 +24,7 @@ from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import FileAnalysis, ProjectResolver
 from impactscope.resolve.query import Query
 from impactscope.scan.budget import OVER_BUDGET, FileClock
-from impactscope.scan.guard import LIBCST_CHARS, code_size, too_deep
+from impactscope.scan.guard import code_size, too_deep
 from impactscope.scan.prefilter import Plan, Prefilter
 from impactscope.scan.slicing import narrow
 
@@ -203,7 +203,7 @@ def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
     return result
 
 
-def _without_deep_cells(source: Source, parse_chars: int = LIBCST_CHARS) -> Source | str:
+def _without_deep_cells(source: Source, parse_chars: int) -> Source | str:
     """`source` without the cells libcst must not parse (they are counted as skipped): nested too
     deeply (its native parser would crash the process) or, past the first `parse_chars` of code
     (Limits.parse_chars), too large (its tree would take gigabytes). For a module file that is

@@ -12,7 +12,7 @@ import pytest
 
 from impactscope.corpus.roots import EntryError, Limits, discover
 
-from ..helpers import LIB, NOISE, WHEEL_NAME, listing, projects, tar_members, write_zip, zip_members
+from ..helpers import LIB, NOISE, WHEEL_NAME, projects, surveyed, tar_members, write_zip, zip_members
 
 
 def test_zip_entries_can_be_read_after_listing(tmp_path: Path) -> None:
@@ -109,14 +109,13 @@ def test_too_many_members(tmp_path: Path) -> None:
         listed = {e.path: (e.skip, e.note) for e in project.entries()}
         assert len(listed) == 6
         assert listed[path.name][0] == "too many members" and "5" in listed[path.name][1]
-        ignored: list[tuple[str, str]] = []
-        found = {p.name: listing(p) for p in discover([path], library=LIB, limits=limits, ignored=ignored)}
+        found, others = surveyed(path, limits=limits)
         if path.suffix == ".zip":  # cut before the projects are formed: the root says so
             assert len(found["p"]) == 5
-            assert [reason.startswith("too many members") for _, reason in ignored] == [True]
+            assert [item.reason.startswith("too many members") for item in others] == [True]
         else:  # met while streaming project p: p says so
             assert len(found["p"]) == 6 and found["p"]["t.tgz"] == "too many members"
-            assert ignored == []
+            assert others == []
 
 
 def zip64_ended(path: Path) -> Path:
