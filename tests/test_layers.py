@@ -15,7 +15,8 @@ PACKAGE = Path(impactscope.__file__).parent
 # units do not import each other.
 LAYERS: tuple[frozenset[str], ...] = (
     frozenset({"errors"}),
-    frozenset({"changes", "findings", "import_names", "estimate", "dunder_all"}),
+    frozenset({"tomlinput"}),
+    frozenset({"changes", "findings", "import_names", "estimate", "reasons", "dunder_all"}),
     frozenset({"outcomes", "corpus", "exposure", "forks", "sampling"}),
     frozenset({"surface"}),
     frozenset({"resolve"}),

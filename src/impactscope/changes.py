@@ -6,7 +6,6 @@ import enum
 import hashlib
 import os
 import re
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
@@ -15,6 +14,7 @@ from packaging.specifiers import InvalidSpecifier, SpecifierSet
 from packaging.version import InvalidVersion, Version
 
 from impactscope.errors import InputError
+from impactscope.tomlinput import TomlInput
 
 
 class ChangeListError(InputError):
@@ -115,31 +115,19 @@ class ChangeList:
         raise KeyError(change_id)
 
 
+_TOML = TomlInput(
+    "change list", "pass the path of a TOML change list",
+    "a change list needs no nesting deeper than a few levels", ChangeListError,
+)
+
+
 def load_change_list(path: str | os.PathLike[str]) -> ChangeList:
-    p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise ChangeListError(f"{p}: change list not found; pass the path of a TOML change list") from None
-    except OSError as exc:
-        raise ChangeListError(f"{p}: cannot read the change list ({exc.strerror})") from None
-    return parse_change_list(raw, p)
+    return parse_change_list(_TOML.read(path), Path(path))
 
 
 def parse_change_list(raw: bytes, path: Path) -> ChangeList:
     where = str(path)
-    try:
-        data = tomllib.loads(raw.decode("utf-8"))
-    except UnicodeDecodeError as exc:
-        raise ChangeListError(f"{where}: not UTF-8 text (byte {exc.start}); save the change list as UTF-8") from None
-    except tomllib.TOMLDecodeError as exc:
-        # tomllib's message already carries "(at line N, column M)".
-        raise ChangeListError(f"{where}: invalid TOML: {exc}") from None
-    except RecursionError:
-        # tomllib reads nested arrays and inline tables recursively: a hostile file can exhaust it.
-        raise ChangeListError(
-            f"{where}: TOML nested too deeply to read; a change list needs no nesting deeper than a few levels"
-        ) from None
+    _, data = _TOML.parse(raw, where)
 
     unknown = set(data) - _TOP_KEYS
     if unknown:

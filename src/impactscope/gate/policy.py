@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import datetime
 import os
-import tomllib
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any, Mapping
@@ -18,6 +17,7 @@ from packaging.version import InvalidVersion, Version
 
 from impactscope.changes import Kind
 from impactscope.errors import InputError
+from impactscope.tomlinput import TomlInput
 
 
 class PolicyError(InputError):
@@ -110,28 +110,18 @@ def _known(table: Mapping[str, Any], allowed: set[str], what: str, listed: str) 
         raise PolicyError(f"{what} key(s) {', '.join(sorted(unknown))}; allowed are {listed}")
 
 
+_TOML = TomlInput(
+    "policy", "pass the path of a TOML policy (see docs/policy.md)", "a policy needs two levels at most", PolicyError,
+)
+
+
 def load_policy(path: str | os.PathLike[str]) -> Policy:
-    p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise PolicyError(f"{p}: policy not found; pass the path of a TOML policy (see docs/policy.md)") from None
-    except OSError as exc:
-        raise PolicyError(f"{p}: cannot read the policy ({exc.strerror})") from None
-    return parse_policy(raw, p)
+    return parse_policy(_TOML.read(path), Path(path))
 
 
 def parse_policy(raw: bytes, path: Path) -> Policy:
     where = str(path)
-    try:
-        text = raw.decode("utf-8")
-        data = tomllib.loads(text)
-    except UnicodeDecodeError as exc:
-        raise PolicyError(f"{where}: not UTF-8 text (byte {exc.start}); save the policy as UTF-8") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise PolicyError(f"{where}: invalid TOML: {exc}") from None
-    except RecursionError:
-        raise PolicyError(f"{where}: TOML nested too deeply to read; a policy needs two levels at most") from None
+    text, data = _TOML.parse(raw, where)
     _known(data, _TOP_KEYS, f"{where}: unknown top-level", "[limits], [limits.<kind>], [deprecation] and [[waiver]]")
     limits, by_kind = _limits(data.get("limits", {}), where)
     deprecation = _deprecation(data.get("deprecation", {}), where)
