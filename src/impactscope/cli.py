@@ -130,6 +130,7 @@ def scan(
     ),
 ) -> None:
     """Scan downstream code for uses of the changed members and write a results file."""
+    from impactscope.reasons import Reason
     from impactscope.scan.progress import for_stream
     from impactscope.scan.run import run_scan
 
@@ -170,7 +171,7 @@ def scan(
             signal.signal(signal.SIGTERM, previous)
     if not quiet:
         reused = f" ({summary.reused} unchanged, reused)" if summary.reused else ""
-        died = summary.faults.get("worker died", 0)
+        died = summary.faults.get(Reason.WORKER_DIED, 0)
         lost = f", {died} files in projects whose worker died" if died else ""
         typer.echo(
             f"scanned {_plural(summary.projects, 'project')}{reused}, {_plural(summary.files, 'file')} in "

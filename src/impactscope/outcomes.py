@@ -10,13 +10,12 @@ import enum
 from dataclasses import dataclass, field
 
 from impactscope.findings import Finding
+from impactscope.reasons import Reason, reason_of
 
 
-# The reasons of an unparsed file that are failures of the scan, not of the file: an unexpected
-# exception met on it (resolve.faults describes it), and a project whose worker process died
-# twice while scanning it (scan.executor). Reports list these files apart, as bugs to report.
-ANALYSIS_ERROR = "analysis error"
-WORKER_DIED = "worker died"
+# The reasons of an unparsed file that are failures of the scan, not of the file: reports list
+# these files apart, as bugs to report.
+SCAN_FAILURES = frozenset({Reason.ANALYSIS_ERROR, Reason.WORKER_DIED})
 
 
 class FileStatus(str, enum.Enum):
@@ -31,13 +30,14 @@ class FileStatus(str, enum.Enum):
 class FileOutcome:
     """One file of a project and what the scan did with it.
 
-    `reason` says why a file was skipped or not parsed, in the words of the stage that decided
-    (the corpus readers, the source decoders, the resolver); it is an open set, shown as is.
+    `reason` says why a file was skipped or not parsed (None for a parsed file). A text that
+    names a `Reason` is kept as the member; any other text is kept as it is, so that a results
+    file written by a version with a reason this one no longer has still loads and shows it.
     """
 
     path: str
     status: FileStatus
-    reason: str | None = None
+    reason: Reason | str | None = None
     detail: str = ""
     digest: str | None = None  # sha256 of the content, for sources that were read
     kind: str | None = None  # module | notebook, for sources
@@ -45,6 +45,8 @@ class FileOutcome:
     def __post_init__(self) -> None:
         # The scan's stages may name the status by its text; it is checked and kept as a value.
         object.__setattr__(self, "status", FileStatus(self.status))
+        if self.reason is not None and not isinstance(self.reason, Reason):
+            object.__setattr__(self, "reason", reason_of(self.reason))
 
 
 @dataclass
@@ -59,4 +61,4 @@ class ProjectResult:
     manifests: dict[str, bytes] = field(default_factory=dict)
 
 
-__all__ = ["ANALYSIS_ERROR", "WORKER_DIED", "FileStatus", "FileOutcome", "ProjectResult"]
+__all__ = ["SCAN_FAILURES", "FileStatus", "FileOutcome", "ProjectResult"]

@@ -20,7 +20,8 @@ from impactscope import __version__
 from impactscope.changes import ChangeList, parse_change_list
 from impactscope.errors import InputError
 from impactscope.findings import Confidence, Finding, Reading
-from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED, FileOutcome, FileStatus, ProjectResult
+from impactscope.outcomes import SCAN_FAILURES, FileOutcome, FileStatus, ProjectResult
+from impactscope.reasons import Reason
 
 # The layout of the tables below. A file of another layout is refused by `open` and started
 # afresh by `resume`. 2: findings.reading (before it, a "legacy: " prefix on the pattern).
@@ -311,14 +312,16 @@ class ResultStore:
             for p, f, c, ln, col, ch, conf, pat, how in rows
         )
 
-    def fault_counts(self) -> dict[str, int]:
-        """Files by reason of failure: an unexpected exception on the file ("analysis error") or
-        its project's worker process dying ("worker died")."""
+    def fault_counts(self) -> dict[Reason, int]:
+        """Files by reason of failure (outcomes.SCAN_FAILURES): an unexpected exception on the
+        file, or its project's worker process dying."""
+        failures = sorted(SCAN_FAILURES)
         rows = self._db.execute(
-            "SELECT reason, COUNT(*) FROM files WHERE status = ? AND reason IN (?, ?) GROUP BY reason",
-            (FileStatus.UNPARSED.value, ANALYSIS_ERROR, WORKER_DIED),
+            f"SELECT reason, COUNT(*) FROM files WHERE status = ? AND reason IN ({', '.join('?' * len(failures))})"
+            " GROUP BY reason",
+            (FileStatus.UNPARSED.value, *failures),
         )
-        return {reason: count for reason, count in rows}
+        return {Reason(reason): count for reason, count in rows}
 
     def manifests(self, project: str) -> dict[str, bytes]:
         rows = self._db.execute("SELECT path, content FROM manifests WHERE project = ?", (project,))

@@ -6,7 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from impactscope.corpus.files import BROKEN_LINK, SPECIAL_FILE, FileRefused, read_regular, refusal
+from impactscope.corpus.files import FileRefused, read_regular, refusal
+from impactscope.reasons import Reason
 
 pytestmark = pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs FIFOs and symlinks")
 
@@ -33,8 +34,8 @@ def test_refusal_of_each_kind(folder: tuple[Path, Path]) -> None:
     boundary = os.path.realpath(inside)
     reasons = {name: refusal(str(inside / "pkg" / name), boundary)
                for name in ("mod.py", "pipe.py", "out.py", "alias.py", "loop.py", "to_pipe.py")}
-    assert reasons == {"mod.py": None, "pipe.py": SPECIAL_FILE, "out.py": "link outside the corpus",
-                       "alias.py": None, "loop.py": BROKEN_LINK, "to_pipe.py": SPECIAL_FILE}
+    assert reasons == {"mod.py": None, "pipe.py": Reason.SPECIAL_FILE, "out.py": "link outside the corpus",
+                       "alias.py": None, "loop.py": Reason.BROKEN_LINK, "to_pipe.py": Reason.SPECIAL_FILE}
     assert refusal(str(inside / "pkg"), boundary) is None
     assert refusal(str(inside / "outdir"), boundary, outside="link outside the library source") == (
         "link outside the library source")
@@ -44,7 +45,7 @@ def test_a_socket_is_a_special_file(tmp_path: Path) -> None:
     path = tmp_path / "s.py"
     with socket.socket(socket.AF_UNIX) as server:
         server.bind(str(path))
-        assert refusal(str(path), os.path.realpath(tmp_path)) == SPECIAL_FILE
+        assert refusal(str(path), os.path.realpath(tmp_path)) == Reason.SPECIAL_FILE
         with pytest.raises(OSError):  # a socket cannot even be opened as a file
             read_regular(str(path), 100)
 
@@ -54,8 +55,8 @@ def test_read_regular_never_blocks_on_a_fifo(folder: tuple[Path, Path]) -> None:
     # Without O_NONBLOCK this open would wait for a writer forever.
     with pytest.raises(FileRefused) as caught:
         read_regular(str(inside / "pkg" / "pipe.py"), 100)
-    assert caught.value.reason == SPECIAL_FILE
-    with pytest.raises(FileRefused, match=SPECIAL_FILE):
+    assert caught.value.reason == Reason.SPECIAL_FILE
+    with pytest.raises(FileRefused, match=Reason.SPECIAL_FILE):
         read_regular(str(inside / "pkg" / "to_pipe.py"), 100, boundary=os.path.realpath(inside))
 
 

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.findings import Finding
-from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.outcomes import SCAN_FAILURES
 from impactscope.scan.run import run_scan
 from impactscope.store import ResultStore
 
@@ -26,7 +26,7 @@ if TYPE_CHECKING:
 
 USES = b"import heronframe as hf\nt = hf.read_table('a')\nt.stack_rows(t)\nhf.stack([t])\n"
 # The faults of impactscope itself: none may be met on any input.
-BUGS = (ANALYSIS_ERROR, WORKER_DIED)
+BUGS = SCAN_FAILURES
 
 
 @dataclass(frozen=True)

@@ -15,8 +15,9 @@ from pathlib import Path
 import pytest
 
 from impactscope.corpus.limits import Limits
+from impactscope.reasons import Reason
 from impactscope.resolve import evaluate
-from impactscope.scan.budget import OVER_BUDGET, FileClock, FileOverBudget, OverBudget
+from impactscope.scan.budget import FileClock, FileOverBudget, OverBudget
 from impactscope.scan.run import run_scan
 
 from .helpers import build_corpus, snapshot, write_changes
@@ -130,7 +131,7 @@ def test_a_scan_records_a_slow_file_and_goes_on(tmp_path: Path, monkeypatch: pyt
     assert _disarmed()
     files = {(p, f.path): f for p, f in snapshot(out)["files"]}  # type: ignore[union-attr]
     slow = files[("proj000", SLOW)]
-    assert (slow.status, slow.reason) == ("skipped", OVER_BUDGET) and "file_seconds = 1" in slow.detail
+    assert (slow.status, slow.reason) == ("skipped", Reason.OVER_TIME_BUDGET) and "file_seconds = 1" in slow.detail
     clean = snapshot(tmp_path / "clean.sqlite")
     # Every file is still accounted for, and every other file's findings are those of a clean scan.
     assert len(files) == len(clean["files"])  # type: ignore[arg-type]

@@ -18,9 +18,9 @@ import pytest
 from typer.testing import CliRunner
 
 from impactscope.cli import app
+from impactscope.reasons import Reason
 from impactscope.resolve import evaluate, positions
 from impactscope.resolve import project as project_resolver
-from impactscope.resolve.faults import ANALYSIS_ERROR, WORKER_DIED
 from impactscope.scan.run import run_scan
 
 from .helpers import _notebook, build_corpus, snapshot, write_changes
@@ -83,9 +83,9 @@ def test_resolver_crash_costs_only_that_file(tmp_path, monkeypatch):
     _inject(monkeypatch, tmp_path / "attempts")
     out = tmp_path / "r.sqlite"
     summary = run_scan(changes, [root], out, jobs=1)
-    assert summary.projects == clean.projects and summary.faults == {ANALYSIS_ERROR: 1}
+    assert summary.projects == clean.projects and summary.faults == {Reason.ANALYSIS_ERROR: 1}
     status, reason, detail = _by_file(out)[("proj000", "pkg0/crash.py")]
-    assert (status, reason) == ("unparsed", ANALYSIS_ERROR)
+    assert (status, reason) == ("unparsed", Reason.ANALYSIS_ERROR)
     # One line: the exception, where in the analysed file, where in impactscope.
     assert "\n" not in detail
     assert detail.startswith("resolver: RuntimeError: injected resolver fault (statement at line 3; raised at ")
@@ -107,7 +107,7 @@ def test_crash_in_an_imported_module_costs_only_that_module(tmp_path, monkeypatc
     out = tmp_path / "r.sqlite"
     run_scan(changes, [root.parent], out, jobs=1)
     files = _by_file(out)
-    assert files[("app", "crash.py")][:2] == ("unparsed", ANALYSIS_ERROR)
+    assert files[("app", "crash.py")][:2] == ("unparsed", Reason.ANALYSIS_ERROR)
     assert files[("app", "main.py")][:2] == ("parsed", None)
     assert {(f.file, f.line, f.change) for f in snapshot(out)["findings"]} == {("main.py", 3, "HF-2"), ("main.py", 5, "HF-1")}
 
@@ -133,7 +133,7 @@ def test_positions_crash_costs_only_that_file(tmp_path, monkeypatch):
     out = tmp_path / "r.sqlite"
     run_scan(changes, [root], out, jobs=1)
     status, reason, detail = _by_file(out)[("proj000", "pkg0/crash.py")]
-    assert (status, reason) == ("unparsed", ANALYSIS_ERROR) and "matching: IndexError" in detail
+    assert (status, reason) == ("unparsed", Reason.ANALYSIS_ERROR) and "matching: IndexError" in detail
     assert _others(out) == snapshot(tmp_path / "clean.sqlite")["findings"]
 
 
@@ -150,13 +150,13 @@ def test_crashing_and_worker_killing_files_in_a_pooled_scan(tmp_path, monkeypatc
     out = tmp_path / "r.sqlite"
     summary = run_scan(changes, [root], out, jobs=2)
     assert summary.projects == clean.projects + 1
-    assert summary.faults == {ANALYSIS_ERROR: 1, WORKER_DIED: 1}
+    assert summary.faults == {Reason.ANALYSIS_ERROR: 1, Reason.WORKER_DIED: 1}
     assert len(attempts.read_text().split()) == 2
     assert len(set(attempts.read_text().split())) == 2  # two different worker processes
     files = _by_file(out)
-    assert files[("proj000", "pkg0/crash.py")][:2] == ("unparsed", ANALYSIS_ERROR)
+    assert files[("proj000", "pkg0/crash.py")][:2] == ("unparsed", Reason.ANALYSIS_ERROR)
     status, reason, detail = files[(KILLING, KILLING)]
-    assert (status, reason) == ("unparsed", WORKER_DIED) and "killed by SIGKILL" in detail and "twice" in detail
+    assert (status, reason) == ("unparsed", Reason.WORKER_DIED) and "killed by SIGKILL" in detail and "twice" in detail
     assert _others(out) == snapshot(tmp_path / "clean.sqlite")["findings"]
     # A failed project is not reused: the next scan tries it again (the fault may have been passing).
     monkeypatch.undo()
@@ -164,7 +164,7 @@ def test_crashing_and_worker_killing_files_in_a_pooled_scan(tmp_path, monkeypatc
     assert again.reused == again.projects - 1
     # Nothing is injected now: the killed project scans cleanly; the crashed file's project is
     # reused as it was (the same tool on the same file fails the same way).
-    assert again.faults == {ANALYSIS_ERROR: 1}
+    assert again.faults == {Reason.ANALYSIS_ERROR: 1}
 
     # Every report format says how many files failed, and which.
     _inject(monkeypatch, attempts)
@@ -173,7 +173,7 @@ def test_crashing_and_worker_killing_files_in_a_pooled_scan(tmp_path, monkeypatc
     document = json.loads(runner.invoke(app, ["report", str(out), "--format", "json"]).stdout)
     assert document["totals"]["files_analysis_error"] == 1 and document["totals"]["files_worker_died"] == 1
     assert {(f["project"], f["file"], f["reason"]) for f in document["failed_files"]} == {
-        ("proj000", "pkg0/crash.py", ANALYSIS_ERROR), (KILLING, KILLING, WORKER_DIED)
+        ("proj000", "pkg0/crash.py", Reason.ANALYSIS_ERROR), (KILLING, KILLING, Reason.WORKER_DIED)
     }
     for form in ("table", "markdown"):
         text = " ".join(runner.invoke(app, ["report", str(out), "--format", form]).stdout.split())

@@ -29,7 +29,7 @@ from hypothesis import strategies as st
 from impactscope.changes import parse_change_list
 from impactscope.corpus.limits import Limits
 from impactscope.corpus.roots import discover
-from impactscope.resolve.faults import ANALYSIS_ERROR
+from impactscope.reasons import Reason
 from impactscope.scan.cache import ScanSettings
 from impactscope.scan.executor import run_pool
 from impactscope.scan.job import ScanJob
@@ -130,7 +130,7 @@ def _scan_text(code: str) -> list[str]:
         (Path(folder) / "program.py").write_text(code, encoding="utf-8")
         (project,) = discover([folder], single=True, library="os")
         result = scan_project(project, LIBRARY.query, prefilter=False, narrowing=False)
-    return [f"{f.path}: {f.detail}" for f in result.files if f.reason == ANALYSIS_ERROR]
+    return [f"{f.path}: {f.detail}" for f in result.files if f.reason is Reason.ANALYSIS_ERROR]
 
 
 # Imports first, so that generated names meet library values (a generated `from __future__`

@@ -9,8 +9,8 @@ from pathlib import Path
 
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.findings import Confidence
+from impactscope.reasons import Reason
 from impactscope.scan.guard import code_size
-from impactscope.scan.project import TOO_LARGE
 from impactscope.scan.run import run_scan
 
 from .helpers import _notebook, snapshot, write_changes
@@ -51,7 +51,7 @@ def test_a_file_too_large_for_libcst_is_read_at_token_level(tmp_path: Path) -> N
     assert summary.faults == {}
     shot = snapshot(out)
     files = {f.path: f for _, f in shot["files"]}  # type: ignore[union-attr]
-    assert (files["big.py"].status, files["big.py"].reason) == ("unparsed", TOO_LARGE)
+    assert (files["big.py"].status, files["big.py"].reason) == ("unparsed", Reason.TOO_LARGE_TO_PARSE)
     assert "read at token level" in files["big.py"].detail
     assert files["small.py"].status == files["cells.ipynb"].status == "parsed"
     found = [(f.file, f.cell, f.confidence) for f in shot["findings"]]  # type: ignore[union-attr]

@@ -9,6 +9,7 @@ from dataclasses import dataclass
 from impactscope.corpus.entries import Entry, add_note, unique_paths
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.corpus.names import is_source_name, join
+from impactscope.reasons import Reason
 
 _VERSION_CONTROL = frozenset({".git", ".hg", ".svn"})
 _CACHES = frozenset({"__pycache__", ".ipynb_checkpoints", ".mypy_cache", ".pytest_cache", ".tox"})
@@ -52,7 +53,7 @@ def classify(
     library: str,
     siblings: Collection[str] | None = None,
     limits: Limits = DEFAULT_LIMITS,
-) -> str | None:
+) -> Reason | None:
     """The reason not to read the file at `path` (POSIX, relative to its project), or None.
 
     `siblings` are the paths of all files in the project. The rules, first
@@ -74,15 +75,15 @@ def classify(
 
 def classify_path(
     path: str, size: int, library: str, layout: Layout | None, limits: Limits = DEFAULT_LIMITS
-) -> str | None:
+) -> Reason | None:
     parts = path.split("/")
     segments = set(parts)
     if segments & _VERSION_CONTROL:
-        return "version control"
+        return Reason.VERSION_CONTROL
     if segments & _CACHES:
-        return "cache"
+        return Reason.CACHE
     if "node_modules" in segments:
-        return "node modules"
+        return Reason.NODE_MODULES
     directories = set(parts[:-1])
     if layout is None:
         venv = bool(directories & (_INSTALL_DIRS | _VENV_NAMES))
@@ -94,20 +95,20 @@ def classify_path(
         venv = bool(directories & _INSTALL_DIRS) or any(d in layout.venvs for d in ancestors)
         vendored = any(d in layout.vendored for d in ancestors)
     if venv:
-        return "virtual environment"
+        return Reason.VIRTUAL_ENVIRONMENT
     if vendored:
-        return "vendored library"
+        return Reason.VENDORED_LIBRARY
     if not is_source_name(parts[-1]):
-        return "not source"
+        return Reason.NOT_SOURCE
     return _size_reason(parts[-1], size, limits)
 
 
-def _size_reason(name: str, size: int, limits: Limits) -> str | None:
+def _size_reason(name: str, size: int, limits: Limits) -> Reason | None:
     limit, reason = read_limit(name, limits)
     return reason if size > limit else None
 
 
-def read_limit(path: str, limits: Limits) -> tuple[int, str]:
+def read_limit(path: str, limits: Limits) -> tuple[int, Reason]:
     """The most bytes `Entry.read` returns for the file at `path`, and the reason beyond it."""
     name_limit = "notebook_bytes" if path.endswith(".ipynb") else "file_bytes"
     return getattr(limits, name_limit), limits.reason(name_limit)
@@ -117,7 +118,7 @@ def classified(
     entries: Iterable[Entry],
     library: str,
     limits: Limits,
-    late: Callable[[Entry], tuple[str, str] | None] | None = None,
+    late: Callable[[Entry], tuple[Reason, str] | None] | None = None,
 ) -> Iterator[Entry]:
     """Entries in path order, each readable one given its skip reason: the classification's,
     else `late`'s (a reason and a note known without reading, such as a declared ratio)."""

@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.corpus.names import display
 from impactscope.errors import InputError
+from impactscope.reasons import Reason, reason_of
 
 # Malformed or hostile archives fail inside zipfile, tarfile and the
 # decompressors with a wide range of exception types.
@@ -49,14 +50,14 @@ class CorpusError(InputError):
 
 class EntryError(InputError):
     """Raised by `Entry.read` when the bytes cannot be had (unreadable file, corrupt member,
-    a limit reached while reading). `reason` is a short stable key, as skip reasons are."""
+    a limit reached while reading). `reason` is the file's reason, as a skip reason is."""
 
-    def __init__(self, message: str, reason: str = "unreadable") -> None:
+    def __init__(self, message: str, reason: Reason = Reason.UNREADABLE) -> None:
         super().__init__(message)
         self.reason = reason
 
 
-def refuse(reason: str) -> bytes:
+def refuse(reason: Reason) -> bytes:
     raise EntryError(reason, reason)
 
 
@@ -66,8 +67,9 @@ class Entry:
 
     `stamp` is a cheap change-detection key: `m{mtime_ns}:{size}` for files in
     folders, `c{crc32}:{size}` for zip members, `t{mtime}:{size}` for tar
-    members. `skip` is the reason not to read the file, `error` the reason it
-    cannot be read at all; at most one is set. `read` returns the bytes and
+    members. `skip` is the reason not to read the file, `error` why it cannot
+    be read at all (`failure`: its reason, then what went wrong); at most one
+    is set. `read` returns the bytes and
     raises EntryError on failure (a read is bounded by the project's Limits);
     for tar members it only works until the iterator that produced the entry
     advances. `note` says, for people, anything unusual about the entry (a
@@ -77,7 +79,7 @@ class Entry:
     path: str
     size: int
     stamp: str
-    skip: str | None
+    skip: Reason | None
     error: str | None
     read: Callable[[], bytes] = field(repr=False, compare=False)
     note: str = ""
@@ -142,21 +144,32 @@ def add_note(note: str, more: str) -> str:
     return "; ".join(part for part in (note, more) if part)
 
 
-def skipped_entry(path: str, size: int, stamp: str, reason: str, note: str = "") -> Entry:
+def skipped_entry(path: str, size: int, stamp: str, reason: Reason, note: str = "") -> Entry:
     return Entry(path, size, stamp, reason, None, functools.partial(refuse, reason), note)
 
 
-def failed_entry(path: str, reason: str, size: int = 0, stamp: str = "") -> Entry:
-    return Entry(path, size, stamp, None, reason, functools.partial(refuse, reason))
+def failed_entry(path: str, error: str, size: int = 0, stamp: str = "") -> Entry:
+    """An entry that cannot be read; `error` is a `failure` (a Reason alone is one)."""
+    return Entry(path, size, stamp, None, error, functools.partial(_refuse_with, error, failure_reason(error)))
 
 
 def corrupt_entry(archive_name: str, problem: BaseException | str) -> Entry:
     detail = problem if isinstance(problem, str) else (str(problem) or type(problem).__name__)
-    return failed_entry(display(archive_name), f"corrupt archive: {detail}")
+    return failed_entry(display(archive_name), failure(Reason.CORRUPT_ARCHIVE, detail))
 
 
 def os_reason(exc: OSError) -> str:
-    return f"cannot read: {exc.strerror or exc}"
+    return failure(Reason.CANNOT_READ, str(exc.strerror or exc))
+
+
+def failure(reason: Reason, detail: str) -> str:
+    """An entry's `error`: its reason, then what went wrong, for people."""
+    return f"{reason}: {detail}"
+
+
+def failure_reason(error: str) -> Reason | str:
+    """The reason a file is counted under, from an entry's `error` (see `failure`)."""
+    return reason_of(error.split(":", 1)[0])
 
 
 
@@ -191,7 +204,7 @@ def _give(data: bytes) -> bytes:
     return data
 
 
-def _refuse_with(message: str, reason: str) -> bytes:
+def _refuse_with(message: str, reason: Reason | str) -> bytes:
     # A new EntryError each time: pickling one would lose its reason (it is not in `args`).
     raise EntryError(message, reason)
 

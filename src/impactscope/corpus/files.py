@@ -20,11 +20,9 @@ import stat
 
 from impactscope.corpus.limits import LimitExceeded, read_bounded
 from impactscope.errors import InputError
+from impactscope.reasons import Reason
 
-__all__ = ["BROKEN_LINK", "SPECIAL_FILE", "FileRefused", "read_regular", "refusal", "within"]
-
-SPECIAL_FILE = "special file"
-BROKEN_LINK = "broken link"
+__all__ = ["FileRefused", "read_regular", "refusal", "within"]
 
 # O_NONBLOCK: opening a FIFO (swapped in after listing) returns at once instead of blocking.
 # O_NOFOLLOW: a link swapped in at the last step is refused (ELOOP) instead of followed.
@@ -38,8 +36,9 @@ _OPEN_FLAGS = (
 
 
 class FileRefused(InputError):
-    """A file that is not read: `reason` is a short stable key ("special file", a limit's
-    reason, a link's reason), `detail` says what and where, for people."""
+    """A file that is not read: `reason` is a short stable key (Reason.SPECIAL_FILE, a limit's
+    reason, a link's reason; the library source's reader passes labels of its own), `detail`
+    says what and where, for people."""
 
     def __init__(self, reason: str, detail: str) -> None:
         super().__init__(reason, detail)
@@ -55,12 +54,12 @@ def within(path: str, boundary: str) -> bool:
     return path == boundary or path.startswith(boundary.rstrip(os.sep) + os.sep)
 
 
-def refusal(path: str, boundary: str, *, outside: str = "link outside the corpus") -> str | None:
+def refusal(path: str, boundary: str, *, outside: str = Reason.LINK_OUTSIDE_CORPUS) -> str | None:
     """Why the file or folder at `path` must not be opened, or None.
 
     `boundary` is the resolved folder (`os.path.realpath`) that links must stay in; `outside`
     is the reason given to a link that leaves it. A regular file, a folder, or a link to one
-    inside the boundary is fine; anything else is SPECIAL_FILE or BROKEN_LINK. Raises OSError
+    inside the boundary is fine; anything else is a special file or a broken link. Raises OSError
     when `path` itself cannot be looked at.
     """
     info = os.lstat(path)
@@ -70,19 +69,19 @@ def refusal(path: str, boundary: str, *, outside: str = "link outside the corpus
         try:
             info = os.stat(path)
         except OSError:  # dangling, or a loop
-            return BROKEN_LINK
+            return Reason.BROKEN_LINK
     if stat.S_ISREG(info.st_mode) or stat.S_ISDIR(info.st_mode):
         return None
-    return SPECIAL_FILE
+    return Reason.SPECIAL_FILE
 
 
 def read_regular(
     path: str,
     limit: int,
     *,
-    reason: str = "too large",
+    reason: str = Reason.TOO_LARGE,
     boundary: str | None = None,
-    outside: str = "link outside the corpus",
+    outside: str = Reason.LINK_OUTSIDE_CORPUS,
 ) -> bytes:
     """The bytes of the regular file at `path`, at most `limit` of them.
 
@@ -99,7 +98,7 @@ def read_regular(
     fd = os.open(path, _OPEN_FLAGS)
     try:
         if not stat.S_ISREG(os.fstat(fd).st_mode):
-            raise FileRefused(SPECIAL_FILE, f"{path}: {SPECIAL_FILE}, not read")
+            raise FileRefused(Reason.SPECIAL_FILE, f"{path}: {Reason.SPECIAL_FILE}, not read")
         handle = os.fdopen(fd, "rb", buffering=0)
     except BaseException:
         os.close(fd)

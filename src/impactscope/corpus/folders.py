@@ -18,12 +18,10 @@ from dataclasses import dataclass
 
 from impactscope.corpus.classification import classified, read_limit
 from impactscope.corpus.entries import Entry, EntryError, failed_entry, os_reason, skipped_entry
-from impactscope.corpus.files import SPECIAL_FILE, FileRefused, read_regular, within
+from impactscope.corpus.files import FileRefused, read_regular, within
 from impactscope.corpus.limits import Limits
 from impactscope.corpus.names import display, join
-
-LINK_OUTSIDE_CORPUS = "link outside the corpus"
-LINK_OUTSIDE_PROJECT = "link outside the project"
+from impactscope.reasons import Reason
 
 
 @dataclass(frozen=True)
@@ -37,15 +35,15 @@ class Bounds:
     def of(cls, project: str, root: str) -> Bounds:
         return cls(os.path.realpath(project), os.path.realpath(root))
 
-    def link_reason(self, location: str) -> str | None:
+    def link_reason(self, location: str) -> Reason | None:
         """Why the link at `location` is not followed, or None if its target is in the project."""
         target = os.path.realpath(location)
         if within(target, self.project):
             return None
-        return LINK_OUTSIDE_PROJECT if within(target, self.root) else LINK_OUTSIDE_CORPUS
+        return Reason.LINK_OUTSIDE_PROJECT if within(target, self.root) else Reason.LINK_OUTSIDE_CORPUS
 
 
-def read_path(location: str, limit: int, reason: str) -> bytes:
+def read_path(location: str, limit: int, reason: Reason) -> bytes:
     try:
         return read_regular(location, limit, reason=reason)
     except FileRefused as exc:
@@ -77,11 +75,11 @@ def _link_entry(path: str, location: str, bounds: Bounds, limits: Limits) -> Ent
     try:
         info = os.stat(target)
     except OSError:  # dangling, or a loop (realpath stops on loops instead of following them)
-        return failed_entry(display(path), "broken link")
+        return failed_entry(display(path), Reason.BROKEN_LINK)
     if stat.S_ISDIR(info.st_mode):
         return None
     if not stat.S_ISREG(info.st_mode):
-        return skipped_entry(display(path), *_stat_stamp(location), SPECIAL_FILE)
+        return skipped_entry(display(path), *_stat_stamp(location), Reason.SPECIAL_FILE)
     return _file_entry(path, target, info, limits)
 
 
@@ -95,7 +93,7 @@ def _walk(top: str, bounds: Bounds, limits: Limits) -> Iterator[Entry]:
                 # Name order, so that which of two names shown alike gets a suffix is stable.
                 children = sorted(listing, key=lambda child: child.name)
         except OSError as exc:
-            yield failed_entry(display(relative or "."), f"unreadable directory: {exc.strerror or exc}")
+            yield failed_entry(display(relative or "."), f"{Reason.UNREADABLE_DIRECTORY}: {exc.strerror or exc}")
             continue
         subfolders = []
         for child in children:
@@ -110,7 +108,7 @@ def _walk(top: str, bounds: Bounds, limits: Limits) -> Iterator[Entry]:
                 elif child.is_file(follow_symlinks=False):
                     yield _file_entry(path, child.path, child.stat(follow_symlinks=False), limits)
                 else:  # a FIFO, socket or device: opening a FIFO would block
-                    yield skipped_entry(display(path), *_stat_stamp(child.path), SPECIAL_FILE)
+                    yield skipped_entry(display(path), *_stat_stamp(child.path), Reason.SPECIAL_FILE)
             except OSError as exc:
                 yield failed_entry(display(path), os_reason(exc))
         pending.extend(reversed(subfolders))
@@ -126,7 +124,7 @@ def file_entries(location: str, name: str, library: str, limits: Limits) -> Iter
         if stat.S_ISREG(info.st_mode):
             entry = _file_entry(name, os.path.realpath(location), info, limits)
         else:
-            entry = skipped_entry(display(name), 0, "", SPECIAL_FILE)
+            entry = skipped_entry(display(name), 0, "", Reason.SPECIAL_FILE)
     except OSError as exc:
         entry = failed_entry(display(name), os_reason(exc))
     yield from classified((entry,), library, limits)

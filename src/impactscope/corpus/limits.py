@@ -41,6 +41,7 @@ from dataclasses import dataclass
 from typing import IO
 
 from impactscope.errors import InputError
+from impactscope.reasons import Reason
 
 __all__ = [
     "RATIO_FLOOR",
@@ -59,15 +60,15 @@ _CHUNK = 1 << 20
 
 # Field -> the skip reason of an entry that reaches it.
 REASONS = {
-    "file_bytes": "too large",
-    "notebook_bytes": "notebook too large",
-    "notebook_code_bytes": "notebook code too large",
-    "archive_bytes": "archive too large",
-    "ratio": "compression ratio",
-    "members": "too many members",
-    "depth": "nested too deep",
-    "file_seconds": "over time budget",
-    "parse_chars": "too large to parse",
+    "file_bytes": Reason.TOO_LARGE,
+    "notebook_bytes": Reason.NOTEBOOK_TOO_LARGE,
+    "notebook_code_bytes": Reason.NOTEBOOK_CODE_TOO_LARGE,
+    "archive_bytes": Reason.ARCHIVE_TOO_LARGE,
+    "ratio": Reason.COMPRESSION_RATIO,
+    "members": Reason.TOO_MANY_MEMBERS,
+    "depth": Reason.NESTED_TOO_DEEP,
+    "file_seconds": Reason.OVER_TIME_BUDGET,
+    "parse_chars": Reason.TOO_LARGE_TO_PARSE,
 }
 
 
@@ -119,7 +120,7 @@ class Limits:
                 raise LimitsError(f"limit {setting!r}: {value.strip()!r} is not a whole number") from None
         return dataclasses.replace(self, **changes)
 
-    def reason(self, name: str) -> str:
+    def reason(self, name: str) -> Reason:
         """The skip reason of limit `name`."""
         return REASONS[name]
 
@@ -134,7 +135,8 @@ DEFAULT_LIMITS = Limits()
 
 
 class LimitExceeded(Exception):
-    """Raised inside a read when a bound is reached; the corpus layer turns it into a reason.
+    """Raised inside a read when a bound is reached; the corpus layer turns it into a reason
+    (a `Reason` for a corpus file; the library source's reader passes labels of its own).
 
     Deliberately not an OSError or ValueError: archive readers catch those as corruption, and
     a bound is not a fault of the archive.

@@ -71,6 +71,7 @@ from impactscope.corpus.names import (
     member_head,
     member_parts,
 )
+from impactscope.reasons import Reason
 
 
 __all__ = [
@@ -311,7 +312,7 @@ def _zip_root(location: str, root_name: str, library: str, limits: Limits) -> It
             head = member_head(info.filename)
             if head is None:
                 if not (zip_dir(info) and member_parts(info.filename) == ()):  # "./" is harmless
-                    yield NotAProject(f"{location}!{info.filename}", "unsafe path")
+                    yield NotAProject(f"{location}!{info.filename}", Reason.UNSAFE_PATH)
             elif head.startswith("."):
                 if not zip_dir(info):
                     yield NotAProject(f"{location}!{info.filename}", "hidden")
@@ -494,7 +495,7 @@ def _tar_root(location: str, root_name: str, library: str, limits: Limits) -> It
                 if head is None or head.startswith("."):
                     stream.take()
                     if head is None and not (item.isdir() and member_parts(item.name) == ()):
-                        yield NotAProject(f"{location}!{item.name}", "unsafe path")
+                        yield NotAProject(f"{location}!{item.name}", Reason.UNSAFE_PATH)
                     elif head is not None and not item.isdir():
                         yield NotAProject(f"{location}!{item.name}", "hidden")
                     continue

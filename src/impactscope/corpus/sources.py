@@ -29,6 +29,7 @@ from impactscope.corpus import lexer
 from impactscope.corpus.lexer import Token
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.errors import InputError
+from impactscope.reasons import Reason
 
 if TYPE_CHECKING:  # IPython is slow to import; only notebooks need it.
     from IPython.core.inputtransformer2 import TransformerManager
@@ -56,19 +57,19 @@ PYTHON_CELL_MAGICS = frozenset(
 
 _DEFAULT_LIMITS = DEFAULT_LIMITS
 # Reasons that skip a file (a bound reached), where the others leave it unparsed.
-SKIP_REASONS = frozenset({_DEFAULT_LIMITS.reason("notebook_code_bytes")})
+SKIP_REASONS = frozenset({Reason.NOTEBOOK_CODE_TOO_LARGE})
 
 
 class SourceError(InputError):
     """A file whose text cannot be had: undecodable bytes, an unreadable notebook, or a
     notebook with too much code.
 
-    `reason` is a short, stable key for totals ("encoding", "invalid notebook" or "notebook
-    code too large"; the last is a reason to skip the file, as `corpus.roots.classify`
-    gives "too large" for other files: see `skipped`); `detail` says where and why, for people.
+    `reason` is the file's reason (ENCODING, INVALID_NOTEBOOK or NOTEBOOK_CODE_TOO_LARGE; the
+    last is a reason to skip the file, as `corpus.classification` gives TOO_LARGE for other
+    files: see `skipped`); `detail` says where and why, for people.
     """
 
-    def __init__(self, reason: str, detail: str) -> None:
+    def __init__(self, reason: Reason, detail: str) -> None:
         super().__init__(reason, detail)
         self.reason = reason
         self.detail = detail
@@ -121,24 +122,24 @@ def decode_python(data: bytes, path: str) -> str:
     A UTF-8 BOM, or a coding comment on line 1 or 2, names the encoding; the
     default is UTF-8. The standard library's `tokenize.detect_encoding` does
     the detection, so the answer matches the interpreter's. Newlines become
-    `\\n`. Raises SourceError("encoding", ...) for an unknown codec or bytes
+    `\\n`. Raises SourceError(Reason.ENCODING, ...) for an unknown codec or bytes
     the codec cannot decode.
     """
     try:
         encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
     except SyntaxError as exc:
-        raise SourceError("encoding", f"{path}: {exc.msg}") from None
+        raise SourceError(Reason.ENCODING, f"{path}: {exc.msg}") from None
     try:
         text = data.decode(encoding)
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
         raise SourceError(
-            "encoding",
+            Reason.ENCODING,
             f"{path}: line {line}: byte 0x{data[exc.start]:02x} is not valid {encoding}; "
             "declare the file's real encoding in a coding comment (PEP 263)",
         ) from None
     except LookupError as exc:  # a codec that exists but is not a text encoding
-        raise SourceError("encoding", f"{path}: {exc}") from None
+        raise SourceError(Reason.ENCODING, f"{path}: {exc}") from None
     if encoding == "utf-8-sig":
         text = text.removeprefix("\ufeff")
     return _normalise_newlines(text)
@@ -227,7 +228,7 @@ def _notebook_json(data: bytes, path: str) -> str:
         return without_outputs(data).decode("utf-8-sig")  # JSON is UTF-8 (RFC 8259)
     except UnicodeDecodeError as exc:
         raise SourceError(
-            "encoding", f"{path}: byte 0x{data[exc.start]:02x} at offset {exc.start} is not UTF-8"
+            Reason.ENCODING, f"{path}: byte 0x{data[exc.start]:02x} at offset {exc.start} is not UTF-8"
         ) from None
 
 
@@ -252,10 +253,10 @@ def notebook_text(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -
     try:
         document = json.loads(text, object_pairs_hook=_lean_object)
     except ValueError as exc:
-        raise SourceError("invalid notebook", f"{path}: {_first_line(str(exc))}") from None
+        raise SourceError(Reason.INVALID_NOTEBOOK, f"{path}: {_first_line(str(exc))}") from None
     del text
     if not isinstance(document, dict):
-        raise SourceError("invalid notebook", f"{path}: the top level is not a JSON object")
+        raise SourceError(Reason.INVALID_NOTEBOOK, f"{path}: the top level is not a JSON object")
     cells = document.get("cells")
     if cells is None:  # nbformat v3 keeps cells in worksheets, code under "input"
         cells = [c for w in _list(document.get("worksheets")) if isinstance(w, dict) for c in _list(w.get("cells"))]
@@ -299,7 +300,7 @@ def read_notebook(data: bytes, path: str, *, limits: Limits = _DEFAULT_LIMITS) -
     # Malformed JSON reaches nbformat's readers and converters as arbitrary
     # shapes, and they fail with whatever error the shape provokes.
     except Exception as exc:  # noqa: BLE001
-        raise SourceError("invalid notebook", f"{path}: {_first_line(str(exc))}") from None
+        raise SourceError(Reason.INVALID_NOTEBOOK, f"{path}: {_first_line(str(exc))}") from None
 
     language = _kernel_language(metadata)
     foreign = language is not None and not language.lower().startswith(("python", "ipython"))

@@ -9,7 +9,8 @@ from typing import Iterable
 import pandas as pd
 
 from impactscope.findings import Confidence, Finding, Reading
-from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED, FileOutcome, FileStatus
+from impactscope.outcomes import SCAN_FAILURES, FileOutcome, FileStatus
+from impactscope.reasons import Reason
 from impactscope.report.model import (
     ByCertainty,
     CertaintyGroup,
@@ -37,7 +38,7 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
     file_rows = list(store.files())
 
     status = Counter(outcome.status for _, outcome in file_rows)
-    reasons: Counter[tuple[FileStatus, str]] = Counter(
+    reasons: Counter[tuple[FileStatus, Reason | str]] = Counter(
         (outcome.status, outcome.reason or "") for _, outcome in file_rows if outcome.status is not FileStatus.PARSED
     )
     totals = Totals(
@@ -47,8 +48,8 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
         files_parsed=status[FileStatus.PARSED],
         files_skipped=status[FileStatus.SKIPPED],
         files_unparsed=status[FileStatus.UNPARSED],
-        files_analysis_error=reasons[(FileStatus.UNPARSED, ANALYSIS_ERROR)],
-        files_worker_died=reasons[(FileStatus.UNPARSED, WORKER_DIED)],
+        files_analysis_error=reasons[(FileStatus.UNPARSED, Reason.ANALYSIS_ERROR)],
+        files_worker_died=reasons[(FileStatus.UNPARSED, Reason.WORKER_DIED)],
     )
     by_project: dict[str, list[FileOutcome]] = {}
     for project, outcome in file_rows:
@@ -116,7 +117,7 @@ def build_report(store: ResultStore, options: SizingOptions | None = None) -> Re
         failed_files=tuple(
             FailedFile(project, o.path, o.reason, o.detail)
             for project, o in file_rows
-            if o.status is FileStatus.UNPARSED and o.reason in (ANALYSIS_ERROR, WORKER_DIED)
+            if o.status is FileStatus.UNPARSED and o.reason in SCAN_FAILURES
         ),
         weights=weights,
     )

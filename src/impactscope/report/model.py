@@ -18,6 +18,7 @@ from impactscope.changes import Kind
 from impactscope.exposure import Exposure
 from impactscope.findings import Confidence, Finding, Reading, parse_pattern_label, pattern_label
 from impactscope.outcomes import FileStatus
+from impactscope.reasons import Reason, reason_of
 
 T = TypeVar("T")
 U = TypeVar("U")
@@ -223,15 +224,15 @@ class FileReason:
     """How many files were skipped or not parsed for one reason."""
 
     status: FileStatus
-    reason: str
+    reason: Reason | str  # a text no Reason names comes from an older results file (FileOutcome)
     files: int
 
     def to_json(self) -> Json:
-        return {"status": self.status.value, "reason": self.reason, "files": self.files}
+        return {"status": self.status.value, "reason": str(self.reason), "files": self.files}
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any]) -> "FileReason":
-        return cls(FileStatus(data["status"]), data["reason"], data["files"])
+        return cls(FileStatus(data["status"]), reason_of(data["reason"]), data["files"])
 
 
 @dataclass(frozen=True)
@@ -322,8 +323,11 @@ class FailedFile(_Plain):
 
     project: str
     file: str
-    reason: str
+    reason: Reason | str
     detail: str
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "reason", reason_of(self.reason))
 
 
 @dataclass(frozen=True)

@@ -21,6 +21,7 @@ from impactscope.exposure import Exposure, classify, environment_for_python, rea
 from impactscope.findings import Confidence, Finding
 from impactscope.forks import fork_families, unique_sources
 from impactscope.outcomes import FileStatus, FileOutcome
+from impactscope.reasons import Reason
 from impactscope.report.model import CorpusFacts, Estimate, ExposureCounts, PerLevel, ProjectFacts, Share, WeightedShare
 
 
@@ -87,7 +88,7 @@ def project_facts(
     out: dict[str, ProjectFacts] = {}
     for name, uses in projects:
         outcomes = files.get(name, [])
-        py2 = [f for f in outcomes if f.reason == "python 2"]
+        py2 = [f for f in outcomes if f.reason is Reason.PYTHON_2]
         py3 = [f for f in outcomes if f.status is FileStatus.PARSED and f.kind == "module"]
         legacy = bool(py2)
         read = read_manifests(manifests.get(name, {}), changes.library)

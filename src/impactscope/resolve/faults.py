@@ -1,7 +1,7 @@
 """How an unexpected failure while analysing one file is recorded: the file, not the scan, pays.
 
 A bug in the resolver (or in narrowing, positions, the notebook transform) met on one file marks
-that file unparsed with reason `ANALYSIS_ERROR` and a one-line detail: the exception, where in the
+that file unparsed with reason `Reason.ANALYSIS_ERROR` and a one-line detail: the exception, where in the
 analysed file it was met when that is known, and where in impactscope it was raised, which is
 what a bug report needs.
 """
@@ -13,7 +13,6 @@ import traceback
 
 import libcst as cst
 
-from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED
 _DETAIL_LIMIT = 300
 
 
@@ -59,4 +58,4 @@ def describe(exc: BaseException, *, stage: str, line: int | None = None, cell: i
     return f"{head} ({tail})" if tail else head
 
 
-__all__ = ["ANALYSIS_ERROR", "WORKER_DIED", "describe", "statement_line"]
+__all__ = ["describe", "statement_line"]

@@ -14,8 +14,9 @@ import libcst as cst
 from impactscope.corpus.sources import Source, looks_like_python2
 from impactscope.findings import Finding
 from impactscope.import_names import module_name, package_of
+from impactscope.reasons import Reason
 from impactscope.resolve.evaluate import ModuleEvaluator, ModuleResult, Ref
-from impactscope.resolve.faults import ANALYSIS_ERROR, describe, statement_line
+from impactscope.resolve.faults import describe, statement_line
 from impactscope.resolve.match import judge, pattern
 from impactscope.resolve.positions import Positions
 from impactscope.resolve.query import Query
@@ -28,10 +29,10 @@ class FileAnalysis:
 
     path: str
     status: str = "parsed"  # parsed | unparsed
-    reason: str | None = None
+    reason: Reason | None = None
     detail: str = ""
     cells: list[tuple[int | None, int, cst.Module]] = field(default_factory=list)
-    unparsed_cells: list[tuple[int, str]] = field(default_factory=list)
+    unparsed_cells: list[tuple[int, Reason]] = field(default_factory=list)
     result: ModuleResult | None = None
     findings: list[Finding] = field(default_factory=list)
     matched_as_user: bool | None = None  # the uses-library answer `findings` were matched under
@@ -138,12 +139,12 @@ class ProjectResolver:
                     fa.result = evaluator.run((index, module) for index, _, module in fa.cells)
                     self._evaluators[path] = evaluator
                 except RecursionError:
-                    fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
+                    fa.status, fa.reason, fa.detail = "unparsed", Reason.TOO_DEEPLY_NESTED, ""
                     fa.result = None
                 except Exception as exc:  # noqa: BLE001 - a resolver bug costs this file, not its project
                     module = next((m for index, _, m in fa.cells if index == evaluator.at.cell), None)
                     line = statement_line(module, evaluator.at.top) if module is not None else None
-                    fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
+                    fa.status, fa.reason = "unparsed", Reason.ANALYSIS_ERROR
                     fa.detail = describe(exc, stage="resolver", line=line, cell=evaluator.at.cell)
                     fa.result = None
             self.files[path] = fa
@@ -177,7 +178,7 @@ class ProjectResolver:
                 try:
                     fa.findings = self._findings(fa)
                 except Exception as exc:  # noqa: BLE001 - a matching or positions bug costs this file only
-                    fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
+                    fa.status, fa.reason = "unparsed", Reason.ANALYSIS_ERROR
                     fa.detail = describe(exc, stage="matching")
                     fa.findings, fa.result = [], None
                     continue
@@ -196,11 +197,11 @@ class ProjectResolver:
                 try:
                     evaluator.resume()
                 except RecursionError:
-                    fa.status, fa.reason, fa.detail = "unparsed", "too deeply nested", ""
+                    fa.status, fa.reason, fa.detail = "unparsed", Reason.TOO_DEEPLY_NESTED, ""
                     fa.result, fa.findings = None, []
                     del self._evaluators[path]
                 except Exception as exc:  # noqa: BLE001 - a resolver bug costs this file, not its project
-                    fa.status, fa.reason = "unparsed", ANALYSIS_ERROR
+                    fa.status, fa.reason = "unparsed", Reason.ANALYSIS_ERROR
                     fa.detail = describe(exc, stage="resolver", cell=evaluator.at.cell)
                     fa.result, fa.findings = None, []
                     del self._evaluators[path]
@@ -214,7 +215,7 @@ class ProjectResolver:
             try:
                 module = cst.parse_module(cell.code)
             except cst.ParserSyntaxError as exc:
-                reason = "python 2" if looks_like_python2(cell.code) else "syntax error"
+                reason = Reason.PYTHON_2 if looks_like_python2(cell.code) else Reason.SYNTAX_ERROR
                 if cell.index is None:
                     fa.status, fa.reason = "unparsed", reason
                     fa.detail = f"line {exc.raw_line}: {exc.message}"
@@ -223,15 +224,15 @@ class ProjectResolver:
                 continue
             except RecursionError:
                 if cell.index is None:
-                    fa.status, fa.reason = "unparsed", "too deeply nested"
+                    fa.status, fa.reason = "unparsed", Reason.TOO_DEEPLY_NESTED
                     return fa
-                fa.unparsed_cells.append((cell.index, "too deeply nested"))
+                fa.unparsed_cells.append((cell.index, Reason.TOO_DEEPLY_NESTED))
                 continue
             except Exception as exc:  # noqa: BLE001 - a parser bug costs this file (or cell) only
                 if cell.index is None:
-                    fa.status, fa.reason, fa.detail = "unparsed", ANALYSIS_ERROR, describe(exc, stage="parser")
+                    fa.status, fa.reason, fa.detail = "unparsed", Reason.ANALYSIS_ERROR, describe(exc, stage="parser")
                     return fa
-                fa.unparsed_cells.append((cell.index, ANALYSIS_ERROR))
+                fa.unparsed_cells.append((cell.index, Reason.ANALYSIS_ERROR))
                 continue
             fa.cells.append((cell.index, cell.first_line, module))
         if source.kind == "notebook":

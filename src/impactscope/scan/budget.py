@@ -23,12 +23,7 @@ import time
 from collections.abc import Callable, Iterator
 from typing import TypeVar
 
-from impactscope.corpus.limits import REASONS
-
-__all__ = ["OVER_BUDGET", "FileClock", "FileOverBudget", "OverBudget"]
-
-# The skip reason of a file stopped by its budget.
-OVER_BUDGET = REASONS["file_seconds"]
+__all__ = ["FileClock", "FileOverBudget", "OverBudget"]
 
 T = TypeVar("T")
 
@@ -38,7 +33,8 @@ class OverBudget(BaseException):
 
 
 class FileOverBudget(Exception):
-    """A file's analysis was stopped by its time budget; `FileClock.over` holds its detail."""
+    """A file's analysis was stopped by its time budget; `FileClock.over` holds its detail, and
+    the file is skipped as Reason.OVER_TIME_BUDGET (the limits table's file_seconds reason)."""
 
 
 class FileClock:

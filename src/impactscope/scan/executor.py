@@ -27,7 +27,7 @@ from dataclasses import dataclass
 from typing import Any, Generator, Iterable, Iterator, Sequence
 
 from impactscope.corpus.roots import Entry, Project
-from impactscope.outcomes import ANALYSIS_ERROR, WORKER_DIED
+from impactscope.reasons import Reason
 from impactscope.resolve.faults import describe
 from impactscope.scan.cache import origin_stamp, project_key
 from impactscope.scan.job import ScanJob
@@ -63,7 +63,7 @@ def scan_keyed(project: Project, job: ScanJob) -> Scanned:
     try:
         result = scan_project(recorded, job.query, prefilter=job.prefilter)
     except Exception as exc:  # noqa: BLE001 - a bug outside any one file costs this project only
-        return Scanned(failed_project(project, ANALYSIS_ERROR, describe(exc, stage="project")), None)
+        return Scanned(failed_project(project, Reason.ANALYSIS_ERROR, describe(exc, stage="project")), None)
     return Scanned(result, project_key(job.fingerprint, project, stamp, seen))
 
 
@@ -202,7 +202,7 @@ def _died_twice(project: Project, how: str) -> Scanned:
         f"the worker process died while scanning this project, twice ({how}); "
         "likely causes: recursion too deep for C code, memory exhausted, a signal"
     )
-    return Scanned(failed_project(project, WORKER_DIED, detail), None)
+    return Scanned(failed_project(project, Reason.WORKER_DIED, detail), None)
 
 
 def run_pool(batches: Iterable[Batch], job: ScanJob, jobs: int) -> Generator[Scanned, None, None]:
@@ -326,7 +326,6 @@ def scan_batch_remote(job: ScanJob, batch: Batch) -> list[Scanned]:
 
 
 __all__ = [
-    "WORKER_DIED",
     "Batch",
     "Scanned",
     "run_inline",

@@ -7,7 +7,7 @@ import hashlib
 import re
 from typing import Callable
 
-from impactscope.corpus.entries import EntryError, Project, add_note
+from impactscope.corpus.entries import EntryError, Project, add_note, failure_reason
 from impactscope.corpus.sources import (
     Source,
     SourceError,
@@ -18,20 +18,18 @@ from impactscope.corpus.sources import (
 )
 from impactscope.exposure import is_manifest
 from impactscope.findings import Confidence, Finding, Reading
-from impactscope.outcomes import ANALYSIS_ERROR, FileOutcome, ProjectResult
+from impactscope.outcomes import FileOutcome, ProjectResult
+from impactscope.reasons import Reason
 from impactscope.resolve.faults import describe
 from impactscope.resolve.legacy import legacy_hits
 from impactscope.resolve.project import FileAnalysis, ProjectResolver
 from impactscope.resolve.query import Query
-from impactscope.scan.budget import OVER_BUDGET, FileClock
+from impactscope.scan.budget import FileClock
 from impactscope.scan.guard import code_size, too_deep
 from impactscope.scan.prefilter import Plan, Prefilter
 from impactscope.scan.slicing import narrow
 
-NO_CANDIDATE = "no candidate"
-TOO_DEEP = "too deeply nested"
-TOO_LARGE = "too large to parse"
-_GUARDED = {TOO_DEEP: "nested too deeply to parse safely", TOO_LARGE: "over the limit parse_chars of code to parse (raise it with --limit parse_chars=N)"}
+_GUARDED = {Reason.TOO_DEEPLY_NESTED: "nested too deeply to parse safely", Reason.TOO_LARGE_TO_PARSE: "over the limit parse_chars of code to parse (raise it with --limit parse_chars=N)"}
 
 
 def _is_manifest(path: str, size: int) -> bool:
@@ -60,7 +58,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             except Exception:  # noqa: BLE001 - an unreadable manifest only loses its constraint
                 pass
         if entry.error is not None:
-            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", entry.error.split(":", 1)[0], entry.error)
+            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", failure_reason(entry.error), entry.error)
             continue
         if entry.skip is not None:
             outcomes[entry.path] = FileOutcome(entry.path, "skipped", entry.skip, entry.note)
@@ -68,12 +66,12 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         try:
             data = entry.read()
         except EntryError as exc:  # a damaged member, or a limit reached while reading
-            limit = exc.reason != "unreadable"
+            limit = exc.reason != Reason.UNREADABLE
             outcomes[entry.path] = FileOutcome(entry.path, "skipped" if limit else "unparsed", exc.reason,
                                                add_note(entry.note, str(exc)))
             continue
         except Exception as exc:  # noqa: BLE001 - a damaged member is counted, the scan goes on
-            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", "unreadable",
+            outcomes[entry.path] = FileOutcome(entry.path, "unparsed", Reason.UNREADABLE,
                                                add_note(entry.note, f"{type(exc).__name__}: {exc}"))
             continue
         digest = hashlib.sha256(data).hexdigest()
@@ -91,7 +89,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             status = "skipped" if exc.skipped else "unparsed"  # a notebook's code size
             outcomes[entry.path] = FileOutcome(entry.path, status, exc.reason, add_note(entry.note, exc.detail), digest, kind)
             continue
-        outcomes[entry.path] = FileOutcome(entry.path, "skipped", NO_CANDIDATE, entry.note, digest, kind)
+        outcomes[entry.path] = FileOutcome(entry.path, "skipped", Reason.NO_CANDIDATE, entry.note, digest, kind)
 
     texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
     texts.update(raw_texts)
@@ -126,7 +124,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             faults[path] = describe(exc, stage="nesting guard")
             keep.discard(path)
             continue
-        if isinstance(deep, str):
+        if isinstance(deep, Reason):
             prior = outcomes[path]
             outcomes[path] = FileOutcome(path, "unparsed", deep, f"{_GUARDED[deep]}; read at token level",
                                          prior.digest, prior.kind)
@@ -155,7 +153,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         prior = outcomes[path]
         outcomes[path] = FileOutcome(path, fa.status, fa.reason, add_note(prior.detail, fa.detail), prior.digest, prior.kind)
         result.findings.extend(fa.findings)
-        if fa.reason in ("python 2", TOO_DEEP):
+        if fa.reason in (Reason.PYTHON_2, Reason.TOO_DEEPLY_NESTED):
             token_level.add(path)
         if fa.result is not None and fa.result.uses_library:
             result.uses_library = True
@@ -168,9 +166,9 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     for path, detail in faults.items():
         prior = outcomes[path]
         if path in clock.over:  # a limit reached, like a file too large: skipped with its reason
-            outcomes[path] = FileOutcome(path, "skipped", OVER_BUDGET, clock.over[path], prior.digest, prior.kind)
+            outcomes[path] = FileOutcome(path, "skipped", Reason.OVER_TIME_BUDGET, clock.over[path], prior.digest, prior.kind)
         else:
-            outcomes[path] = FileOutcome(path, "unparsed", ANALYSIS_ERROR, detail, prior.digest, prior.kind)
+            outcomes[path] = FileOutcome(path, "unparsed", Reason.ANALYSIS_ERROR, detail, prior.digest, prior.kind)
         result.findings = [f for f in result.findings if f.file != path]
     if not result.uses_library:
         # Files the prefilter passed over may still import the library without touching a change.
@@ -185,14 +183,14 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     return result
 
 
-def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
+def failed_project(project: Project, reason: Reason, detail: str) -> ProjectResult:
     """A project that could not be scanned as a whole: every file it lists is still accounted for,
     its sources as unparsed with `reason` (skipped and unreadable files keep their own reasons)."""
     result = ProjectResult(name=project.name, origin=project.origin)
     try:
         for entry in project.entries():
             if entry.error is not None:
-                outcome = FileOutcome(entry.path, "unparsed", entry.error.split(":", 1)[0], entry.error)
+                outcome = FileOutcome(entry.path, "unparsed", failure_reason(entry.error), entry.error)
             elif entry.skip is not None:
                 outcome = FileOutcome(entry.path, "skipped", entry.skip)
             else:
@@ -203,17 +201,17 @@ def failed_project(project: Project, reason: str, detail: str) -> ProjectResult:
     return result
 
 
-def _without_deep_cells(source: Source, parse_chars: int) -> Source | str:
+def _without_deep_cells(source: Source, parse_chars: int) -> Source | Reason:
     """`source` without the cells libcst must not parse (they are counted as skipped): nested too
     deeply (its native parser would crash the process) or, past the first `parse_chars` of code
     (Limits.parse_chars), too large (its tree would take gigabytes). For a module file that is
     either, the reason."""
-    refused: list[tuple[int | None, str]] = []
+    refused: list[tuple[int | None, Reason]] = []
     kept = []
     size = 0
     for cell in source.cells:
         cost = code_size(cell.code)
-        reason = TOO_DEEP if too_deep(cell.code) else TOO_LARGE if size + cost > parse_chars else None
+        reason = Reason.TOO_DEEPLY_NESTED if too_deep(cell.code) else Reason.TOO_LARGE_TO_PARSE if size + cost > parse_chars else None
         if reason is None:
             kept.append(cell)
             size += cost

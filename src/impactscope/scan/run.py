@@ -26,6 +26,7 @@ from impactscope.changes import ChangeList, load_change_list
 from impactscope.corpus.limits import DEFAULT_LIMITS, Limits
 from impactscope.corpus.roots import Entry, NotAProject, Project, archive_stem, check_roots, discover, survey
 from impactscope.errors import InputError
+from impactscope.reasons import Reason
 from impactscope.scan.cache import (
     ScanSettings,
     held,
@@ -38,7 +39,6 @@ from impactscope.scan.cache import (
 from impactscope.scan.executor import Batch, Scanned, run_inline, run_pool
 from impactscope.scan.job import ScanJob
 from impactscope.scan.library import library_digest, prepare_library
-from impactscope.resolve.faults import ANALYSIS_ERROR
 from impactscope.scan.progress import ScanProgress, Silent, Tally
 from impactscope.store import CachedProject, ResultStore, StoreError
 
@@ -65,11 +65,11 @@ class ScanSummary:
     removed: int = 0  # projects of the earlier scan that are no longer in the corpus
     # Files by reason of failure, over the whole results file: "analysis error" (an unexpected
     # exception met on that file) and "worker died" (its project's worker process died twice).
-    faults: dict[str, int] = dataclasses.field(default_factory=dict)
+    faults: dict[Reason, int] = dataclasses.field(default_factory=dict)
 
     @property
     def analysis_errors(self) -> int:
-        return self.faults.get(ANALYSIS_ERROR, 0)
+        return self.faults.get(Reason.ANALYSIS_ERROR, 0)
 
 
 class _Tallier:

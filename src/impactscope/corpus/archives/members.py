@@ -7,9 +7,9 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from impactscope.corpus.entries import Entry, EntryError, corrupt_entry, failed_entry, skipped_entry
-from impactscope.corpus.folders import LINK_OUTSIDE_CORPUS, LINK_OUTSIDE_PROJECT
 from impactscope.corpus.limits import LimitExceeded
 from impactscope.corpus.names import DRIVE, display, member_parts
+from impactscope.reasons import Reason
 
 @dataclass(frozen=True)
 class Member:
@@ -22,25 +22,25 @@ class Member:
     link: str | None = None  # a link's target
     link_from_top: bool = False  # the target is archive-relative (tar hard links)
     error: str | None = None
-    skip: str | None = None  # known not to be read before any reading (a special file)
+    skip: Reason | None = None  # known not to be read before any reading (a special file)
 
 
-def _link_reason(member: Member, parts: tuple[str, ...], prefix: tuple[str, ...]) -> str:
+def _link_reason(member: Member, parts: tuple[str, ...], prefix: tuple[str, ...]) -> Reason:
     """Where an archive link points: out of the archive, out of the project, or at a member."""
     target = (member.link or "").replace("\\", "/")
     if target.startswith("/") or DRIVE.match(target):
-        return LINK_OUTSIDE_CORPUS
+        return Reason.LINK_OUTSIDE_CORPUS
     resolved = [] if member.link_from_top else list(parts[:-1])
     for part in target.split("/"):
         if part == "..":
             if not resolved:
-                return LINK_OUTSIDE_CORPUS
+                return Reason.LINK_OUTSIDE_CORPUS
             resolved.pop()
         elif part not in ("", "."):
             resolved.append(part)
     if tuple(resolved[: len(prefix)]) != prefix:
-        return LINK_OUTSIDE_PROJECT
-    return "archive link"  # the target is listed, and read, as a member of its own
+        return Reason.LINK_OUTSIDE_PROJECT
+    return Reason.ARCHIVE_LINK  # the target is listed, and read, as a member of its own
 
 
 def member_entry(member: Member, prefix: tuple[str, ...]) -> Entry:
@@ -50,7 +50,7 @@ def member_entry(member: Member, prefix: tuple[str, ...]) -> Entry:
         raw = member.name.replace("\\", "/")
         head = "".join(f"{part}/" for part in prefix)
         path = raw[len(head) :] if head and raw.startswith(head) else raw
-        return skipped_entry(display(path or raw or "(unnamed member)"), member.size, member.stamp, "unsafe path")
+        return skipped_entry(display(path or raw or "(unnamed member)"), member.size, member.stamp, Reason.UNSAFE_PATH)
     # Outside the project's folder, or the folder's own name given to a file: keep it whole.
     if parts[: len(prefix)] != prefix or len(parts) == len(prefix):
         prefix = ()
@@ -68,7 +68,7 @@ def member_entry(member: Member, prefix: tuple[str, ...]) -> Entry:
 class End:
     """Why an archive's listing ended early: a bound reached (`limit`), or corruption."""
 
-    reason: str
+    reason: Reason
     detail: str
     limit: bool
 
@@ -76,7 +76,7 @@ class End:
     def of(cls, exc: BaseException) -> End:
         if isinstance(exc, LimitExceeded):
             return cls(exc.reason, exc.detail, True)
-        return cls("corrupt archive", str(exc) or type(exc).__name__, False)
+        return cls(Reason.CORRUPT_ARCHIVE, str(exc) or type(exc).__name__, False)
 
     def entry(self, archive_name: str) -> Entry:
         """The entry that stands for the rest of the archive, named after it."""

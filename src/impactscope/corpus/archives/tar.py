@@ -23,10 +23,10 @@ from typing import IO
 
 from impactscope.corpus.archives.members import End, Member, entry_error, member_entry
 from impactscope.corpus.classification import classify_path, read_limit
-from impactscope.corpus.entries import ARCHIVE_ERRORS, Entry, EntryError, refuse
-from impactscope.corpus.files import SPECIAL_FILE
+from impactscope.corpus.entries import ARCHIVE_ERRORS, Entry, EntryError, failure, refuse
 from impactscope.corpus.limits import CountingReader, LimitExceeded, Limits, RatioGuard, read_bounded
 from impactscope.corpus.names import member_head, top_folder
+from impactscope.reasons import Reason
 
 def read_tar(archive: tarfile.TarFile, info: tarfile.TarInfo, limits: Limits) -> bytes:
     try:
@@ -40,7 +40,7 @@ def read_tar(archive: tarfile.TarFile, info: tarfile.TarInfo, limits: Limits) ->
     except tarfile.StreamError:
         raise EntryError("tar member read after its stream moved on") from None
     except ARCHIVE_ERRORS as exc:
-        raise EntryError(f"corrupt archive: {exc}") from None
+        raise EntryError(failure(Reason.CORRUPT_ARCHIVE, str(exc))) from None
 
 
 def _tar_member(stream: TarStream, info: tarfile.TarInfo) -> Member | None:
@@ -48,7 +48,7 @@ def _tar_member(stream: TarStream, info: tarfile.TarInfo) -> Member | None:
     stamp = f"t{int(info.mtime)}:{info.size}"
     if info.isreg():
         return Member(info.name, info.size, stamp, functools.partial(stream.read, info))
-    refused = functools.partial(refuse, "archive link")
+    refused = functools.partial(refuse, Reason.ARCHIVE_LINK)
     if info.issym() or info.islnk():
         # Hard link targets are archive-relative names; symlink targets are relative to the link.
         return Member(
@@ -57,7 +57,7 @@ def _tar_member(stream: TarStream, info: tarfile.TarInfo) -> Member | None:
     if info.isdir():
         return None
     # A FIFO or device member holds no bytes; it is counted like one in a folder.
-    return Member(info.name, info.size, stamp, refused, skip=SPECIAL_FILE)
+    return Member(info.name, info.size, stamp, refused, skip=Reason.SPECIAL_FILE)
 
 
 def tar_entry(

@@ -16,9 +16,10 @@ from typing import IO
 
 from impactscope.corpus.archives.members import Member, entry_error, member_entry
 from impactscope.corpus.classification import classified, read_limit
-from impactscope.corpus.entries import ARCHIVE_ERRORS, Entry, EntryError, corrupt_entry, skipped_entry
+from impactscope.corpus.entries import ARCHIVE_ERRORS, Entry, EntryError, corrupt_entry, failure, skipped_entry
 from impactscope.corpus.limits import RATIO_FLOOR, LimitExceeded, Limits, read_bounded
 from impactscope.corpus.names import display, top_folder
+from impactscope.reasons import Reason
 
 # A zip archive: the path of a file, or the bytes of a nested archive.
 ZipSource = str | bytes
@@ -212,10 +213,10 @@ def read_zip(archive: zipfile.ZipFile, source: ZipSource, info: zipfile.ZipInfo,
     except LimitExceeded as exc:
         raise entry_error(exc) from None
     except ARCHIVE_ERRORS as exc:
-        raise EntryError(f"corrupt archive: {exc}") from None
+        raise EntryError(failure(Reason.CORRUPT_ARCHIVE, str(exc))) from None
 
 
-def _declared_ratio(info: zipfile.ZipInfo, limits: Limits) -> str | None:
+def _declared_ratio(info: zipfile.ZipInfo, limits: Limits) -> Reason | None:
     """The ratio reason when a member's own header already claims more than the ratio allows."""
     if info.file_size > RATIO_FLOOR and info.file_size > limits.ratio * max(info.compress_size, 1):
         return limits.reason("ratio")
@@ -239,7 +240,7 @@ def _zip_member(archive: zipfile.ZipFile, source: ZipSource, info: zipfile.ZipIn
     stamp = f"c{info.CRC}:{info.file_size}"
     read = functools.partial(read_zip, archive, source, info, limits)
     if info.flag_bits & 0x1:
-        return Member(info.filename, info.file_size, stamp, read, error="encrypted archive member")
+        return Member(info.filename, info.file_size, stamp, read, error=Reason.ENCRYPTED_MEMBER)
     if stat.S_ISLNK(info.external_attr >> 16):
         try:  # a zip symlink stores its target as the member's content
             raw = _read_member(archive, info, _LINK_TARGET_BYTES, "link target", limits.ratio)
@@ -261,7 +262,7 @@ def zip_listing(
     entries = []
     # Members whose own header claims more than the ratio allows, by entry (entries are alive
     # throughout, so their ids stay theirs).
-    claims: dict[int, tuple[str, str]] = {}
+    claims: dict[int, tuple[Reason, str]] = {}
     for info, member in _zip_members(archive, source, infos, limits):
         entry = member_entry(member, prefix)
         if (reason := _declared_ratio(info, limits)) is not None:
