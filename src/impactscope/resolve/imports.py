@@ -159,7 +159,7 @@ class Imports(Walk):
         # `try: import new / except ImportError: import old` (or the other way round): on the
         # release exactly one path runs, decided by whether the `try` imports break there.
         imported = _library_imports(s.body, self.q)
-        guarded = bool(imported) and any(_catches_import_error(h) for h in s.handlers)
+        guarded = bool(imported) and any(catches_import_error(h) for h in s.handlers)
         breaks = guarded and any(
             cc.change.kind in _IMPORT_BREAKING for name in imported for cc in self.q.match(name)
         )
@@ -172,7 +172,7 @@ class Imports(Walk):
         after_body = scope.names
         merged = after_body
         for handler in s.handlers:
-            fallback = guarded and _catches_import_error(handler)
+            fallback = guarded and catches_import_error(handler)
             scope.names = dict(before) if fallback and breaks else merge(before, after_body)
             if handler.type is not None:
                 self.expr(handler.type, scope)
@@ -210,17 +210,23 @@ def _library_imports(body: cst.BaseSuite, query: Query) -> tuple[str, ...]:
                     out.extend(f"{module}.{get_full_name_for_node(a.name)}" for a in small.names)
     return tuple(out)
 
-def _catches_import_error(handler: cst.ExceptHandler | cst.ExceptStarHandler) -> bool:
-    """`except ImportError`, `except ModuleNotFoundError`, a tuple holding one, or a bare `except`."""
+# The Library Reference, "Built-in Exceptions": ModuleNotFoundError is an ImportError, and both
+# are Exceptions, so each of these handlers catches a failed import.
+_CATCH_IMPORT_ERROR = frozenset(
+    f"{prefix}{name}" for prefix in ("", "builtins.")
+    for name in ("ImportError", "ModuleNotFoundError", "Exception", "BaseException")
+)
+
+
+def catches_import_error(handler: cst.ExceptHandler | cst.ExceptStarHandler) -> bool:
+    """`except ImportError` (or a class it derives from), a tuple holding one, or a bare `except`."""
     if handler.type is None:
         return True
     names = handler.type.elements if isinstance(handler.type, cst.Tuple) else [handler.type]
-    for el in names:
-        value = el.value if isinstance(el, cst.Element) else el
-        if get_full_name_for_node(value) in ("ImportError", "ModuleNotFoundError", "builtins.ImportError",
-                                             "Exception", "BaseException"):
-            return True
-    return False
+    return any(
+        get_full_name_for_node(el.value if isinstance(el, cst.Element) else el) in _CATCH_IMPORT_ERROR for el in names
+    )
+
 
 def _nonempty_fromlist(args: Sequence[cst.Arg]) -> bool:
     """Whether `__import__(name, globals, locals, fromlist, level)` is given a non-empty fromlist."""

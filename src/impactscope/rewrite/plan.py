@@ -18,6 +18,7 @@ from libcst.metadata import MetadataWrapper, ParentNodeProvider, PositionProvide
 
 from impactscope.changes import Change, Kind
 from impactscope.findings import Confidence, Finding
+from impactscope.resolve.imports import catches_import_error
 from impactscope.rewrite.transform import (
     AddImport,
     AddKeyword,
@@ -564,8 +565,8 @@ def _reads(plan: CellPlan, dotted: str, binds_top: Callable[[str, str], bool]) -
 
 def guarded_imports(modules: Iterable[cst.Module]) -> frozenset[str]:
     """Modules named by `import M` or `__import__("M")` / `import_module("M")` inside the body
-    of a `try` that handles ImportError (or ModuleNotFoundError, or any exception with a bare
-    `except:`): a fallback the issue keeps."""
+    of a `try` that catches ImportError (the resolver's rule: `catches_import_error`): a fallback
+    the issue keeps."""
     out: set[str] = set()
 
     class Inner(cst.CSTVisitor):
@@ -582,18 +583,9 @@ def guarded_imports(modules: Iterable[cst.Module]) -> frozenset[str]:
 
     class Tries(cst.CSTVisitor):
         def visit_Try(self, node: cst.Try) -> None:
-            if any(_handles_import_error(h) for h in node.handlers):
+            if any(catches_import_error(h) for h in node.handlers):
                 node.body.visit(Inner())
 
     for module in modules:
         module.visit(Tries())
     return frozenset(out)
-
-
-def _handles_import_error(handler: cst.ExceptHandler) -> bool:
-    if handler.type is None:
-        return True
-    kinds = handler.type.elements if isinstance(handler.type, cst.Tuple) else [handler.type]
-    names = {(get_full_name_for_node(k.value if isinstance(k, cst.Element) else k) or "").rpartition(".")[2]
-             for k in kinds}
-    return bool(names & {"ImportError", "ModuleNotFoundError"})
