@@ -6,6 +6,8 @@ from __future__ import annotations
 import ast
 from collections.abc import Iterable, Sequence
 
+from impactscope import dunder_all
+
 from .model import Member, Parameter, Problem, SELF, Surface, linearize
 from .overloads import AnnotationReader, Overload, OverloadParameter
 from .parsing import ParsedModule
@@ -99,23 +101,15 @@ class Linker:
             return None
         parts = reader.all_parts
 
+        def other(text: str) -> tuple[str, ...] | None:
+            target = self.resolve_expr(module, text)[0]
+            sub = self.static_all(target) if target is not None else None
+            if sub is None and target in self.readers and self.readers[target].all_runtime:
+                sub = self.star_names(target)  # its __all__ grows at run time: its public names
+            return sub
+
         def compute() -> tuple[str, ...] | None:
-            names: list[str] = []
-            for part in parts:
-                if part[0] == "lit":
-                    names.extend(part[1])
-                elif part[0] == "remove":
-                    if part[1] in names:
-                        names.remove(part[1])
-                else:
-                    target = self.resolve_expr(module, part[1])[0]
-                    sub = self.static_all(target) if target is not None else None
-                    if sub is None and target in self.readers and self.readers[target].all_runtime:
-                        sub = self.star_names(target)  # its __all__ grows at run time: its public names
-                    if sub is None:
-                        return None
-                    names.extend(sub)
-            return tuple(names)
+            return dunder_all.names(parts, other)
 
         return self._guarded(("all", module), compute, None)
 
