@@ -134,12 +134,11 @@ def _accounting(report: Report) -> str:
     reasons = [(r.status.value, r.reason, r.files) for r in report.file_reasons]
     parts.append(_table(["status", "reason", "files"], [[_e(s), _e(r), str(n)] for s, r, n in reasons], {2}))
     parts.append(f"<figure><figcaption>Files by status and reason</figcaption>{files_chart(report.totals, reasons)}</figure>")
-    legacy = [c for c in report.changes if c.legacy_sites]
+    legacy = report.token_level()
     if legacy:
         parts.append("<h3>Python 2 files (read at token level; every site counts as possible)</h3>")
         parts.append(_table(["change", "projects", "sites"],
-                            [[_e(c.id), str(len({f.project for f in report.findings if f.change == c.id and f.token_level})),
-                              str(c.legacy_sites)] for c in legacy], {1, 2}))
+                            [[_e(c.id), str(projects), str(c.legacy_sites)] for c, projects in legacy], {1, 2}))
     if report.failed_files:
         parts.append("<h3>Files the scan failed on (please report these)</h3>")
         parts.append(_table(["project", "file", "reason", "detail"],

@@ -364,6 +364,15 @@ class Report:
         """The confidence level of the intervals (one for the whole report); None without changes."""
         return self.changes[0].share.confidence if self.changes else None
 
+    def token_level(self) -> tuple[tuple[ChangeReport, int], ...]:
+        """The changes with sites read at token level (Python 2 files and the like), each with
+        how many projects hold them; its sites are `ChangeReport.legacy_sites`."""
+        projects: dict[str, set[str]] = {}
+        for f in self.findings:
+            if f.token_level:
+                projects.setdefault(f.change, set()).add(f.project)
+        return tuple((c, len(projects.get(c.id, ()))) for c in self.changes if c.legacy_sites)
+
     def to_json(self) -> Json:
         return {
             "library": self.library,

@@ -32,15 +32,6 @@ def _exposed(change: ChangeReport) -> str:
     return f"{e.exposed} / {e.shielded} / {e.unconstrained}"
 
 
-def _legacy_rows(report: Report) -> list[tuple[str, int, int]]:
-    rows = []
-    for c in report.changes:
-        sites = [f for f in report.findings if f.change == c.id and f.token_level]
-        if sites:
-            rows.append((c.id, len({f.project for f in sites}), len(sites)))
-    return rows
-
-
 def _faults(report: Report) -> str:
     """How many files the scan failed on (bugs to report), as part of the unparsed count."""
     t = report.totals
@@ -84,7 +75,7 @@ def to_markdown(report: Report) -> str:
             cells = [f"{e.estimate:.1%} ({e.low:.1%}–{e.high:.1%})" for e in (w.levels.resolved, w.levels.possible)] \
                 if w is not None else ["n/a", "n/a"]
             lines.append(f"| {c.id} | {cells[0]} | {cells[1]} |")
-    legacy = _legacy_rows(report)
+    legacy = [(c.id, projects, c.legacy_sites) for c, projects in report.token_level()]
     if legacy:
         lines += ["", "## Python 2 files (token-level reading, all at possible)", "",
                   "| change | projects | sites |", "|---|---|---|"]
