@@ -73,6 +73,8 @@ class ResultStore:
     def __init__(self, path: Path, connection: sqlite3.Connection) -> None:
         self.path = path
         self._db = connection
+        # The stored change list parsed once per text (readers ask for it several times).
+        self._changes: tuple[tuple[str, str], ChangeList] | None = None
 
     # -------------------------------------------------------------- opening
     @classmethod
@@ -290,7 +292,10 @@ class ResultStore:
 
     def change_list(self) -> ChangeList:
         meta = self.meta()
-        return parse_change_list(meta["changes_toml"].encode(), Path(meta.get("changes_path") or "changes.toml"))
+        stored = (meta["changes_toml"], meta.get("changes_path") or "changes.toml")
+        if self._changes is None or self._changes[0] != stored:
+            self._changes = stored, parse_change_list(stored[0].encode(), Path(stored[1]))
+        return self._changes[1]
 
     def projects(self) -> list[ProjectRow]:
         rows = self._db.execute("SELECT name, origin, uses_library FROM projects ORDER BY name")

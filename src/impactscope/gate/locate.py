@@ -65,17 +65,15 @@ class LibraryLines:
 
 
 def library_lines(source: Path, import_name: str) -> LibraryLines:
-    from impactscope.surface.build import discover_modules
     from impactscope.surface.harvest import harvest
 
-    _, modules = discover_modules(source, import_name)
     found = harvest(source, import_name)
     warnings: dict[str, list[HarvestedChange]] = {}
     for h in found.changes:
         warnings.setdefault(found.surface.canonical(h.member), []).append(h)
     return LibraryLines(
         found.surface,
-        {m.name: m.path.resolve() for m in modules if m.path is not None},
+        {m.name: m.path.resolve() for m in found.files if m.path is not None},
         {k: tuple(v) for k, v in warnings.items()},
     )
 

@@ -46,6 +46,7 @@ from packaging.version import InvalidVersion, Version
 
 from .build import ParsedModule, build_for_drafts, discover_modules, dotted_name, iter_parsed, sources_first
 from .compare import Announcement, DraftChange, render_draft as _render
+from .discovery import ModuleFile
 from .model import Surface
 from .scope import Scope
 
@@ -118,6 +119,7 @@ class Harvest:
     changes: tuple[HarvestedChange, ...]
     unread: tuple[Unread, ...]
     surface: Surface
+    files: tuple[ModuleFile, ...] = ()  # the library's modules it read them from
 
 
 def render_draft(changes: Iterable[HarvestedChange], library: str, release: str | None = None,
@@ -1231,7 +1233,7 @@ def harvest(source: Path | str, library: str | None = None, *, release: str | No
     if scanned is not None and scanned is not surface:
         changes = [c if scanned.member(c.member) is not None else
                    replace(c, dynamic=True, note=f"{c.note} (the library's stubs leave {c.member} out)") for c in changes]
-    return Harvest(tuple(changes), tuple(unread), surface)
+    return Harvest(tuple(changes), tuple(unread), surface, files)
 
 
 def harvest_deprecations(source: Path | str, library: str | None = None, *, release: str | None = None,
