@@ -41,12 +41,12 @@ class Reason(enum.StrEnum):
     ARCHIVE_LINK = "archive link"  # an archive link to a member, which is read as itself
     UNSAFE_PATH = "unsafe path"  # an archive member named absolute, by a drive, or with `..`
 
-    # Skipped: read, but the prefilter shows no changed member can be used in it (scan.prefilter).
-    NO_CANDIDATE = "no candidate"
+    # Skipped: read, but no finding can be in it (scan.prefilter).
+    NO_CANDIDATE = "no candidate"  # names no changed member and imports no file that does
 
     # Unparsed: the bytes could not be had (corpus.entries, corpus.folders, corpus.archives).
-    UNREADABLE = "unreadable"  # a read that failed without an OS error (a tar stream moved on)
-    CANNOT_READ = "cannot read"  # an OS error opening or reading the file
+    UNREADABLE = "unreadable"  # listed, but its bytes could not be read (I/O error, damaged member)
+    CANNOT_READ = "cannot read"  # an OS error while its project was listed (permission denied)
     UNREADABLE_DIRECTORY = "unreadable directory"  # a folder that could not be listed
     BROKEN_LINK = "broken link"  # a link whose target is missing, or a loop
     CORRUPT_ARCHIVE = "corrupt archive"  # an archive, or the rest of one, that fails to read
