@@ -595,3 +595,43 @@ def test_unpacking_a_function_that_returns_a_tuple_on_one_path(query: Query) -> 
     # Reference, assignment statements); any other use sees the other path's value.
     for line in (8, 9, 11):
         assert at(hits, line, "T-STACK") == "resolved", line
+
+
+# ------------------------------------------------------- pass-through helpers, by property
+_VALUES = ("hf.read_table(p)", "hf.Table()", "hf.Column()", "hf.read_all(ps)[0]", "unknown(p)", "[1, 2]", "'text'")
+_HELPERS = {
+    # a helper's text -> how a call of it wraps a value
+    "def keep(v):\n    return v\n": "keep({})",
+    "def keep(v):\n    w = v\n    return w\n": "keep({})",
+    "def keep(v, n=0):\n    if n:\n        return v, n\n    return v\n": "keep({})",
+    "def keep(v):\n    return v\ndef twice(v):\n    return keep(keep(v))\n": "twice({})",
+}
+_CHANGES = {"stack_rows": ("T-STACK",), "merge_all": ("T-MERGE", "C-MERGE"), "iter_pairs": ("C-PAIRS",)}
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    values=st.lists(st.sampled_from(_VALUES), min_size=1, max_size=4),
+    helper=st.sampled_from(sorted(_HELPERS)),
+    name=st.sampled_from(sorted(_CHANGES)),
+)
+def test_a_pass_through_helper_changes_no_finding(query: Query, values: list[str], helper: str, name: str) -> None:
+    """A function that returns what it is given (the Language Reference, "Calls" and "The return
+    statement") proves nothing more or less about the value: each call's `.member()` is
+    `resolved` through the helper exactly when it is so directly, whatever the other calls of the
+    helper pass (an unknown value stays unknown beside calls that pass the library). A value the
+    direct use proves not to be the library's may be left a guess through the helper."""
+    lines = ["import heronframe as hf", *helper.rstrip("\n").split("\n")]
+    pairs = []
+    for value in values:
+        lines.append(f"{value}.{name}()")
+        direct = len(lines)
+        lines.append(_HELPERS[helper].format(value) + f".{name}()")
+        pairs.append((value, direct, len(lines)))
+    hits = found(query, "\n".join(lines) + "\n")
+    for value, direct, through in pairs:
+        for change in _CHANGES[name]:
+            before, after = at(hits, direct, change), at(hits, through, change)
+            assert (before == "resolved") == (after == "resolved"), (value, change, lines)
+            if before is not None:
+                assert after == before, (value, change, lines)

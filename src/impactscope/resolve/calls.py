@@ -16,6 +16,7 @@ from impactscope.resolve.values import (
     UNKNOWN,
     Foreign,
     Inst,
+    NOT_LIBRARY,
     Items,
     Lib,
     OneOf,
@@ -28,8 +29,6 @@ from impactscope.resolve.values import (
 )
 from impactscope.resolve.walk import Walk
 
-# Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
-_NOT_LIBRARY = "?"
 # Built-in callables whose result is a built-in object whatever the arguments (the Python Library
 # Reference, "Built-in Functions" and "Built-in Types"). Not `abs`, `round`, `sum`, `min`, `max`,
 # `next`, `getattr`, `iter`, `copy`: they hand back what an argument's own methods return.
@@ -102,7 +101,7 @@ class Calls(Walk):
         if not classes:
             return UNKNOWN
         if len(classes) == 1 and None in outcomes:
-            return OneOf((classes[0], _NOT_LIBRARY))
+            return OneOf((classes[0], NOT_LIBRARY))
         return instance_of(classes)
 
     def operator(self, dunders: tuple[str, str], left: Value, right: Value,
@@ -146,18 +145,18 @@ class Calls(Walk):
             if len(outcomes) == 1:
                 # One library class among outcomes that do not agree: the others are not the
                 # library's (`read_excel` gives a DataFrame, or a dict of them).
-                return OneOf((outcomes[0], _NOT_LIBRARY))
+                return OneOf((outcomes[0], NOT_LIBRARY))
             return instance_of(outcomes)
         if isinstance(func, OneOf) and func.member:
             outcomes: list[str] = []
             for cls in func.classes:
                 dotted = f"{cls}.{func.member}"
-                if cls != _NOT_LIBRARY and self.q.model.knows_kinds and self.q.model.kind(dotted) is None:
+                if cls != NOT_LIBRARY and self.q.model.knows_kinds and self.q.model.kind(dotted) is None:
                     continue  # that class has no such member: the code runs only on the others
                 # An alternative that gives no library class keeps the outcome open.
-                outcomes.extend(self.q.model.returns_all(dotted) or (_NOT_LIBRARY,))
+                outcomes.extend(self.q.model.returns_all(dotted) or (NOT_LIBRARY,))
             found = tuple(dict.fromkeys(outcomes))
-            return UNKNOWN if found == (_NOT_LIBRARY,) else instance_of(found)
+            return UNKNOWN if found == (NOT_LIBRARY,) else instance_of(found)
         if isinstance(func, UserClass):
             return UserInst(func)
         if isinstance(func, UserFunc):

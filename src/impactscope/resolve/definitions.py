@@ -166,7 +166,7 @@ class Definitions(Walk):
         if func.state == "running" or self._quiet >= _INFERENCE_DEPTH:
             return func.returns if func.returns is not None else UNKNOWN
         if not own:
-            return self._run(func, record=False)
+            return func.returns if func.returns is not None else self._run(func, record=False)
         key = tuple(sorted(own.items(), key=lambda item: item[0]))
         if key not in func.by_arguments:
             func.by_arguments[key] = UNKNOWN  # a recursive call meanwhile learns nothing
@@ -245,13 +245,13 @@ class Definitions(Walk):
 
 def _own_arguments(func: UserFunc, given: dict[str, Value]) -> dict[str, Value]:
     """The values a call passes that differ from what its parameters received when the body was
-    read in general: a library value, or a value known not to be the library's where others
-    pass one. An unknown argument says nothing, so the general reading stands for it."""
+    read in general: a library value, or, where others pass one, a value known not to be the
+    library's or not known at all."""
     own: dict[str, Value] = {}
     known = func.read_with if func.returns is not None else func.passed
     for name, value in given.items():
         general = known.get(name, UNKNOWN)
-        if value is UNKNOWN or value == general or name in func.declared:
+        if value == general or name in func.declared:
             continue
         if is_library(value) or is_library(general):
             own[name] = value

@@ -30,6 +30,10 @@ class Inst:
     cls: str
 
 
+# Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
+NOT_LIBRARY = "?"
+
+
 @dataclass(frozen=True)
 class OneOf:
     """An instance of one of several library classes (a call whose overloads or union return
@@ -177,11 +181,11 @@ def returned(values: "list[Value]") -> "Value":
     tuples of one length returned beside other values stay a tuple for unpacking (with the
     other values as its `otherwise`)."""
     tuples = [v for v in values if isinstance(v, Tup)]
+    rest = [plain(v) for v in values if not isinstance(v, Tup) or v.otherwise is not None]
     others: Value = UNKNOWN
-    for v in values:
-        if not isinstance(v, Tup) or v.otherwise is not None:
-            others = join(others, plain(v))
-    if not tuples or len({len(t.items) for t in tuples}) != 1 or others is UNKNOWN:
+    for v in rest:
+        others = join(others, v)
+    if not tuples or len({len(t.items) for t in tuples}) != 1 or not rest:
         result: Value = UNKNOWN
         for v in values:
             result = join(result, plain(v))
