@@ -323,6 +323,9 @@ _RECEIVERS = {
     "x[0]": False,
     "hf.read_table(p).some_column": False,
     "(x or y)": False,
+    # One path gives a Table, the other a value nobody can tell: names a Table lacks stay open.
+    "(hf.read_table(p) if x else y)": False,
+    "(hf.Table() or y)": False,
 }
 
 

@@ -28,6 +28,7 @@ from impactscope.resolve.values import (
     UserInst,
     Value,
     item_of,
+    either,
     join,
     plain,
 )
@@ -103,9 +104,9 @@ class Expressions(Walk):
             return self.call_dunder(operand.cls, dunder) if isinstance(operand, Inst) else UNKNOWN
         if isinstance(node, cst.IfExp):
             self.expr(node.test, scope)
-            return join(self.expr(node.body, scope), self.expr(node.orelse, scope))
+            return either(self.expr(node.body, scope), self.expr(node.orelse, scope))
         if isinstance(node, cst.BooleanOperation):
-            return join(self.expr(node.left, scope), self.expr(node.right, scope))
+            return either(self.expr(node.left, scope), self.expr(node.right, scope))
         if isinstance(node, cst.NamedExpr):
             value = self.expr(node.value, scope)
             target_scope = scope
@@ -180,10 +181,19 @@ class Expressions(Walk):
         if attr in self.q.names and isinstance(receiver, OneOf) and not receiver.member:
             shown = "|".join(receiver.classes)
             self._ref(node.attr, context, attr=attr, receiver=f"<{shown}>", among=receiver.classes, call=call)
-        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)):
+        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)
+                                       or self._open_beyond(receiver, attr, value)):
             # The receiver is not proven to be anything in particular: the name alone decides.
             self._ref(node.attr, context, attr=attr, receiver="?", call=call)
         return value
+
+    def _open_beyond(self, receiver: Value, attr: str, value: Value) -> bool:
+        """A name the class of an open instance does not have: the unknown alternative may."""
+        if not isinstance(receiver, Inst) or not receiver.open:
+            return False
+        if self.q.model.knows_kinds:
+            return self.q.model.kind(f"{receiver.cls}.{attr}") is None
+        return not (isinstance(value, Lib) and self.q.match(value.name))
 
     def _unlinked(self, value: Value) -> bool:
         """Without the library's source a path it re-exports under another name

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Literal
 
-from impactscope.resolve.values import UNKNOWN, Value, join
+from impactscope.resolve.values import Value, either
 
 if TYPE_CHECKING:
     from impactscope.resolve.values import UserClass, UserFunc
@@ -52,5 +52,5 @@ def merge(a: dict[str, Value], b: dict[str, Value]) -> dict[str, Value]:
     """The bindings after two paths that bound `a` and `b`."""
     out = dict(a)
     for key, value in b.items():
-        out[key] = join(a.get(key, UNKNOWN), value) if key in a else value
+        out[key] = either(a[key], value) if key in a else value
     return out

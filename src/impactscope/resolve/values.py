@@ -25,9 +25,12 @@ class Lib:
 
 @dataclass(frozen=True)
 class Inst:
-    """An instance of a library class."""
+    """An instance of a library class. `open`: or something not known (one path of a branch
+    gives the instance, another a value nobody can tell): the class's members are found as on
+    the instance, and any other name as on an unknown receiver."""
 
     cls: str
+    open: bool = False
 
 
 # Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
@@ -182,13 +185,15 @@ def returned(values: "list[Value]") -> "Value":
     other values as its `otherwise`)."""
     tuples = [v for v in values if isinstance(v, Tup)]
     rest = [plain(v) for v in values if not isinstance(v, Tup) or v.otherwise is not None]
-    others: Value = UNKNOWN
-    for v in rest:
-        others = join(others, v)
+    others: Value = rest[0] if rest else UNKNOWN
+    for v in rest[1:]:
+        others = either(others, v)
     if not tuples or len({len(t.items) for t in tuples}) != 1 or not rest:
-        result: Value = UNKNOWN
-        for v in values:
-            result = join(result, plain(v))
+        if not values:
+            return UNKNOWN
+        result: Value = plain(values[0])
+        for v in values[1:]:
+            result = either(result, plain(v))
         return result
     items = tuple(UNKNOWN for _ in tuples[0].items)
     for t in tuples:
@@ -236,12 +241,28 @@ def join(a: Value, b: Value) -> Value:
         # Two library instances of different classes: one of them, not the first one seen.
         classes = tuple(dict.fromkeys(_classes(a) + _classes(b)))
         if not _member(a) and not _member(b):
-            return Inst(classes[0]) if len(classes) == 1 else OneOf(classes)
+            if len(classes) == 1:
+                return Inst(classes[0], open=_open(a) or _open(b))
+            return OneOf(classes)
     if is_library(a):
         return a
     if is_library(b):
         return b
     return a
+
+
+def either(a: Value, b: Value) -> Value:
+    """What one of two paths gives (branches, `x if c else y`, `x or y`, return statements): as
+    `join`, but an instance beside a value nobody can tell stays open to it (`Inst.open`)."""
+    if isinstance(a, Inst) and plain(b) is UNKNOWN:
+        return Inst(a.cls, open=True)
+    if isinstance(b, Inst) and plain(a) is UNKNOWN:
+        return Inst(b.cls, open=True)
+    return join(a, b)
+
+
+def _open(value: "Inst | OneOf") -> bool:
+    return isinstance(value, Inst) and value.open
 
 
 def _classes(value: "Inst | OneOf") -> tuple[str, ...]:
