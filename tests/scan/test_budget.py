@@ -138,3 +138,9 @@ def test_a_scan_records_a_slow_file_and_goes_on(tmp_path: Path, monkeypatch: pyt
     assert [f for f in snapshot(out)["findings"] if (f.project, f.file) != ("proj000", SLOW)] == [  # type: ignore[union-attr]
         f for f in clean["findings"] if (f.project, f.file) != ("proj000", SLOW)  # type: ignore[union-attr]
     ]
+    # The stopped module is read at token level: each line the clean scan found a use on is
+    # still found, at possible, so "at most" stays a bound.
+    assert slow.detail.endswith("; read at token level")
+    kept = {(f.line, f.change) for f in snapshot(out)["findings"] if (f.project, f.file) == ("proj000", SLOW)}  # type: ignore[union-attr]
+    assert {f.confidence.label for f in snapshot(out)["findings"] if (f.project, f.file) == ("proj000", SLOW)} <= {"possible"}  # type: ignore[union-attr]
+    assert {(f.line, f.change) for f in clean["findings"] if (f.project, f.file) == ("proj000", SLOW)} <= kept  # type: ignore[union-attr]

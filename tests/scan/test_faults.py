@@ -108,8 +108,13 @@ def test_crash_in_an_imported_module_costs_only_that_module(tmp_path, monkeypatc
     run_scan(changes, [root.parent], out, jobs=1)
     files = _by_file(out)
     assert files[("app", "crash.py")][:2] == ("unparsed", Reason.ANALYSIS_ERROR)
+    assert files[("app", "crash.py")][2].endswith("; read at token level")
     assert files[("app", "main.py")][:2] == ("parsed", None)
-    assert {(f.file, f.line, f.change) for f in snapshot(out)["findings"]} == {("main.py", 3, "HF-2"), ("main.py", 5, "HF-1")}
+    found = snapshot(out)["findings"]
+    assert {(f.file, f.line, f.change) for f in found if f.file == "main.py"} == {("main.py", 3, "HF-2"), ("main.py", 5, "HF-1")}
+    # The broken module's own uses still count, as a token-level reading finds them: at possible.
+    assert {(f.line, f.change, f.confidence.label, f.token_level) for f in found if f.file == "crash.py"} == {
+        (2, "HF-2", "possible", True), (3, "HF-1", "possible", True)}
 
 
 def test_positions_crash_costs_only_that_file(tmp_path, monkeypatch):

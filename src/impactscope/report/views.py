@@ -78,7 +78,8 @@ def warnings(report: Report) -> list[str]:
     t = report.totals
     if t.files_analysis_error:
         out.append(f"impactscope failed on {plural(t.files_analysis_error, 'file')} (analysis error, a bug to "
-                   "report): the uses in them are not counted; the failed files are listed below and in --format json")
+                   "report): their uses count only at possible, as a token-level reading finds them in modules (not in "
+                   "notebooks); the failed files are listed below and in --format json")
     if t.files_worker_died:
         out.append(f"{plural(t.files_worker_died, 'file')} of projects whose worker process died twice were not "
                    "read: the uses in them are not counted")

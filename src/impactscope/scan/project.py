@@ -151,7 +151,13 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         if path in faults:
             continue
         prior = outcomes[path]
-        outcomes[path] = FileOutcome(path, fa.status, fa.reason, add_note(prior.detail, fa.detail), prior.digest, prior.kind)
+        detail = add_note(prior.detail, fa.detail)
+        if fa.reason is Reason.ANALYSIS_ERROR and prior.kind == "module":
+            # The resolver failed on it: its uses still count, at `possible`, as a token-level
+            # reading finds them, so "at most" stays a bound.
+            detail = f"{detail}; read at token level"
+            token_level.add(path)
+        outcomes[path] = FileOutcome(path, fa.status, fa.reason, detail, prior.digest, prior.kind)
         result.findings.extend(fa.findings)
         if fa.reason in (Reason.PYTHON_2, Reason.TOO_DEEPLY_NESTED):
             token_level.add(path)
@@ -165,11 +171,18 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             faults[path] = describe(exc, stage="token-level reading")
     for path, detail in faults.items():
         prior = outcomes[path]
-        if path in clock.over:  # a limit reached, like a file too large: skipped with its reason
-            outcomes[path] = FileOutcome(path, "skipped", Reason.OVER_TIME_BUDGET, clock.over[path], prior.digest, prior.kind)
-        else:
-            outcomes[path] = FileOutcome(path, "unparsed", Reason.ANALYSIS_ERROR, detail, prior.digest, prior.kind)
         result.findings = [f for f in result.findings if f.file != path]
+        # Its uses still count, at `possible`, as a token-level reading finds them: "at most"
+        # stays a bound even for a file the analysis failed on or ran out of time for.
+        kept = _fallback_findings(project.name, path, texts, prior, query)
+        if kept is not None:
+            result.findings.extend(kept)
+        note = "; read at token level" if kept is not None else ""
+        if path in clock.over:  # a limit reached, like a file too large: skipped with its reason
+            outcomes[path] = FileOutcome(path, "skipped", Reason.OVER_TIME_BUDGET, clock.over[path] + note,
+                                         prior.digest, prior.kind)
+        else:
+            outcomes[path] = FileOutcome(path, "unparsed", Reason.ANALYSIS_ERROR, detail + note, prior.digest, prior.kind)
     if not result.uses_library:
         # Files the prefilter passed over may still import the library without touching a change.
         # So may files that did not parse (Python 2), read by the same import-line test.
@@ -233,6 +246,18 @@ def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool
         return any(name in text and word.search(text) for text in others)
 
     return spelled
+
+
+def _fallback_findings(project: str, path: str, texts: dict[str, str], prior: FileOutcome,
+                       query: Query) -> list[Finding] | None:
+    """The token-level findings of a module whose analysis failed; None where there is no such
+    reading (a notebook's text is its JSON) or it failed too."""
+    if prior.kind != "module" or path not in texts:
+        return None
+    try:
+        return _legacy_findings(project, path, texts[path], query)
+    except Exception:  # noqa: BLE001 - best effort: the file keeps its reason either way
+        return None
 
 
 def _legacy_findings(project: str, path: str, text: str, query: Query) -> list[Finding]:
