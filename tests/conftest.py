@@ -97,6 +97,12 @@ def _made_once(run: RunFolder, name: str, make: Callable[[Path], None]) -> Path:
 
 
 @pytest.fixture(scope="session")
+def made_once(run_folder: RunFolder) -> Callable[[str, Callable[[Path], None]], Path]:
+    """`made_once(name, make)`: a folder of this run that `make` fills once for every worker."""
+    return lambda name, make: _made_once(run_folder, name, make)
+
+
+@pytest.fixture(scope="session")
 def demo_corpus(run_folder: RunFolder) -> DemoCorpus:
     def generate(folder: Path) -> None:
         generate_corpus(folder / "corpus", projects=DEMO_PROJECTS, seed=DEMO_SEED)

@@ -3,13 +3,16 @@ text it recorded, and every other line of every file stays byte for byte as it w
 
 from __future__ import annotations
 
+import pickle
 from collections import defaultdict
+from collections.abc import Callable
 from pathlib import Path
 
 import pytest
 
 from impactscope.changes import load_change_list
 from impactscope.corpus import discover
+from impactscope.demo import load_truth, truth_path
 from impactscope.demo.generate import GroundTruth, generate_corpus
 from impactscope.rewrite.lines import Lines
 from impactscope.rewrite.notebook import cell_sources
@@ -20,13 +23,17 @@ from tests.rewrite.helpers import rewrite_changes
 
 
 @pytest.fixture(scope="module")
-def rewritten(tmp_path_factory: pytest.TempPathFactory) -> tuple[GroundTruth, dict[str, ProjectRewrite]]:
-    base = tmp_path_factory.mktemp("groundtruth")
-    truth = generate_corpus(base / "corpus", projects=80, seed=7)
-    changes = load_change_list(rewrite_changes(base))
-    query = prepare_library(changes, base / "lib").query
-    done = {p.name: rewrite_project(p, query) for p in discover([base / "corpus"], library="heronframe")}
-    return truth, done
+def rewritten(made_once: Callable[[str, Callable[[Path], None]], Path]) -> tuple[GroundTruth, dict[str, ProjectRewrite]]:
+    def make(base: Path) -> None:
+        generate_corpus(base / "corpus", projects=80, seed=7)
+        changes = load_change_list(rewrite_changes(base))
+        query = prepare_library(changes, base / "lib").query
+        done = {p.name: rewrite_project(p, query) for p in discover([base / "corpus"], library="heronframe")}
+        (base / "rewritten.pickle").write_bytes(pickle.dumps(done))
+
+    # Made once for every xdist worker that runs a test of this module (a few seconds each).
+    base = made_once("rewrite-groundtruth", make)
+    return load_truth(truth_path(base / "corpus")), pickle.loads((base / "rewritten.pickle").read_bytes())
 
 
 def _expected(old: Lines, replaced: dict[int, str]) -> str:
