@@ -122,15 +122,17 @@ def classified(
 ) -> Iterator[Entry]:
     """Entries in path order, each readable one given its skip reason: the classification's,
     else `late`'s (a reason and a note known without reading, such as a declared ratio)."""
-    ordered = sorted(entries, key=lambda entry: entry.path)
-    ordered = list(unique_paths(ordered, reserved={entry.path for entry in ordered}))
+    listed = sorted(entries, key=lambda entry: entry.path)
+    # `late` is asked of each entry as listed: a renamed duplicate below is another object.
+    lateness = [late(entry) if late is not None else None for entry in listed]
+    ordered = list(unique_paths(listed, reserved={entry.path for entry in listed}))
     readable = [entry for entry in ordered if entry.skip is None and entry.error is None]
     layout = Layout.of((entry.path for entry in readable), library)
-    for entry in ordered:
+    for entry, found in zip(ordered, lateness):
         if entry.skip is None and entry.error is None:
             reason = classify_path(entry.path, entry.size, library, layout, limits)
             if reason is not None:
                 entry = dataclasses.replace(entry, skip=reason)
-            elif late is not None and (found := late(entry)) is not None:
+            elif found is not None:
                 entry = dataclasses.replace(entry, skip=found[0], note=add_note(entry.note, found[1]))
         yield entry

@@ -155,3 +155,24 @@ def test_a_zip_central_directory_is_never_parsed_past_the_bound(tmp_path: Path, 
     long = zip_members(tmp_path / "long.zip", [(f"{'d' * 2000}/f{i}.py", b"") for i in range(20)])
     (project,) = discover([long], single=True, library=LIB, limits=Limits(members=15))
     assert len(list(project.entries())) < 15
+
+
+
+def test_a_renamed_duplicate_keeps_its_declared_ratio(tmp_path: Path) -> None:
+    """Two members with one path: the second is listed as `n~2.ipynb`, and what its own header
+    declares (a ratio no real member has) still refuses it before it is read."""
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as archive:
+        archive.writestr("n.ipynb", "{}")
+        with pytest.warns(UserWarning, match="Duplicate name"):
+            archive.writestr("n.ipynb", bytes(5_000_000))
+    data = bytearray(buffer.getvalue())
+    # The second member's uncompressed size fields (APPNOTE.TXT 4.3.7, 4.3.12) say 50,000,000.
+    local = data.find(b"PK\x03\x04", data.find(b"PK\x03\x04") + 1)
+    central = data.find(b"PK\x01\x02", data.find(b"PK\x01\x02") + 1)
+    struct.pack_into("<I", data, local + 22, 50_000_000)
+    struct.pack_into("<I", data, central + 24, 50_000_000)
+    (tmp_path / "d.zip").write_bytes(bytes(data))
+    entries = {e.path: e for e in next(discover([tmp_path / "d.zip"], single=True, library=LIB)).entries()}
+    assert entries["n.ipynb"].skip is None
+    assert entries["n~2.ipynb"].skip == "compression ratio" and "50000000" in entries["n~2.ipynb"].note
