@@ -91,8 +91,9 @@ class ProjectResolver:
         return result.exports.get(name, UNKNOWN)
 
     def star_exports(self, module: str) -> dict[str, Value]:
-        """What `from module import *` binds: `__all__` when it is a literal, else public names
-        (the Python Language Reference, the import statement)."""
+        """What `from module import *` binds: `__all__` when it can be read statically
+        (dunder_all), else its public names (the Python Language Reference, the import
+        statement): where `__all__` cannot be known, the public names are the best guess."""
         result = self._module_result(module)
         if result is None:
             return {}

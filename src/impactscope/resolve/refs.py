@@ -67,5 +67,5 @@ class ModuleResult:
     refs: list[Ref] = field(default_factory=list)
     uses_library: bool = False
     exports: dict[str, Value] = field(default_factory=dict)
-    all_names: tuple[str, ...] | None = None  # a literal `__all__`, which decides what `*` binds
+    all_names: tuple[str, ...] | None = None  # `__all__` as read statically (dunder_all), which decides what `*` binds
     imported: set[str] = field(default_factory=set)  # project modules it imports
