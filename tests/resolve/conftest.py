@@ -156,3 +156,12 @@ def library_query(folder: Path, library: Mapping[str, str], changes: bytes) -> Q
         target.write_text(textwrap.dedent(text).lstrip("\n"))
     parsed = parse_change_list(changes, Path("changes.toml"))
     return Query(parsed, library_model(parsed, source=folder / "heronframe"))
+
+
+def found_with(query: Query, code: str, files: Mapping[str, str] | None = None) -> list[Finding]:
+    """The findings of `main.py` (`code`, dedented), beside `files`, under `query`."""
+    import textwrap
+
+    texts = {"main.py": textwrap.dedent(code).lstrip("\n"), **(files or {})}
+    sources = {p: read_python(t.encode(), p) for p, t in texts.items()}
+    return ProjectResolver("demo", query, sources).analyse("main.py").findings

@@ -22,7 +22,7 @@ from impactscope.resolve.model import library_model
 from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
 
-from .conftest import at, library_query
+from .conftest import at, found_with, library_query
 
 LIBRARY = {
     "heronframe/__init__.py": """
@@ -170,10 +170,7 @@ def query(tmp_path_factory: pytest.TempPathFactory) -> Query:
     return library_query(tmp_path_factory.mktemp("lib"), LIBRARY, CHANGES)
 
 
-def found(query: Query, code: str, files: dict[str, str] | None = None) -> list[Finding]:
-    texts = {"main.py": textwrap.dedent(code).lstrip("\n"), **(files or {})}
-    sources = {p: read_python(t.encode(), p) for p, t in texts.items()}
-    return ProjectResolver("demo", query, sources).analyse("main.py").findings
+found = found_with
 
 
 def test_property_built_from_a_method_carries_its_return_type(query: Query) -> None:

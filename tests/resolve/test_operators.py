@@ -10,16 +10,13 @@ on). The library stubs below are invented test data in the demo's scenario (hero
 
 from __future__ import annotations
 
-import textwrap
 
 import pytest
 
-from impactscope.corpus.sources import read_python
 from impactscope.findings import Finding
-from impactscope.resolve.project import ProjectResolver
 from impactscope.resolve.query import Query
 
-from .conftest import at, library_query
+from .conftest import at, found_with, library_query
 
 STUBS = {
     "heronframe/__init__.pyi": """
@@ -77,9 +74,7 @@ def query(tmp_path_factory: pytest.TempPathFactory) -> Query:
     return library_query(tmp_path_factory.mktemp("stubs"), STUBS, CHANGES)
 
 
-def found(query: Query, code: str) -> list[Finding]:
-    sources = {"main.py": read_python(textwrap.dedent(code).lstrip("\n").encode(), "main.py")}
-    return ProjectResolver("demo", query, sources).analyse("main.py").findings
+found = found_with
 
 
 def only(hits: list[Finding], line: int) -> str:

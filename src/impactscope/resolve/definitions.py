@@ -209,8 +209,8 @@ class Definitions(Walk):
         return result
 
     def _run_given(self, func: UserFunc, given: dict[str, Value]) -> Value:
-        """Read the body quietly with one call's library arguments, leaving what the function
-        is known to return in general (and its recorded run) as they were."""
+        """Read the body quietly with one call's own arguments, leaving what the function is
+        known to return in general (and its recorded run) as they were."""
         previous_state = func.state
         func.state = "running"
         try:

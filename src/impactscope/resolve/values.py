@@ -115,8 +115,8 @@ class UserFunc:
     passed: dict[str, "Value"] = field(default_factory=dict)
     reruns: int = 0  # recorded runs again because a later call passed a library value
     read_with: dict[str, "Value"] = field(default_factory=dict)  # `passed` when `returns` was read
-    # What a call returns given the library values it passes (by parameter name), for a body whose
-    # plain reading returns nothing of the library: `def tidy(df): return df.copy()`.
+    # What a call returns given the arguments it passes that differ from `read_with` (by parameter
+    # name): `def tidy(df): return df.copy()` returns what each call gives it.
     by_arguments: dict[tuple[tuple[str, "Value"], ...], "Value"] = field(default_factory=dict)
 
 
@@ -185,20 +185,22 @@ def returned(values: "list[Value]") -> "Value":
     other values as its `otherwise`)."""
     tuples = [v for v in values if isinstance(v, Tup)]
     rest = [plain(v) for v in values if not isinstance(v, Tup) or v.otherwise is not None]
-    others: Value = rest[0] if rest else UNKNOWN
-    for v in rest[1:]:
-        others = either(others, v)
     if not tuples or len({len(t.items) for t in tuples}) != 1 or not rest:
-        if not values:
-            return UNKNOWN
-        result: Value = plain(values[0])
-        for v in values[1:]:
-            result = either(result, plain(v))
-        return result
+        return _either_of([plain(v) for v in values])
     items = tuple(UNKNOWN for _ in tuples[0].items)
     for t in tuples:
         items = tuple(join(a, b) for a, b in zip(items, t.items))
-    return Tup(items, otherwise=others)
+    return Tup(items, otherwise=_either_of(rest))
+
+
+def _either_of(values: "list[Value]") -> "Value":
+    """What one of the paths gives (`either` over them); UNKNOWN for none."""
+    if not values:
+        return UNKNOWN
+    result = values[0]
+    for v in values[1:]:
+        result = either(result, v)
+    return result
 
 
 class _Unknown:

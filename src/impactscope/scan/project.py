@@ -152,11 +152,12 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
             continue
         prior = outcomes[path]
         detail = add_note(prior.detail, fa.detail)
-        if fa.reason is Reason.ANALYSIS_ERROR and prior.kind == "module":
-            # The resolver failed on it: its uses still count, at `possible`, as a token-level
-            # reading finds them, so "at most" stays a bound.
-            detail = f"{detail}; read at token level"
-            token_level.add(path)
+        if fa.reason is Reason.ANALYSIS_ERROR:
+            # The resolver failed on it (a fault it isolated itself): read as the faults below are.
+            kept = _fallback_findings(project.name, path, texts, prior, query)
+            if kept is not None:
+                result.findings.extend(kept)
+                detail += _TOKEN_LEVEL_NOTE
         outcomes[path] = FileOutcome(path, fa.status, fa.reason, detail, prior.digest, prior.kind)
         result.findings.extend(fa.findings)
         if fa.reason in (Reason.PYTHON_2, Reason.TOO_DEEPLY_NESTED):
@@ -172,12 +173,10 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     for path, detail in faults.items():
         prior = outcomes[path]
         result.findings = [f for f in result.findings if f.file != path]
-        # Its uses still count, at `possible`, as a token-level reading finds them: "at most"
-        # stays a bound even for a file the analysis failed on or ran out of time for.
         kept = _fallback_findings(project.name, path, texts, prior, query)
         if kept is not None:
             result.findings.extend(kept)
-        note = "; read at token level" if kept is not None else ""
+        note = _TOKEN_LEVEL_NOTE if kept is not None else ""
         if path in clock.over:  # a limit reached, like a file too large: skipped with its reason
             outcomes[path] = FileOutcome(path, "skipped", Reason.OVER_TIME_BUDGET, clock.over[path] + note,
                                          prior.digest, prior.kind)
@@ -248,10 +247,15 @@ def _spelled_elsewhere(texts: dict[str, str], path: str) -> Callable[[str], bool
     return spelled
 
 
+_TOKEN_LEVEL_NOTE = "; read at token level"
+
+
 def _fallback_findings(project: str, path: str, texts: dict[str, str], prior: FileOutcome,
                        query: Query) -> list[Finding] | None:
-    """The token-level findings of a module whose analysis failed; None where there is no such
-    reading (a notebook's text is its JSON) or it failed too."""
+    """The token-level findings of a module whose analysis failed or ran out of time, so that its
+    uses still count at `possible` and "at most" stays a bound; None where there is no such
+    reading (a notebook's text is its cells joined) or it failed too. Read outside the file's
+    clock: a file stopped by its budget has none left, and the reading is linear."""
     if prior.kind != "module" or path not in texts:
         return None
     try:

@@ -19,6 +19,7 @@ from .syntax import (
     PROPERTY_WORDS,
     SELF_NAMES,
     dotted_name,
+    forward_reference,
     is_none,
     last_part,
 )
@@ -411,10 +412,7 @@ class Linker:
 
     def _items_of(self, module: str, node: ast.expr | None) -> str | None:
         if isinstance(node, ast.Constant) and isinstance(node.value, str):
-            try:
-                node = ast.parse(node.value.strip(), mode="eval").body
-            except SyntaxError:
-                return None
+            node = forward_reference(node.value)
         if not isinstance(node, ast.Subscript) or last_part(dotted_name(node.value)) not in _SEQUENCE_HEADS:
             return None
         items = node.slice.elts if isinstance(node.slice, ast.Tuple) else [node.slice]
@@ -445,11 +443,8 @@ class Linker:
         if is_none(node):
             return ()
         if isinstance(node, ast.Constant) and isinstance(node.value, str):
-            try:
-                inner = ast.parse(node.value.strip(), mode="eval").body
-            except SyntaxError:
-                return (None,)
-            return self.outcomes(module, inner, self_ann)
+            inner = forward_reference(node.value)
+            return (None,) if inner is None else self.outcomes(module, inner, self_ann)
         if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitOr):
             return self.outcomes(module, node.left, self_ann) + self.outcomes(module, node.right, self_ann)
         if isinstance(node, ast.Subscript):
@@ -478,10 +473,10 @@ class Linker:
     def _same_typevar(self, module: str, node: ast.expr, typevar: str) -> bool:
         """`self: T` or `cls: type[T]` for the TypeVar `typevar`."""
         if isinstance(node, ast.Constant) and isinstance(node.value, str):
-            try:
-                node = ast.parse(node.value.strip(), mode="eval").body
-            except SyntaxError:
+            parsed = forward_reference(node.value)
+            if parsed is None:
                 return False
+            node = parsed
         if isinstance(node, ast.Subscript) and last_part(dotted_name(node.value)) in ("type", "Type"):
             node = node.slice
         text = dotted_name(node)

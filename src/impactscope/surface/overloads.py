@@ -18,7 +18,7 @@ import ast
 from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping
 
-from .syntax import dotted_name
+from .syntax import dotted_name, forward_reference
 
 # Builtin types a literal or a display can be an instance of. Names only: the values are
 # never built, and a library class that derives from one of these is judged apart.
@@ -171,11 +171,8 @@ class AnnotationReader:
             if node.value is None:
                 return Accepts(builtins=("None",))
             if isinstance(node.value, str):  # a forward reference (PEP 484)
-                try:
-                    inner = ast.parse(node.value.strip(), mode="eval").body
-                except SyntaxError:
-                    return UNSURE
-                return self.read(module, inner)
+                inner = forward_reference(node.value)
+                return UNSURE if inner is None else self.read(module, inner)
             return UNSURE
         if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitOr):
             return self.read(module, node.left).union(self.read(module, node.right))

@@ -66,6 +66,15 @@ def is_namespace_call(node: ast.expr) -> bool:
     )
 
 
+def forward_reference(text: str) -> ast.expr | None:
+    """The expression a string annotation holds (a PEP 484 forward reference); None if it does
+    not parse."""
+    try:
+        return ast.parse(text.strip(), mode="eval").body
+    except SyntaxError:
+        return None
+
+
 def string_value(node: ast.expr | None) -> str | None:
     return node.value if isinstance(node, ast.Constant) and isinstance(node.value, str) else None
 
