@@ -25,6 +25,7 @@ from impactscope.resolve.values import (
     UserFunc,
     UserInst,
     Value,
+    opened,
     plain,
 )
 from impactscope.resolve.walk import Walk
@@ -82,7 +83,7 @@ class Calls(Walk):
 
             picked = self.pick_overload(func.name, arguments)
             if picked is not None:
-                return picked
+                return opened(picked, func.open)
         return self.call_result(func)
 
     def pick_overload(self, dotted: str, arguments: Callable[[], tuple[list[Fact], dict[str, Fact]]]) -> Value | None:
@@ -132,6 +133,9 @@ class Calls(Walk):
         return self.call_result(Lib(dotted, bound=True))
 
     def call_result(self, func: Value) -> Value:
+        if isinstance(func, Lib) and func.open:
+            # A method of an open instance: on the unknown alternative, the call gives anything.
+            return opened(self.call_result(Lib(func.name, func.bound)))
         if isinstance(func, Lib):
             returned = self.q.model.returns(func.name)
             if returned is not None:
@@ -156,7 +160,7 @@ class Calls(Walk):
                 # An alternative that gives no library class keeps the outcome open.
                 outcomes.extend(self.q.model.returns_all(dotted) or (NOT_LIBRARY,))
             found = tuple(dict.fromkeys(outcomes))
-            return UNKNOWN if found == (NOT_LIBRARY,) else instance_of(found)
+            return UNKNOWN if found == (NOT_LIBRARY,) else opened(instance_of(found), func.open)
         if isinstance(func, UserClass):
             return UserInst(func)
         if isinstance(func, UserFunc):

@@ -18,6 +18,7 @@ from impactscope.resolve.values import (
     Foreign,
     Inst,
     Items,
+    NOT_LIBRARY,
     Lib,
     OneOf,
     ProjMod,
@@ -30,6 +31,7 @@ from impactscope.resolve.values import (
     item_of,
     either,
     join,
+    opened,
     plain,
 )
 from impactscope.resolve.walk import Walk
@@ -122,10 +124,14 @@ class Expressions(Walk):
         (column selection, `.loc[...]` indexers); anything else is not known."""
         receiver = plain(self.expr(node.value, scope))
         index: tuple[cst.BaseExpression, Value] | None = None  # `x[key]`: the key and its value
+        parts: list[Value | None] = []  # each part's value (None for a slice)
         for element in node.slice:
-            if len(node.slice) == 1 and isinstance(element.slice, cst.Index) and element.slice.star is None:
-                index = element.slice.value, self.expr(element.slice.value, scope)
+            if isinstance(element.slice, cst.Index) and element.slice.star is None:
+                parts.append(self.expr(element.slice.value, scope))
+                if len(node.slice) == 1:
+                    index = element.slice.value, parts[-1]
             else:
+                parts.append(None)
                 self.generic(element, scope)
 
         def key() -> tuple[list[Fact], dict[str, Fact]]:
@@ -139,11 +145,19 @@ class Expressions(Walk):
             getitem = f"{receiver.cls}.__getitem__"
             typed = self.q.model.returns(getitem)
             if typed is not None:
-                return Inst(typed)
+                return opened(Inst(typed), receiver.open)
             picked = self.pick_overload(getitem, key)
             if picked is not None:
-                return picked
-            return instance_of(self.q.model.returns_all(getitem))
+                return opened(picked, receiver.open)
+            outcomes = self.q.model.returns_all(getitem)
+            if not outcomes and self._keeps_dimensions(node, parts) and self.q.model.kind(getitem) is not None:
+                # Nothing types the subscript, but its key keeps every dimension: a slice of a
+                # sequence is a sequence of the same type (the Language Reference, "The standard
+                # type hierarchy"), and array libraries keep an axis for a slice or a list of
+                # labels (NumPy's indexing guide, from memory). An indexer built around an
+                # instance (`df.loc[:t]`) gives the instance's class.
+                return Inst(receiver.over or receiver.cls, open=receiver.open)
+            return opened(instance_of(outcomes), receiver.open)
         if isinstance(receiver, Items) and len(node.slice) == 1:
             # A slice of the list is a list of the same items; an index, one item.
             return receiver if isinstance(node.slice[0].slice, cst.Slice) else Inst(receiver.cls)
@@ -152,6 +166,18 @@ class Expressions(Walk):
             if isinstance(key, cst.Integer) and int(key.value, 0) < len(receiver.items):
                 return receiver.items[int(key.value, 0)]
         return UNKNOWN
+
+    @staticmethod
+    def _keeps_dimensions(node: cst.Subscript, parts: list[Value | None]) -> bool:
+        """Every part of the key is a slice (`x[a:b]`, `x[:, 1:]`) or a list (`x[["a", "b"]]`, a name
+        bound to a list display): no part picks a single item."""
+        for element, value in zip(node.slice, parts):
+            if isinstance(element.slice, cst.Slice):
+                continue
+            if isinstance(value, Display) and value.kind == "list":
+                continue
+            return False
+        return True
 
     def _name(self, node: cst.Name, scope: Scope, record: bool, context: str, call: CallShape | None) -> Value:
         if node.value == "None":
@@ -178,22 +204,47 @@ class Expressions(Walk):
             bound = value.bound if isinstance(value, Lib) else True
             receiver_text = how if isinstance(value, Lib) else f"<{named}>"
             self._ref(node.attr, context, name=name, receiver=receiver_text, bound=bound, call=call)
-        if attr in self.q.names and isinstance(receiver, OneOf) and not receiver.member:
-            shown = "|".join(receiver.classes)
-            self._ref(node.attr, context, attr=attr, receiver=f"<{shown}>", among=receiver.classes, call=call)
-        elif attr in self.q.names and (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)
-                                       or self._open_beyond(receiver, attr, value)):
+        if attr not in self.q.names:
+            return value
+        if isinstance(receiver, OneOf) and not receiver.member:
+            among = self._among(receiver.classes, attr)
+            self._ref(node.attr, context, attr=attr, receiver=f"<{'|'.join(among)}>", among=among, call=call)
+            if not receiver.open:
+                return value
+        if isinstance(receiver, Inst) and (among := self._among((receiver.cls,), attr)) != (receiver.cls,):
+            # A value typed as a base class is an instance of the base or of a subclass; a name only
+            # subclasses have says it is one of them (or a class nobody here knows).
+            self._ref(node.attr, context, attr=attr, receiver=f"<{receiver.cls}>", among=among, call=call)
+        if (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)
+                or (isinstance(receiver, (Inst, OneOf)) and receiver.open)):
+            # An open instance's unknown alternative may be any class that has the name.
             # The receiver is not proven to be anything in particular: the name alone decides.
             self._ref(node.attr, context, attr=attr, receiver="?", call=call)
         return value
 
-    def _open_beyond(self, receiver: Value, attr: str, value: Value) -> bool:
-        """A name the class of an open instance does not have: the unknown alternative may."""
-        if not isinstance(receiver, Inst) or not receiver.open:
-            return False
-        if self.q.model.knows_kinds:
-            return self.q.model.kind(f"{receiver.cls}.{attr}") is None
-        return not (isinstance(value, Lib) and self.q.match(value.name))
+    def _among(self, classes: tuple[str, ...], attr: str) -> tuple[str, ...]:
+        """The classes an instance of one of `classes` may be when it has `attr`: a class that lacks
+        the name (a TypeVar's bound, an abstract base) stands for its library subclasses that
+        have it, or a class nobody here knows (`NOT_LIBRARY`)."""
+        if not self.q.model.knows_kinds:
+            return classes
+        out: list[str] = []
+        for cls in classes:
+            if cls == NOT_LIBRARY or self.q.model.kind(f"{cls}.{attr}") is not None:
+                out.append(cls)
+                continue
+            base = self.q.model.canonical(cls)
+            found = {
+                owner for owner in self.q.model.owners(attr)
+                if owner != base and base in self.q.model.mro(owner) and self.q.model.is_class(owner)
+            }
+            if not found:
+                out.append(cls)
+                continue
+            # The topmost ones: a subclass of one listed owns what its ancestor owns.
+            out.extend(sorted(c for c in found if not any(a in found for a in self.q.model.mro(c)[1:])))
+            out.append(NOT_LIBRARY)
+        return tuple(dict.fromkeys(out))
 
     def _unlinked(self, value: Value) -> bool:
         """Without the library's source a path it re-exports under another name
@@ -214,27 +265,28 @@ class Expressions(Walk):
         An attribute of a library instance that the library types (a property, a typed
         attribute) is an instance of that type; then `how` is the receiver's class."""
         if isinstance(receiver, Lib):
-            return Lib(f"{receiver.name}.{attr}", bound=receiver.bound), receiver.name
+            return Lib(f"{receiver.name}.{attr}", bound=receiver.bound, open=receiver.open), receiver.name
         if isinstance(receiver, Inst):
             dotted = f"{receiver.cls}.{attr}"
             typed = self.q.model.attribute_type(dotted)
             if typed is not None:
-                return Inst(typed), receiver.cls
+                over = receiver.cls if self.q.model.wraps_owner(dotted) else ""
+                return opened(Inst(typed, over=over), receiver.open), receiver.cls
             if (self.q.model.knows_kinds and attr not in self.q.names and not attr.startswith("__")
                     and self.q.model.kind(dotted) is None):
                 # The Language Reference, "Customizing attribute access": __getattr__ answers a
                 # name the class does not have (a column read as an attribute).
                 served = self.q.model.returns(f"{receiver.cls}.__getattr__")
                 if served is not None:
-                    return Inst(served), receiver.cls
-            return Lib(dotted, bound=True), f"<{receiver.cls}>"
+                    return opened(Inst(served), receiver.open), receiver.cls
+            return Lib(dotted, bound=True, open=receiver.open), f"<{receiver.cls}>"
         if isinstance(receiver, OneOf):
             if receiver.member:
                 return UNKNOWN, "?"
             kinds = {self.q.model.attribute_type(f"{cls}.{attr}") for cls in receiver.classes}
             if len(kinds) == 1 and None not in kinds:
-                return Inst(kinds.pop()), ""  # type: ignore[arg-type]
-            return OneOf(receiver.classes, attr), ""
+                return opened(Inst(kinds.pop()), receiver.open), ""  # type: ignore[arg-type]
+            return OneOf(receiver.classes, attr, open=receiver.open), ""
         if isinstance(receiver, ProjMod):
             sub = f"{receiver.name}.{attr}"
             if self.is_project_module(sub):

@@ -36,6 +36,8 @@ class LibraryModel(Protocol):
 
     def items(self, dotted: str) -> str | None: ...
 
+    def wraps_owner(self, dotted: str) -> bool: ...
+
     def overloads(self, dotted: str) -> "tuple[Overload, ...]": ...
 
     def only_library_bases(self, cls: str) -> bool: ...
@@ -90,6 +92,9 @@ class TypesModel:
 
     def items(self, dotted: str) -> str | None:
         return None  # a change list's `[types]` names no container returns
+
+    def wraps_owner(self, dotted: str) -> bool:
+        return False  # only a property's body can say so
 
     def overloads(self, dotted: str) -> "tuple[Overload, ...]":
         return ()  # `[types]` gives one return type per name
@@ -155,6 +160,11 @@ class SurfaceModel:
             return None  # the change list's `[types]` decides
         member = self._surface.member(dotted)  # type: ignore[attr-defined]
         return None if member is None or member.items is None else self.canonical(member.items)
+
+    def wraps_owner(self, dotted: str) -> bool:
+        """A property that hands out an object built around the instance (an indexer over it)."""
+        member = self._surface.member(dotted)  # type: ignore[attr-defined]
+        return member is not None and bool(member.wraps_owner)
 
     def overloads(self, dotted: str) -> "tuple[Overload, ...]":
         if self._types.returns(dotted) or self._types.returns(self.canonical(dotted)):

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Literal, Union
 
 import libcst as cst
@@ -21,6 +21,7 @@ class Lib:
 
     name: str
     bound: bool = False
+    open: bool = False  # read off an open instance (`Inst.open`): what it gives stays open
 
 
 @dataclass(frozen=True)
@@ -31,6 +32,9 @@ class Inst:
 
     cls: str
     open: bool = False
+    # Built around an instance of this library class (`df.loc`: an indexer over the frame), for
+    # subscripts that keep every dimension; "" otherwise.
+    over: str = ""
 
 
 # Stands in a `OneOf` for an outcome that is not a library class: it owns no change.
@@ -44,6 +48,7 @@ class OneOf:
 
     classes: tuple[str, ...]
     member: str = ""  # set for `obj.member` read off such an instance: calling it is known
+    open: bool = False  # or a value nobody can tell, as `Inst.open`
 
 
 @dataclass(frozen=True)
@@ -245,7 +250,7 @@ def join(a: Value, b: Value) -> Value:
         if not _member(a) and not _member(b):
             if len(classes) == 1:
                 return Inst(classes[0], open=_open(a) or _open(b))
-            return OneOf(classes)
+            return OneOf(classes, open=_open(a) or _open(b))
     if is_library(a):
         return a
     if is_library(b):
@@ -256,15 +261,22 @@ def join(a: Value, b: Value) -> Value:
 def either(a: Value, b: Value) -> Value:
     """What one of two paths gives (branches, `x if c else y`, `x or y`, return statements): as
     `join`, but an instance beside a value nobody can tell stays open to it (`Inst.open`)."""
-    if isinstance(a, Inst) and plain(b) is UNKNOWN:
-        return Inst(a.cls, open=True)
-    if isinstance(b, Inst) and plain(a) is UNKNOWN:
-        return Inst(b.cls, open=True)
+    if isinstance(a, (Inst, OneOf)) and plain(b) is UNKNOWN:
+        return opened(a)
+    if isinstance(b, (Inst, OneOf)) and plain(a) is UNKNOWN:
+        return opened(b)
     return join(a, b)
 
 
+def opened(value: "Value", really: bool = True) -> "Value":
+    """`value` left open to a value nobody can tell, when `really`."""
+    if not really or not isinstance(value, (Inst, OneOf)) or value.open:
+        return value
+    return replace(value, open=True)
+
+
 def _open(value: "Inst | OneOf") -> bool:
-    return isinstance(value, Inst) and value.open
+    return value.open
 
 
 def _classes(value: "Inst | OneOf") -> tuple[str, ...]:

@@ -586,7 +586,9 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
                                returns_all=every if every != ((returns,) if returns else ()) and r.kind != "class" else (),
                                doc=r.doc, annotation=ast.unparse(r.returns_ann) if r.returns_ann is not None else "",
                                overloads=link.overloads(name) if kind in CALLABLE_KINDS and returns is None else (),
-                               items=link.item_class(name) if returns is None else None)
+                               items=link.item_class(name) if returns is None else None,
+                               wraps_owner=kind == "property" and returns is not None and r.wraps_self is not None
+                               and link.resolve_expr(r.module, r.wraps_self)[0] == returns)
 
     aliases: dict[str, str] = {}
     private: dict[str, str] = {}

@@ -83,6 +83,9 @@ class Member:
     annotation: str = ""
     overloads: tuple[Overload, ...] = ()  # PEP 484 overloads, kept when they return different things
     items: str | None = None  # for `-> list[X]` and kin: the library class X of the items
+    # A property whose every return is built around the instance (`return _Indexer("loc", self)`):
+    # what it gives indexes the instance, so a dimension-keeping subscript gives the instance's class.
+    wraps_owner: bool = False
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -529,6 +532,7 @@ def _member_json(m: Member) -> dict[str, Any]:
         "annotation": m.annotation,
         **({"overloads": [o.to_json() for o in m.overloads]} if m.overloads else {}),
         **({"items": m.items} if m.items else {}),
+        **({"wraps_owner": True} if m.wraps_owner else {}),
     }
 
 
@@ -553,6 +557,7 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         annotation=d.get("annotation", ""),
         overloads=tuple(Overload.from_json(o) for o in d.get("overloads", ())),
         items=d.get("items"),
+        wraps_owner=bool(d.get("wraps_owner", False)),
     )
 
 

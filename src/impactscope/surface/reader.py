@@ -20,6 +20,7 @@ from .syntax import (
     TYPE_ALIAS_NODE,
     TYPEVAR,
     all_change,
+    built_on_first,
     changes_all,
     doc_digest,
     dotted_name,
@@ -51,7 +52,8 @@ class Raw:
 
     __slots__ = ("name", "kind", "module", "line", "params", "returns_ann", "self_class", "decorators",
                  "shape", "bases", "value_call", "value_ann", "dataclass", "fields", "namedtuple", "instance_attrs",
-                 "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc", "alias_value")
+                 "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc", "alias_value",
+                 "wraps_self")
 
     def __init__(self, name: str, kind: str, module: str, line: int) -> None:
         self.name, self.kind, self.module, self.line = name, kind, module, line
@@ -76,6 +78,7 @@ class Raw:
         self.typevar = False  # `T = TypeVar("T", bound=...)`
         self.bound: ast.expr | None = None
         self.alias_value: ast.expr | None = None  # `Scalar = Union[...]`: a type alias, read by overload parameters
+        self.wraps_self: str | None = None  # the callee when every return is a call given `self` (`_Indexer(self)`)
 
 
 class ModuleReader:
@@ -225,6 +228,7 @@ class ModuleReader:
             r.params = self.parameters(node.args, drop_first=kind in ("method", "classmethod") or name == "__new__")
         r.returns_ann = node.returns
         r.self_class = scope
+        r.wraps_self = built_on_first(node) if scope is not None else None
         r.self_ann = self_ann
         if overload:
             r.overloads = [signature]

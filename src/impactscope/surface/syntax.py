@@ -167,6 +167,28 @@ def returns_value(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
     return False
 
 
+def built_on_first(node: ast.FunctionDef | ast.AsyncFunctionDef) -> str | None:
+    """The callee, when every value the function returns is a call of it given the function's first
+    parameter (`return _Indexer("loc", self)`: an object built around the instance); else None.
+    Nested definitions aside."""
+    positional = [*node.args.posonlyargs, *node.args.args]
+    if not positional:
+        return None
+    first = positional[0].arg
+    callees: set[str | None] = set()
+    todo: list[ast.AST] = list(node.body)
+    while todo:
+        sub = todo.pop()
+        if isinstance(sub, ast.Return):
+            call = sub.value
+            given = isinstance(call, ast.Call) and any(
+                isinstance(a, ast.Name) and a.id == first for a in (*call.args, *(k.value for k in call.keywords)))
+            callees.add(dotted_name(call.func) if given else None)  # type: ignore[union-attr]
+        elif not isinstance(sub, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)):
+            todo.extend(ast.iter_child_nodes(sub))
+    return callees.pop() if len(callees) == 1 else None
+
+
 def ends_in_raise(body: list[ast.stmt]) -> bool:
     return bool(body) and isinstance(body[-1], ast.Raise)
 
