@@ -29,6 +29,7 @@ LIBRARY = {
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
         from heronframe.io import read_table, pick, load, read_all, columns_of, pair, any_shape
+        from heronframe.io import group_rows, group_cells, group_any
         from heronframe import util
     """,
     "heronframe/core/__init__.py": "",
@@ -93,11 +94,40 @@ LIBRARY = {
             def __getitem__(self, key):
                 return self
     """,
+    "heronframe/core/grouping.py": """
+        from typing import Generic, Optional, TypeVar
+        from heronframe.core.base import Shaped
+        from heronframe.core.frame import Table
+        from heronframe.core.column import Column
+
+        ShapedT = TypeVar("ShapedT", bound=Shaped)
+
+
+        class Grouped(Generic[ShapedT]):
+            def first(self) -> ShapedT:
+                ...
+
+            def maybe_first(self) -> Optional[ShapedT]:
+                ...
+
+
+        class _Middle(Grouped[ShapedT]):
+            pass
+
+
+        class TableGroups(_Middle[Table]):
+            pass
+
+
+        class ColumnGroups(Grouped["Column"]):
+            pass
+    """,
     "heronframe/io.py": """
         from typing import Iterator, overload, Literal
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
         from heronframe.core.base import Shaped
+        from heronframe.core.grouping import Grouped, TableGroups, ColumnGroups
 
 
         def read_table(path) -> Table:
@@ -122,6 +152,18 @@ LIBRARY = {
 
         def any_shape(path) -> Shaped:
             return Column()
+
+
+        def group_rows(table) -> TableGroups:
+            return TableGroups()
+
+
+        def group_cells(column) -> ColumnGroups:
+            return ColumnGroups()
+
+
+        def group_any(x) -> Grouped:
+            return Grouped()
 
 
         def read_all(paths) -> "list[Table]":
@@ -706,3 +748,24 @@ def test_a_key_that_keeps_every_dimension_keeps_the_class(query: Query) -> None:
     assert at(hits, 10, "T-STACK") == "resolved"
     assert at(hits, 11, "T-STACK") in ("inferred", "possible")
     assert at(hits, 12, "T-STACK") in ("inferred", "possible")
+
+
+def test_a_generic_base_fixes_what_inherited_methods_return(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        hf.group_rows(t).first().stack_rows(1)
+        hf.group_rows(t).maybe_first().stack_rows(2)
+        hf.group_cells(c).first().iter_pairs()
+        hf.group_any(x).first().iter_pairs()
+        hf.group_any(x).first().stack_rows(3)
+    """
+    hits = found(query, code)
+    # PEP 484, user-defined generic types: `class TableGroups(_Middle[Table])` fixes the TypeVar
+    # of `_Middle(Grouped[ShapedT])`, so `first() -> ShapedT` gives a Table; so too through a
+    # string item (`Grouped["Column"]`) and `Optional[ShapedT]`.
+    assert at(hits, 2, "T-STACK") == "resolved"
+    assert at(hits, 3, "T-STACK") == "resolved"
+    assert at(hits, 4, "C-PAIRS") == "resolved"
+    # Unfixed, the TypeVar is its bound, Shaped, which has neither name: one of its subclasses.
+    assert at(hits, 5, "C-PAIRS") == "inferred"
+    assert at(hits, 6, "T-STACK") == "inferred"

@@ -400,6 +400,69 @@ class Linker:
         found = mapped.pop()
         return found if found in self.raw and self.raw[found].kind == "class" else None
 
+    def return_typevar(self, name: str) -> str | None:
+        """The TypeVar a callable's (or property's) return annotation names, `-> T`, `-> T | None`,
+        `Optional[T]`, when it does not also type `self` (that one is Self); None otherwise."""
+        r = self.raw[name]
+        if r.kind == "class" or r.overloads or self.kind(name) not in (*CALLABLE_KINDS, "property"):
+            return None
+        node = r.returns_ann
+        if isinstance(node, ast.Constant) and isinstance(node.value, str):
+            node = forward_reference(node.value)
+        if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitOr):
+            node = node.right if is_none(node.left) else node.left if is_none(node.right) else None
+        elif isinstance(node, ast.Subscript) and last_part(dotted_name(node.value)) == "Optional":
+            node = node.slice
+        text = dotted_name(node) if node is not None else None
+        if text is None:
+            return None
+        target = self.resolve_expr(r.module, text, typing=True)[0]
+        if target is None or not self.raw[target].typevar:
+            return None
+        if r.self_ann is not None and self._same_typevar(r.module, r.self_ann, target):
+            return None
+        return target
+
+    def type_parameters(self, cls: str) -> tuple[str, ...]:
+        """PEP 484, user-defined generic types: the TypeVars of `Generic[...]` (or `Protocol[...]`)
+        when a base names it, else every TypeVar the bases' subscripts name, in order."""
+        r = self.raw[cls]
+        found: list[str] = []
+        for text, args in zip(r.bases, r.base_args):
+            typevars = []
+            for arg in args:
+                target = self.resolve_expr(r.module, arg, typing=True)[0] if arg else None
+                if target is not None and self.raw[target].typevar:
+                    typevars.append(target)
+            if last_part(text) in ("Generic", "Protocol") and typevars:
+                return tuple(dict.fromkeys(typevars))
+            found.extend(typevars)
+        return tuple(dict.fromkeys(found))
+
+    def generic_bindings(self, cls: str) -> dict[str, str]:
+        """TypeVar -> what a class's generic bases fix it to (`class DataFrameGroupBy(GroupBy[DataFrame])`
+        fixes GroupBy's TypeVar to DataFrame, also in GroupBy's own bases), inherited. A value is a
+        library class, or a TypeVar of `cls` itself that a subclass may fix in turn."""
+
+        def compute() -> dict[str, str]:
+            r = self.raw[cls]
+            out: dict[str, str] = {}
+            for text, args in zip(r.bases, r.base_args):
+                base = self.resolve_expr(r.module, text)[0] if text else None
+                if base is None or base not in self.raw or self.raw[base].kind != "class":
+                    continue
+                local: dict[str, str] = {}
+                for param, arg in zip(self.type_parameters(base), args):
+                    target = self.resolve_expr(r.module, arg, typing=True)[0] if arg else None
+                    if target is not None and (self.raw[target].kind == "class" or self.raw[target].typevar):
+                        local[param] = target
+                inherited = {k: local.get(v, v) for k, v in self.generic_bindings(base).items()}
+                for k, v in {**inherited, **local}.items():
+                    out.setdefault(k, v)  # the first base that fixes it, as the MRO looks it up
+            return out
+
+        return self._guarded(("generic", cls), compute, {})
+
     def item_class(self, name: str) -> str | None:
         """The one library class of the items a callable returns in a builtin container
         (`list[X]`, `Sequence[X]`, `Iterator[X]`, `tuple[X, ...]`), when every signature agrees."""
@@ -588,7 +651,11 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
                                overloads=link.overloads(name) if kind in CALLABLE_KINDS and returns is None else (),
                                items=link.item_class(name) if returns is None else None,
                                wraps_owner=kind == "property" and returns is not None and r.wraps_self is not None
-                               and link.resolve_expr(r.module, r.wraps_self)[0] == returns)
+                               and link.resolve_expr(r.module, r.wraps_self)[0] == returns,
+                               returns_var=(link.return_typevar(name) or "") if r.kind != "class" else "",
+                               binds=tuple(sorted(
+                                   (k, v) for k, v in link.generic_bindings(name).items()
+                                   if raw[v].kind == "class")) if r.kind == "class" else ())
 
     aliases: dict[str, str] = {}
     private: dict[str, str] = {}

@@ -86,6 +86,11 @@ class Member:
     # A property whose every return is built around the instance (`return _Indexer("loc", self)`):
     # what it gives indexes the instance, so a dimension-keeping subscript gives the instance's class.
     wraps_owner: bool = False
+    # PEP 484 generics: the TypeVar a callable's return names (`-> NDFrameT`; `returns` holds its
+    # bound), and on a class what its generic bases fix each TypeVar to (inherited), so that a
+    # method a subclass of `GroupBy[DataFrame]` inherits returns a DataFrame.
+    returns_var: str = ""
+    binds: tuple[tuple[str, str], ...] = ()
 
     def signature(self) -> str:
         if self.parameters is None:
@@ -245,7 +250,16 @@ class Surface:
             owner = self.canonical(dotted.rpartition(".")[0])
             if self.is_class(owner):
                 return owner
-        return member.returns
+        return self._bound(dotted, member) or member.returns
+
+    def _bound(self, dotted: str, member: Member) -> str | None:
+        """PEP 484: what the receiver's class fixes the TypeVar a method returns to, if anything."""
+        if not member.returns_var:
+            return None
+        owner = self.members.get(self.canonical(dotted.rpartition(".")[0]))
+        if owner is None or owner.kind != "class":
+            return None
+        return dict(owner.binds).get(member.returns_var)
 
     def returns_all(self, dotted: str) -> tuple[str, ...]:
         """Every canonical library class calling `dotted` can return, in order, without repeats.
@@ -259,6 +273,9 @@ class Surface:
             return ()
         if member.kind == "class":
             return (member.name,)
+        fixed = self._bound(dotted, member)
+        if fixed is not None:
+            return (fixed,)
         if not member.returns_all:
             return () if member.returns is None else (member.returns,)
         receiver = self.canonical(dotted.rpartition(".")[0])
@@ -533,6 +550,8 @@ def _member_json(m: Member) -> dict[str, Any]:
         **({"overloads": [o.to_json() for o in m.overloads]} if m.overloads else {}),
         **({"items": m.items} if m.items else {}),
         **({"wraps_owner": True} if m.wraps_owner else {}),
+        **({"returns_var": m.returns_var} if m.returns_var else {}),
+        **({"binds": [list(b) for b in m.binds]} if m.binds else {}),
     }
 
 
@@ -558,6 +577,8 @@ def _member_from_json(name: str, d: Mapping[str, Any]) -> Member:
         overloads=tuple(Overload.from_json(o) for o in d.get("overloads", ())),
         items=d.get("items"),
         wraps_owner=bool(d.get("wraps_owner", False)),
+        returns_var=d.get("returns_var", ""),
+        binds=tuple((str(k), str(v)) for k, v in d.get("binds", ())),
     )
 
 

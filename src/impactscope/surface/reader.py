@@ -25,6 +25,7 @@ from .syntax import (
     doc_digest,
     dotted_name,
     ends_in_raise,
+    forward_reference,
     is_main_guard,
     is_namespace_call,
     is_type_checking,
@@ -53,7 +54,7 @@ class Raw:
     __slots__ = ("name", "kind", "module", "line", "params", "returns_ann", "self_class", "decorators",
                  "shape", "bases", "value_call", "value_ann", "dataclass", "fields", "namedtuple", "instance_attrs",
                  "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc", "alias_value",
-                 "wraps_self")
+                 "wraps_self", "base_args")
 
     def __init__(self, name: str, kind: str, module: str, line: int) -> None:
         self.name, self.kind, self.module, self.line = name, kind, module, line
@@ -78,6 +79,8 @@ class Raw:
         self.typevar = False  # `T = TypeVar("T", bound=...)`
         self.bound: ast.expr | None = None
         self.alias_value: ast.expr | None = None  # `Scalar = Union[...]`: a type alias, read by overload parameters
+        # per base: the dotted texts of its subscript's items (`GroupBy[DataFrame]`), () for a plain base
+        self.base_args: list[tuple[str | None, ...]] = []
         self.wraps_self: str | None = None  # the callee when every return is a call given `self` (`_Indexer(self)`)
 
 
@@ -284,6 +287,7 @@ class ModuleReader:
         r = self._new(path, "class", node.lineno, scope)
         # `Base[int]` inherits from Base; a call (`with_metaclass(...)`) is left unknown.
         r.bases = [dotted_name(b.value if isinstance(b, ast.Subscript) else b) or "" for b in node.bases]
+        r.base_args = [_subscript_items(b) for b in node.bases]
         r.namedtuple = any(last_part(b) == "NamedTuple" for b in r.bases)
         decorators = [(d.func if isinstance(d, ast.Call) else d, d) for d in node.decorator_list]
         r.decorators = self._deprecations(decorators)
@@ -536,6 +540,20 @@ class ModuleReader:
         if args.kwarg is not None:
             out.append(Parameter(args.kwarg.arg, "var-keyword", None, None))
         return tuple(out)
+
+
+def _subscript_items(node: ast.expr) -> tuple[str | None, ...]:
+    """`Base[A, "B"]`: the items' dotted texts (a string item read as a forward reference)."""
+    if not isinstance(node, ast.Subscript):
+        return ()
+    items = node.slice.elts if isinstance(node.slice, ast.Tuple) else [node.slice]
+    out: list[str | None] = []
+    for item in items:
+        if isinstance(item, ast.Constant) and isinstance(item.value, str):
+            parsed = forward_reference(item.value)
+            item = parsed if parsed is not None else item
+        out.append(dotted_name(item))
+    return tuple(out)
 
 
 def _annotations(args: ast.arguments, drop_first: bool) -> tuple[ast.expr | None, ...]:
