@@ -217,8 +217,8 @@ class Expressions(Walk):
             self._ref(node.attr, context, attr=attr, receiver=f"<{receiver.cls}>", among=among, call=call)
         if (receiver is UNKNOWN or self._untyped(receiver) or self._unlinked(value)
                 or (isinstance(receiver, (Inst, OneOf)) and receiver.open)):
-            # An open instance's unknown alternative may be any class that has the name.
-            # The receiver is not proven to be anything in particular: the name alone decides.
+            # Not proven to be anything in particular (an open receiver's unknown path may be any
+            # class that has the name): the name alone decides.
             self._ref(node.attr, context, attr=attr, receiver="?", call=call)
         return value
 

@@ -249,8 +249,8 @@ def join(a: Value, b: Value) -> Value:
         classes = tuple(dict.fromkeys(_classes(a) + _classes(b)))
         if not _member(a) and not _member(b):
             if len(classes) == 1:
-                return Inst(classes[0], open=_open(a) or _open(b))
-            return OneOf(classes, open=_open(a) or _open(b))
+                return Inst(classes[0], open=a.open or b.open)
+            return OneOf(classes, open=a.open or b.open)
     if is_library(a):
         return a
     if is_library(b):
@@ -273,10 +273,6 @@ def opened(value: "Value", really: bool = True) -> "Value":
     if not really or not isinstance(value, (Inst, OneOf)) or value.open:
         return value
     return replace(value, open=True)
-
-
-def _open(value: "Inst | OneOf") -> bool:
-    return value.open
 
 
 def _classes(value: "Inst | OneOf") -> tuple[str, ...]:
