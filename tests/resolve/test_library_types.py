@@ -769,3 +769,139 @@ def test_a_generic_base_fixes_what_inherited_methods_return(query: Query) -> Non
     # Unfixed, the TypeVar is its bound, Shaped, which has neither name: one of its subclasses.
     assert at(hits, 5, "C-PAIRS") == "inferred"
     assert at(hits, 6, "T-STACK") == "inferred"
+
+
+# Types a docstring documents (numpydoc, Sphinx info fields, Google style) stand where no
+# annotation is given: most data-science code declares its parameters' types only there.
+
+
+def test_a_numpydoc_parameter_type_carries_the_class(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        def plot(ic, other, bare, ax=None):
+            """Plot.
+
+            Parameters
+            ----------
+            ic : hf.Table
+                One column per period.
+            other : heronframe.Column, optional
+            bare : Table - indexed by date
+            ax : matplotlib.Axes
+            """
+            ic.stack_rows(1)
+            other.iter_pairs()
+            bare.stack_rows(2)
+    '''
+    hits = found(query, code)
+    assert at(hits, 13, "T-STACK") == "resolved"
+    assert at(hits, 14, "C-PAIRS") == "resolved"  # `heronframe` is bound to nothing: the library's top module
+    assert at(hits, 15, "T-STACK") == "resolved"  # a bare class name the library's top module defines
+
+
+def test_a_documented_return_type_types_the_call(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        def load(path):
+            """Load.
+
+            Returns
+            -------
+            frame : hf.Table
+                The rows.
+            """
+            return helper(path)
+        def pair(path):
+            """Two.
+
+            Returns
+            -------
+            hf.Table
+            hf.Column
+            """
+            return helper(path)
+        def sphinx(path):
+            """:rtype: :class:`~heronframe.Table`"""
+            return helper(path)
+        load("p").stack_rows(1)
+        sphinx("p").stack_rows(2)
+        a = pair("p")
+        a.stack_rows(3)
+    '''
+    hits = found(query, code)
+    assert at(hits, 23, "T-STACK") == "resolved"
+    assert at(hits, 24, "T-STACK") == "resolved"
+    # Two return entries are a tuple's items, not a type of the whole: the call is not proven.
+    assert at(hits, 26, "T-STACK") not in (None, "resolved")
+
+
+def test_what_a_docstring_cannot_tell_proves_nothing(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        class Table:
+            def stack_rows(self, n):
+                return n
+        def f(a, b, c, d: hf.Column):
+            """Check.
+
+            Args:
+                a (hf.Table or hf.Column): either.
+                b (list of hf.Table): many.
+                c (Table): the project's own class, bound here.
+                d (hf.Table): the annotation says otherwise, and wins.
+            """
+            a.stack_rows(1)
+            b.stack_rows(2)
+            c.stack_rows(3)
+            d.iter_pairs()
+            d.stack_rows(4)
+    '''
+    hits = found(query, code)
+    assert at(hits, 14, "T-STACK") not in (None, "resolved")  # still counted: the upper bound
+    assert at(hits, 15, "T-STACK") not in (None, "resolved")
+    assert at(hits, 16, "T-STACK") is None  # a project class that defines the name
+    assert at(hits, 17, "C-PAIRS") == "resolved"
+    assert at(hits, 18, "T-STACK") is None  # a Column has no stack_rows
+
+
+def test_a_docstring_type_is_not_a_use(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        def f(x):
+            """:type x: hf.Table.stack_rows"""
+            return x
+    '''
+    assert found(query, code) == []
+
+
+_STYLES = {
+    "numpydoc": '"""Do.\n\n    Parameters\n    ----------\n    {name} : {type}\n        What.\n    """',
+    "sphinx": '""":param {name}: what.\n    :type {name}: {type}\n    """',
+    "sphinx-inline": '""":param {type} {name}: what."""',
+    "google": '"""Do.\n\n    Args:\n        {name} ({type}): what.\n    """',
+}
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    style=st.sampled_from(sorted(_STYLES)),
+    name=st.from_regex(r"[a-z][a-z0-9_]{0,8}", fullmatch=True).filter(lambda n: n not in ("hf", "heronframe")),
+    spelled=st.sampled_from(["hf.Table", "heronframe.Table", "Table", "hf.Column"]),
+)
+def test_a_documented_type_finds_what_the_annotation_finds(query: Query, style: str, name: str, spelled: str) -> None:
+    import keyword
+
+    if keyword.iskeyword(name):
+        return
+    annotated_as = spelled if spelled.startswith("hf.") else f"hf.{spelled.rpartition('.')[2]}"
+    body = f"    {name}.stack_rows(1)\n    {name}.iter_pairs()\n    return {name}\n"
+    documented = f"import heronframe as hf\ndef f({name}):\n    {_STYLES[style].format(name=name, type=spelled)}\n{body}"
+    annotated = f"import heronframe as hf\ndef f({name}: {annotated_as}):\n    pass\n{body}"
+
+    def shape(code: str) -> set[tuple[int, str, str]]:
+        hits = found(query, code)
+        last = len(code.splitlines())
+        # Compare by distance from the end: the two versions' headers differ in length.
+        return {(last - f.line, f.change, f.confidence.label) for f in hits}
+
+    assert shape(documented) == shape(annotated)

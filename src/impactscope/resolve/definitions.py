@@ -8,6 +8,7 @@ from typing import Sequence
 
 import libcst as cst
 
+from impactscope.resolve.docstrings import documented_types
 from impactscope.resolve.scopes import Scope
 from impactscope.resolve.values import (
     UNKNOWN,
@@ -66,6 +67,17 @@ class Definitions(Walk):
             returns_decl = self.annotation(node.returns.annotation, scope, record=True)
         else:
             returns_decl = None
+        docstring = node.get_docstring(clean=True)
+        if docstring:
+            # Types the docstring documents stand where no annotation is given.
+            documented = documented_types(docstring)
+            for p in all_params(params):
+                text = documented.params.get(p.name.value)
+                if text is not None and p.annotation is None and id(p) not in starred:
+                    if (t := self.documented(text, scope)) is not None:
+                        declared[p.name.value] = t
+            if returns_decl is None and documented.returns is not None:
+                returns_decl = self.documented(documented.returns, scope)
         func = UserFunc(
             node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind, cell=self.at.cell,
             home=self, top=self.at.top, declared=declared, returns_decl=returns_decl,
@@ -150,6 +162,25 @@ class Definitions(Walk):
         if record:
             self.expr(expr, scope)
         return None
+
+    def documented(self, text: str, scope: Scope) -> Value | None:
+        """The instance type a docstring's dotted type name declares: read as an annotation would be
+        (quietly: a docstring uses nothing), else through the library's top-level modules when its
+        head is bound to nothing here (`pandas.DataFrame` in a module that imports `pandas as pd`,
+        or a bare `DataFrame` that exactly one top-level module defines as a class)."""
+        with self._quietly(True):
+            value = self.annotation(cst.parse_expression(text), scope, record=False)
+        if isinstance(value, Inst) and self.q.model.knows_kinds and not self.q.model.is_class(value.cls):
+            return None  # `hf.read_table`: a function named where a type was meant
+        if value is not None:
+            return value
+        head, _, rest = text.partition(".")
+        if self.lookup(scope, head) is not UNKNOWN:
+            return None  # bound to something that is not a class: a docstring of another meaning
+        tops = sorted(self.q.tops)
+        candidates = [text] if head in tops else [] if rest else [f"{top}.{text}" for top in tops]
+        classes = [c for c in candidates if self.q.model.is_class(c)]
+        return Inst(classes[0]) if len(classes) == 1 else None
 
     def returns_of(self, func: UserFunc, given: dict[str, Value] | None = None) -> Value:
         """What a call returns. A body not run yet is read quietly now, with the bindings of the
