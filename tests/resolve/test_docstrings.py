@@ -137,3 +137,25 @@ def test_any_text_is_read_without_error(doc: str) -> None:
     found = documented_types(doc)
     for t in (*found.params.values(), found.returns):
         assert t is None or single_type(t) == t
+
+
+def test_attributes_sections() -> None:
+    # numpydoc's guide and napoleon's Google example (from memory) both document a class's
+    # attributes in an `Attributes` section, as `name : type` and `name (type): text`.
+    numpy_doc = inspect.cleandoc('''
+        Attributes
+        ----------
+        survival_ : DataFrame
+            Set by fit.
+        label : str
+    ''')
+    google_doc = inspect.cleandoc('''
+        A model.
+
+        Attributes:
+            survival_ (pd.DataFrame): Set by fit.
+            label (str): A name.
+    ''')
+    assert dict(documented_types(numpy_doc).attributes) == {"survival_": "DataFrame", "label": "str"}
+    assert dict(documented_types(google_doc).attributes) == {"survival_": "pd.DataFrame", "label": "str"}
+    assert not documented_types(numpy_doc).params

@@ -527,3 +527,36 @@ def test_odd_imports_do_not_break_the_module() -> None:
     found = findings(files)
     assert at(found, 4, "HF-2") not in (None, "resolved")
     assert at(found, 6, "HF-2") not in (None, "resolved")
+
+
+def test_a_function_body_sees_a_cycle_completed() -> None:
+    files = {
+        "pkg/__init__.py": "from pkg.util import helper\nfrom pkg.model import Model\n",
+        "pkg/util.py": src(
+            """
+            import heronframe as hf
+            def helper(m):
+                import pkg
+                if isinstance(m, pkg.Model):
+                    m.table.stack_rows(1)
+                return pkg.Model().table
+            def later():
+                helper(0).stack_rows(2)
+            """
+        ),
+        "pkg/model.py": src(
+            """
+            import heronframe as hf
+            class Model:
+                def __init__(self):
+                    self.table = hf.read_table("p")
+            """
+        ),
+    }
+    found = [f for f in all_findings(files) if f.file == "pkg/util.py"]
+    # The Language Reference, §4.2.2 and §5.3.1: a function's body runs when it is called, by
+    # then `import pkg` finds the package whole; only code that runs while the cycle is being
+    # imported sees it half-initialised. The first reading (pkg without Model yet) is replaced.
+    assert at(found, 5, "HF-1") == "resolved"
+    assert at(found, 8, "HF-1") == "resolved"
+    assert len([f for f in found if f.line == 5]) == 1, found

@@ -905,3 +905,49 @@ def test_a_documented_type_finds_what_the_annotation_finds(query: Query, style: 
         return {(last - f.line, f.change, f.confidence.label) for f in hits}
 
     assert shape(documented) == shape(annotated)
+
+
+def test_one_class_spelled_two_ways_joins_as_one(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        from heronframe.core import frame
+        def f(a: hf.Table, b: frame.Table, c):
+            x = a if c else b
+            x = x if c else hf.read_table("p")
+            x.at_positions[:3].stack_rows(1)
+            x.stack_rows(2)
+    '''
+    hits = found(query, code)
+    # `hf.Table` re-exports `heronframe.core.frame.Table`: one class, whichever path names it.
+    assert at(hits, 6, "T-STACK") == "resolved"
+    assert at(hits, 7, "T-STACK") == "resolved"
+
+
+def test_a_class_docstring_types_attributes_and_constructor_parameters(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        class Model:
+            """A model.
+
+            Parameters
+            ----------
+            data : hf.Table
+                The rows.
+
+            Attributes
+            ----------
+            estimate_ : Table
+                Set by fit.
+            """
+            def __init__(self, data):
+                data.stack_rows(1)
+            def fit(self):
+                self.estimate_ = compute()
+                return self
+        Model(1).fit().estimate_.stack_rows(2)
+    '''
+    hits = found(query, code)
+    # numpydoc's guide (from memory): a class's docstring documents its constructor's parameters
+    # and, under Attributes, its attributes.
+    assert at(hits, 16, "T-STACK") == "resolved"
+    assert at(hits, 20, "T-STACK") == "resolved"

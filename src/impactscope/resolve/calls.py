@@ -141,7 +141,7 @@ class Calls(Walk):
             if returned is not None:
                 return Inst(returned)
             if self.q.model.is_class(func.name):
-                return Inst(func.name)
+                return Inst(self.q.model.canonical(func.name))
             items = self.q.model.items(func.name)
             if items is not None:
                 return Items(name="builtins.list()", cls=items)

@@ -8,7 +8,7 @@ from typing import Sequence
 
 import libcst as cst
 
-from impactscope.resolve.docstrings import documented_types
+from impactscope.resolve.docstrings import DocumentedTypes, documented_types
 from impactscope.resolve.scopes import Scope
 from impactscope.resolve.values import (
     UNKNOWN,
@@ -67,23 +67,21 @@ class Definitions(Walk):
             returns_decl = self.annotation(node.returns.annotation, scope, record=True)
         else:
             returns_decl = None
-        docstring = node.get_docstring(clean=True)
-        if docstring:
-            # Types the docstring documents stand where no annotation is given.
-            documented = documented_types(docstring)
-            for p in all_params(params):
-                text = documented.params.get(p.name.value)
-                if text is not None and p.annotation is None and id(p) not in starred:
-                    if (t := self.documented(text, scope)) is not None:
-                        declared[p.name.value] = t
-            if returns_decl is None and documented.returns is not None:
-                returns_decl = self.documented(documented.returns, scope)
+        # Types the docstring documents stand where no annotation is given.
+        by_doc, returns_doc = self._docstring_types(node, scope)
+        for p in all_params(params):
+            if p.name.value in by_doc and p.annotation is None and id(p) not in starred:
+                declared[p.name.value] = by_doc[p.name.value]
+        if returns_decl is None:
+            returns_decl = returns_doc
         func = UserFunc(
             node=node, scope=scope, owner=scope.owner if scope.kind == "class" else None, kind=kind, cell=self.at.cell,
             home=self, top=self.at.top, declared=declared, returns_decl=returns_decl,
             passed={k: v for k, v in defaults.items() if is_library(v)},
         )
         scope.function_home().pending.append(func)
+        if scope.function_home() is self.scope:
+            self.functions.append(func)
         self.bind(scope, node.name.value, UNKNOWN if wrapped_by_library else func)
 
     def class_def(self, node: cst.ClassDef, scope: Scope) -> None:
@@ -100,6 +98,13 @@ class Definitions(Walk):
         for kw in node.keywords:
             self.expr(kw.value, scope)
         cls = UserClass(name=node.name.value, lib_bases=tuple(lib_bases), user_bases=tuple(user_bases))
+        if docstring := node.get_docstring(clean=True):
+            documented = documented_types(docstring)
+            cls.init_documented.update(documented.params)
+            for name, text in documented.attributes.items():
+                # As `self.name = <value>` would: what the methods assign joins it.
+                if (t := self.documented(text, scope)) is not None:
+                    cls.attrs[name] = t
         body = Scope("class", scope, owner=cls)
         self.suite(node.body, body)
         cls.members.update(body.names)
@@ -155,13 +160,26 @@ class Definitions(Walk):
         if isinstance(expr, (cst.Name, cst.Attribute)):
             value = self.expr(expr, scope, record=record, context="annotation")
             if isinstance(value, Lib):
-                return Inst(value.name)
+                # One spelling per class, so that two paths' values join as one class.
+                return Inst(self.q.model.canonical(value.name))
             if isinstance(value, UserClass):
                 return UserInst(value)
             return None
         if record:
             self.expr(expr, scope)
         return None
+
+    def _docstring_types(self, node: cst.FunctionDef, scope: Scope) -> tuple[dict[str, Value], Value | None]:
+        """The parameter and return types a function's docstring documents; for `__init__`, also
+        the parameters its class's docstring documents (numpydoc's place for them)."""
+        docstring = node.get_docstring(clean=True)
+        documented = documented_types(docstring) if docstring else DocumentedTypes()
+        texts = dict(documented.params)
+        if scope.kind == "class" and scope.owner is not None and node.name.value == "__init__":
+            texts = {**scope.owner.init_documented, **texts}
+        params = {name: t for name, text in texts.items() if (t := self.documented(text, scope)) is not None}
+        returns = self.documented(documented.returns, scope) if documented.returns is not None else None
+        return params, returns
 
     def documented(self, text: str, scope: Scope) -> Value | None:
         """The instance type a docstring's dotted type name declares: read as an annotation would be
@@ -180,7 +198,7 @@ class Definitions(Walk):
         tops = sorted(self.q.tops)
         candidates = [text] if head in tops else [] if rest else [f"{top}.{text}" for top in tops]
         classes = [c for c in candidates if self.q.model.is_class(c)]
-        return Inst(classes[0]) if len(classes) == 1 else None
+        return Inst(self.q.model.canonical(classes[0])) if len(classes) == 1 else None
 
     def returns_of(self, func: UserFunc, given: dict[str, Value] | None = None) -> Value:
         """What a call returns. A body not run yet is read quietly now, with the bindings of the
@@ -232,8 +250,13 @@ class Definitions(Walk):
         # records its references.
         quiet = not record or func.home is not self
         read_with = dict(func.passed)
-        with self._standing(replace(self.at, cell=func.cell, top=func.top)), self._quietly(quiet):
-            result = self._run_body(func)
+        recording = not quiet and not self._quiet
+        self._recording += recording
+        try:
+            with self._standing(replace(self.at, cell=func.cell, top=func.top)), self._quietly(quiet):
+                result = self._run_body(func)
+        finally:
+            self._recording -= recording
         func.returns, func.read_with = result, read_with
         # A quiet reading changes nothing about the recorded run still to come.
         func.state = "done" if not quiet and not self._quiet else previous_state

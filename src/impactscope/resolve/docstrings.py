@@ -4,11 +4,13 @@ Most data-science code declares its types in docstrings rather than annotations.
 are read, as their own guides define them:
 
 - numpydoc ("Docstring standard", numpydoc.readthedocs.io): a `Parameters` / `Other Parameters`
-  / `Returns` section, its title underlined with dashes, one `name : type` line per entry;
+  / `Returns` / `Attributes` section, its title underlined with dashes, one `name : type` line per
+  entry (a class's docstring documents its constructor's parameters and its attributes);
 - Sphinx info fields (Sphinx docs, "Info field lists"): `:type name: T`, `:param T name:`,
   `:rtype: T`; epydoc's `@type name: T` and `@rtype: T` too (jedi reads these the same way);
 - Google style (Sphinx's napoleon extension, "Example Google Style Python Docstrings"): an
-  `Args:` / `Arguments:` / `Parameters:` section of `name (T): text` lines, `Returns:` with `T: text`.
+  `Args:` / `Arguments:` / `Parameters:` / `Attributes:` section of `name (T): text` lines, and
+  `Returns:` with `T: text`.
 
 Only a type that names exactly one class is kept (`pd.DataFrame`, `pandas.DataFrame, optional`,
 `DataFrame, default None`): `pd.Series or np.ndarray`, `list of DataFrame` and `array_like` say
@@ -25,6 +27,7 @@ _DOTTED = re.compile(r"[A-Za-z_]\w*(?:\.[A-Za-z_]\w*)*")
 _NAME = re.compile(r"\*{0,2}[A-Za-z_]\w*")
 _NUMPY_PARAMS = frozenset({"parameters", "other parameters", "params", "arguments"})
 _NUMPY_RETURNS = frozenset({"returns", "return"})
+_ATTRIBUTES = frozenset({"attributes"})
 _GOOGLE_PARAMS = frozenset({"args", "arguments", "parameters", "params", "keyword args", "keyword arguments",
                             "other parameters"})
 _GOOGLE_RETURNS = frozenset({"returns", "return"})
@@ -42,6 +45,7 @@ class DocumentedTypes:
 
     params: Mapping[str, str] = field(default_factory=dict)
     returns: str | None = None
+    attributes: Mapping[str, str] = field(default_factory=dict)  # a class's (numpydoc, Google)
 
 
 def single_type(text: str) -> str | None:
@@ -70,21 +74,23 @@ def documented_types(docstring: str) -> DocumentedTypes:
     lines = docstring.expandtabs().splitlines()
     params: dict[str, str] = {}
     returns: list[str] = []
-    _numpydoc(lines, params, returns)
+    attributes: dict[str, str] = {}
+    _numpydoc(lines, params, returns, attributes)
     _fields(lines, params, returns)
-    _google(lines, params, returns)
+    _google(lines, params, returns, attributes)
     kept = {name: t for name, raw in params.items() if (t := single_type(raw)) is not None}
     # Layouts that disagree say nothing; a section listing several values (a tuple) gave "".
     found = {single_type(r) for r in returns}
     ret = found.pop() if len(found) == 1 else None
-    return DocumentedTypes(params=kept, returns=ret)
+    attrs = {name: t for name, raw in attributes.items() if (t := single_type(raw)) is not None}
+    return DocumentedTypes(params=kept, returns=ret, attributes=attrs)
 
 
 def _indent(line: str) -> int:
     return len(line) - len(line.lstrip())
 
 
-def _numpydoc(lines: list[str], params: dict[str, str], returns: list[str]) -> None:
+def _numpydoc(lines: list[str], params: dict[str, str], returns: list[str], attributes: dict[str, str]) -> None:
     i = 0
     while i + 1 < len(lines):
         title = lines[i].strip().lower()
@@ -93,7 +99,8 @@ def _numpydoc(lines: list[str], params: dict[str, str], returns: list[str]) -> N
             i += 1
             continue
         base = _indent(lines[i])
-        kind = "params" if title in _NUMPY_PARAMS else "returns" if title in _NUMPY_RETURNS else None
+        kind = ("params" if title in _NUMPY_PARAMS else "returns" if title in _NUMPY_RETURNS
+                else "attributes" if title in _ATTRIBUTES else None)
         i += 2
         entries: list[str] = []
         while i < len(lines):
@@ -103,14 +110,15 @@ def _numpydoc(lines: list[str], params: dict[str, str], returns: list[str]) -> N
             if line.strip() and _indent(line) <= base:
                 entries.append(line.strip())
             i += 1
-        if kind == "params":
+        if kind in ("params", "attributes"):
+            into = params if kind == "params" else attributes
             for entry in entries:
                 names, sep, type_text = entry.partition(":")
                 if not sep:
                     continue
                 for name in (n.strip() for n in names.split(",")):
                     if _NAME.fullmatch(name):
-                        params.setdefault(name.lstrip("*"), type_text.strip())
+                        into.setdefault(name.lstrip("*"), type_text.strip())
         elif kind == "returns" and len(entries) > 1:
             returns.append("")  # several values: a tuple, typed item by item
         elif kind == "returns":
@@ -142,12 +150,12 @@ _GOOGLE_ENTRY = re.compile(r"^\*{0,2}([A-Za-z_]\w*)\s*\(([^()]*(?:\([^()]*\)[^()
 _GOOGLE_RETURN = re.compile(r"^([^:\s][^:]*?):(?:\s|$)")
 
 
-def _google(lines: list[str], params: dict[str, str], returns: list[str]) -> None:
+def _google(lines: list[str], params: dict[str, str], returns: list[str], attributes: dict[str, str]) -> None:
     i = 0
     while i < len(lines):
         stripped = lines[i].strip()
         title = stripped[:-1].lower() if stripped.endswith(":") else None
-        if title not in _GOOGLE_PARAMS and title not in _GOOGLE_RETURNS:
+        if title not in _GOOGLE_PARAMS and title not in _GOOGLE_RETURNS and title not in _ATTRIBUTES:
             i += 1
             continue
         base = _indent(lines[i])
@@ -158,9 +166,10 @@ def _google(lines: list[str], params: dict[str, str], returns: list[str]) -> Non
             i += 1
         entry_indent = min((_indent(b) for b in body if b.strip()), default=0)
         entries = [b.strip() for b in body if b.strip() and _indent(b) == entry_indent]
-        if title in _GOOGLE_PARAMS:
+        if title in _GOOGLE_PARAMS or title in _ATTRIBUTES:
+            into = params if title in _GOOGLE_PARAMS else attributes
             for entry in entries:
                 if m := _GOOGLE_ENTRY.match(entry):
-                    params.setdefault(m.group(1), m.group(2))
+                    into.setdefault(m.group(1), m.group(2))
         elif len(entries) == 1 and (m := _GOOGLE_RETURN.match(entries[0])):
             returns.append(m.group(1))

@@ -291,7 +291,7 @@ class Expressions(Walk):
             sub = f"{receiver.name}.{attr}"
             if self.is_project_module(sub):
                 return ProjMod(sub), ""
-            return self.project.export(receiver.name, attr), ""
+            return self.export_of(receiver.name, attr), ""
         if isinstance(receiver, (UserClass, UserInst)):
             cls = receiver if isinstance(receiver, UserClass) else receiver.cls
             found = cls.lookup(attr)

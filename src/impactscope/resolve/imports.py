@@ -33,6 +33,8 @@ class ProjectView(Protocol):
 
     def is_module(self, dotted: str) -> bool: ...
 
+    def is_partial(self, module: str) -> bool: ...
+
 
 class Imports(Walk):
     def import_stmt(self, s: cst.Import, scope: Scope) -> None:
@@ -114,7 +116,7 @@ class Imports(Walk):
                         self.result.uses_library = True
                     value: Value = ProjMod(sub)
                 else:
-                    value = self.project.export(project_mod, name)
+                    value = self.export_of(project_mod, name)
                 self.assign(alias.asname.name if alias.asname else alias.name, value, scope)
             return
         if isinstance(s.names, cst.ImportStar):

@@ -82,6 +82,11 @@ class ProjectResolver:
     def is_module(self, dotted: str) -> bool:
         return dotted in self._index or dotted in self._namespaces
 
+    def is_partial(self, module: str) -> bool:
+        """Whether the module is still running (an import cycle): what it binds is not all known."""
+        path = self._index.get(module)
+        return path is not None and path in self._running
+
     def export(self, module: str, name: str) -> Value:
         if f"{module}.{name}" in self._index:
             return ProjMod(f"{module}.{name}")
@@ -188,6 +193,19 @@ class ProjectResolver:
 
     def _resume(self) -> None:
         """Read again the bodies that calls from other modules sent back (each at most once)."""
+        for evaluator in self._evaluators.values():
+            if not evaluator.met_partial:
+                continue
+            # The first reading saw an import cycle half-run, which a body never does when it is
+            # called: every function of the module is read again, its first reading dropped.
+            evaluator.met_partial = False
+            inside: set[int] = set()
+            for func in evaluator.functions:
+                if func.state == "done":
+                    inside |= _descendants(func.node.body)  # its decorators and annotations stay
+                    func.state, func.returns = "pending", None
+                    evaluator.scope.pending.append(func)
+            evaluator.result.refs[:] = [r for r in evaluator.result.refs if id(r.node) not in inside]
         for _ in range(3):
             resumed = False
             for path, evaluator in list(self._evaluators.items()):
@@ -291,3 +309,14 @@ def _strongest(findings: set[Finding]) -> list[Finding]:
         if key not in best or f.confidence > best[key].confidence:
             best[key] = f
     return sorted(best.values())
+
+
+def _descendants(node: cst.CSTNode) -> set[int]:
+    """The ids of `node` and every node under it."""
+    found: set[int] = set()
+    stack = [node]
+    while stack:
+        n = stack.pop()
+        found.add(id(n))
+        stack.extend(n.children)
+    return found

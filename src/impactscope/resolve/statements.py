@@ -157,7 +157,7 @@ class Statements(Walk):
         cls = self.expr(test.args[1].value, scope, record=False)
         name = test.args[0].value.value
         if isinstance(cls, Lib) and self.q.model.kind(cls.name) in ("class", None):
-            return name, Inst(cls.name)
+            return name, Inst(self.q.model.canonical(cls.name))
         if isinstance(cls, UserClass):
             return name, UserInst(cls)
         return None
@@ -192,7 +192,7 @@ class Statements(Walk):
             for keyword in node.kwds:
                 self.pattern(keyword.pattern, scope)
             if isinstance(cls, Lib):
-                return Inst(cls.name)
+                return Inst(self.q.model.canonical(cls.name))
             if isinstance(cls, UserClass):
                 return UserInst(cls)
             return UNKNOWN

@@ -134,6 +134,8 @@ class UserClass:
     user_bases: tuple["UserClass", ...]
     members: dict[str, "Value"] = field(default_factory=dict)
     attrs: dict[str, "Value"] = field(default_factory=dict)
+    # Constructor parameters' types the class docstring documents (numpydoc puts them there).
+    init_documented: dict[str, str] = field(default_factory=dict)
 
     def lookup(self, attr: str) -> "Value | None":
         """A member defined by this class or a user-defined ancestor; None if not user-defined."""

@@ -12,6 +12,7 @@ from impactscope.resolve.query import Query
 from impactscope.resolve.receivers import Receiver
 from impactscope.resolve.refs import CallShape, Cursor, ModuleResult, Ref
 from impactscope.resolve.scopes import Scope
+from impactscope.resolve.values import UNKNOWN, UserFunc, Value
 
 if TYPE_CHECKING:
     from impactscope.resolve.imports import ProjectView
@@ -34,6 +35,12 @@ class Walk:
         self.scope = Scope("module", None)
         self.at = Cursor()
         self._quiet = 0  # > 0 while a body is read only to learn what it returns
+        self._recording = 0  # how many function bodies are being read and recorded
+        # Whether a recorded body met a module of an import cycle still running: then the
+        # module's functions are read once more when every module has run (Python runs a body
+        # only when it is called, by then the cycle is complete).
+        self.met_partial = False
+        self.functions: list[UserFunc] = []  # the module's functions and methods, in order
 
     def _ref(
         self, node: cst.CSTNode, context: str, *, name: str | None = None, attr: str | None = None,
@@ -46,6 +53,13 @@ class Walk:
         if not self._quiet:
             self.result.refs.append(ref)
         return ref
+
+    def export_of(self, module: str, name: str) -> Value:
+        """What a project module binds to `name`, noting a reading that met a module still running."""
+        value = self.project.export(module, name)
+        if value is UNKNOWN and self._recording and self.project.is_partial(module):
+            self.met_partial = True
+        return value
 
     @contextmanager
     def _standing(self, at: Cursor) -> Iterator[None]:
