@@ -109,6 +109,8 @@ def test_google_layout() -> None:
     ("list of pd.DataFrame", None),
     ("array_like, shape (n,)", "array_like"),  # a name, though no class: the resolver drops it
     ("{'a', 'b'}", None),
+    ("class", None),  # a keyword cannot be a type's name (found on numpy's own docstrings)
+    ("np.lambda", None),
     ("", None),
 ])
 def test_single_type(text: str, expected: str | None) -> None:

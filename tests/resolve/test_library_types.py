@@ -951,3 +951,22 @@ def test_a_class_docstring_types_attributes_and_constructor_parameters(query: Qu
     # and, under Attributes, its attributes.
     assert at(hits, 16, "T-STACK") == "resolved"
     assert at(hits, 20, "T-STACK") == "resolved"
+
+
+@settings(max_examples=60, deadline=None)
+@given(type_text=st.text(alphabet=st.sampled_from("abcdeflmsT._ ,|()`:~-"), max_size=24)
+       | st.sampled_from(["class", "lambda", "None", "match", "hf.class", "async.Table"]))
+def test_any_documented_type_text_reads_without_error(query: Query, type_text: str) -> None:
+    code = f'''
+        import heronframe as hf
+        def f(x):
+            """Do.
+
+            Parameters
+            ----------
+            x : {type_text}
+            """
+            x.stack_rows(1)
+    '''
+    hits = found(query, code)
+    assert at(hits, 9, "T-STACK") is not None  # the upper bound holds whatever the docstring says

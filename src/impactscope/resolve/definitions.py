@@ -186,8 +186,12 @@ class Definitions(Walk):
         (quietly: a docstring uses nothing), else through the library's top-level modules when its
         head is bound to nothing here (`pandas.DataFrame` in a module that imports `pandas as pd`,
         or a bare `DataFrame` that exactly one top-level module defines as a class)."""
+        try:
+            expr = cst.parse_expression(text)
+        except cst.ParserSyntaxError:
+            return None  # a soft keyword or a name of another Python version: not a type here
         with self._quietly(True):
-            value = self.annotation(cst.parse_expression(text), scope, record=False)
+            value = self.annotation(expr, scope, record=False)
         if isinstance(value, Inst) and self.q.model.knows_kinds and not self.q.model.is_class(value.cls):
             return None  # `hf.read_table`: a function named where a type was meant
         if value is not None:

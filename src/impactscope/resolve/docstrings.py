@@ -19,6 +19,7 @@ nothing one can act on, so they are dropped rather than guessed at.
 
 from __future__ import annotations
 
+import keyword
 import re
 from dataclasses import dataclass, field
 from typing import Mapping
@@ -66,6 +67,8 @@ def single_type(text: str) -> str | None:
     kept = [a.lstrip("~!") for a in alternatives if a and not _QUALIFIERS.fullmatch(a)]
     if len(kept) != 1 or not _DOTTED.fullmatch(kept[0]):
         return None
+    if any(keyword.iskeyword(part) for part in kept[0].split(".")):
+        return None  # "class", "lambda": words, not a name one could import
     return kept[0]
 
 
