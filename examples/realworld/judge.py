@@ -633,7 +633,7 @@ def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict
         facts_of = {f: FileFacts.of(ast.Module(body=[s for t in trees for s in t.body], type_ignores=[]))
                     for f, trees in per_file.items()}
         from_library = {name for facts in facts_of.values() for name, kinds in facts.bindings.items()
-                        if any(k.startswith(f"from:{lib.name}") for k in kinds)}
+                        if any(k.startswith(f"from:{lib.package}") for k in kinds)}
         for facts in facts_of.values():
             facts.project_from_library = from_library
         for src in sources:
@@ -660,7 +660,7 @@ def prepass(corpus: Corpus, lib: Library, work: Path) -> dict[Key, tuple[Verdict
                     if facts is None or occ.role == "other":
                         verdict = Verdict("todo", "")
                     else:
-                        verdict = judge_occurrence(occ, change, lib.name, facts, new)
+                        verdict = judge_occurrence(occ, change, lib.package, facts, new)
                         if (verdict.verdict == "todo" and occ.role == "attr" and change["member"].endswith(".append")
                                 and isinstance(occ.node, ast.Attribute) and isinstance(occ.node.value, ast.Name)
                                 and list_in_scope(src.tree, parents_of(src), occ.node.value)):

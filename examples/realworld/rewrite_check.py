@@ -36,10 +36,11 @@ HERE = Path(__file__).resolve().parent
 IMPACTSCOPE = [sys.executable, "-c", "from impactscope.cli import main; main()"]
 
 
-def _libraries() -> dict[str, tuple[str, Path]]:
-    """Library name -> (its old version, its change list), from corpus.toml."""
+def _libraries() -> dict[str, tuple[str, Path, str]]:
+    """Library name -> (its old version, its change list, its import name), from corpus.toml."""
     corpus = tomllib.loads((HERE / "corpus.toml").read_text(encoding="utf-8"))
-    return {lib["name"]: (lib["old"]["version"], HERE / lib["changes"]) for lib in corpus["library"]}
+    return {lib["name"]: (lib["old"]["version"], HERE / lib["changes"], lib.get("module", lib["name"]))
+            for lib in corpus["library"]}
 
 
 def _cells_that_parse(data: bytes, name: str) -> set[int | None]:
@@ -66,8 +67,8 @@ def _patched_paths(patch: Path) -> list[str]:
             for entry in listed.stdout.split(b"\0") if entry.count(b"\t") >= 2]
 
 
-def check(work: Path, library: str, version: str, changes: Path, jobs: int) -> dict[str, object]:
-    source = work / "library" / f"{library}-{version}" / library
+def check(work: Path, library: str, version: str, changes: Path, jobs: int, module: str) -> dict[str, object]:
+    source = work / "library" / f"{library}-{version}" / module
     root = work / "projects" / library
     base = work / "rewrite" / library
     shutil.rmtree(base, ignore_errors=True)
@@ -139,10 +140,10 @@ def main() -> None:
     parser.add_argument("--library", help="only this library")
     parser.add_argument("--jobs", type=int, default=1)
     args = parser.parse_args()
-    for library, (version, changes) in _libraries().items():
+    for library, (version, changes, module) in _libraries().items():
         if args.library and library != args.library:
             continue
-        figures = check(args.work, library, version, changes, args.jobs)
+        figures = check(args.work, library, version, changes, args.jobs, module)
         print(json.dumps(figures))
 
 

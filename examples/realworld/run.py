@@ -29,7 +29,7 @@ import tarfile
 import time
 import tomllib
 import zipfile
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 
 import nbformat
@@ -51,6 +51,11 @@ class Library:
     new: DistFile
     platform: str | None
     stubs: DistFile | None = None  # a stub package for `old` (pandas-stubs), read with its source
+    module: str = ""  # the top-level import name when it differs from the distribution's (sklearn)
+
+    @property
+    def package(self) -> str:
+        return self.module or self.name
 
 
 @dataclass(frozen=True)
@@ -72,7 +77,8 @@ def load_corpus(path: Path = HERE / "corpus.toml") -> Corpus:
         )
         stubs = entry.get("stubs")
         stub_dist = None if stubs is None else DistFile(stubs["name"], stubs["version"], stubs["file"], "wheel", stubs["sha256"])
-        libraries.append(Library(name, HERE / entry["changes"], old, new, entry["old"].get("platform"), stub_dist))
+        libraries.append(Library(name, HERE / entry["changes"], old, new, entry["old"].get("platform"), stub_dist,
+                                 entry.get("module", "")))
     projects = tuple(
         (p["library"], DistFile(p["name"], p["version"], p["file"], p["kind"], p["sha256"], uploaded=p["uploaded"]))
         for p in data["project"]
@@ -83,8 +89,10 @@ def load_corpus(path: Path = HERE / "corpus.toml") -> Corpus:
 # ------------------------------------------------------------------ fetch and unpack
 
 
-def cmd_fetch(corpus: Corpus, work: Path) -> None:
+def cmd_fetch(corpus: Corpus, work: Path, only: str | None = None) -> None:
     for lib in corpus.libraries:
+        if only and lib.name != only:
+            continue
         for dist in (lib.old, lib.new):
             fetch(dist, work / "dist" / "library", platform=lib.platform)
             print(f"library {dist.filename}")
@@ -146,16 +154,18 @@ def unpack(archive: Path, target: Path, strip_top: bool) -> None:
 
 def stubs_dir(work: Path, lib: Library) -> Path:
     assert lib.stubs is not None
-    return work / "library" / f"{lib.stubs.name}-{lib.stubs.version}" / f"{lib.name}-stubs"
+    return work / "library" / f"{lib.stubs.name}-{lib.stubs.version}" / f"{lib.package}-stubs"
 
 
 def library_source(work: Path, lib: Library, which: str = "old") -> Path:
     dist = lib.old if which == "old" else lib.new
-    return work / "library" / f"{lib.name}-{dist.version}" / lib.name
+    return work / "library" / f"{lib.name}-{dist.version}" / lib.package
 
 
-def cmd_unpack(corpus: Corpus, work: Path) -> None:
+def cmd_unpack(corpus: Corpus, work: Path, only: str | None = None) -> None:
     for lib in corpus.libraries:
+        if only and lib.name != only:
+            continue
         for dist in (lib.old, lib.new):
             unpack(work / "dist" / "library" / dist.filename, work / "library" / f"{lib.name}-{dist.version}", False)
         if lib.stubs is not None:
@@ -246,6 +256,9 @@ class Surface:
     stars: dict[str, tuple[str, ...]]  # module -> modules it star-imports
     classes: dict[str, tuple[frozenset[str], tuple[str, ...]]]  # simple name -> (members, base simple names)
     functions: dict[str, frozenset[str]]  # simple name -> parameter names, deprecated keyword names too
+    # class simple name -> its own __init__'s parameter names (a parameter change on a class is one
+    # on the constructor it calls: its own __init__, else the first base's that defines one)
+    inits: dict[str, frozenset[str]] = field(default_factory=dict)
 
     def binds(self, module: str, name: str, seen: frozenset[str] = frozenset()) -> bool:
         if module in seen or module not in self.names:
@@ -265,6 +278,7 @@ def read_surface(package: Path) -> Surface:
     stars: dict[str, list[str]] = {}
     classes: dict[str, tuple[set[str], list[str]]] = {}
     functions: dict[str, set[str]] = {}
+    inits: dict[str, set[str]] = {}
     for path in package.rglob("*.py"):
         rel = path.relative_to(package.parent).with_suffix("")
         if "tests" in rel.parts:
@@ -290,8 +304,14 @@ def read_surface(package: Path) -> Surface:
                     else:
                         bound.add(alias.asname or alias.name)
             if isinstance(node, ast.FunctionDef) and node.name == "__getattr__":
-                # PEP 562 module __getattr__: the names it compares against still resolve.
-                bound.update(c.value for c in ast.walk(node) if isinstance(c, ast.Constant) and isinstance(c.value, str))
+                # PEP 562 module __getattr__: the names it compares against still resolve, except
+                # those whose branch always ends in `raise` (scikit-learn 1.2's load_boston raises
+                # ImportError with a migration message: the name is gone, only explained).
+                raising = {c.value for branch in ast.walk(node) if isinstance(branch, ast.If)
+                           and isinstance(branch.body[-1], ast.Raise)
+                           for c in ast.walk(branch.test) if isinstance(c, ast.Constant) and isinstance(c.value, str)}
+                bound.update(c.value for c in ast.walk(node) if isinstance(c, ast.Constant) and isinstance(c.value, str)
+                             and c.value not in raising)
         for node in ast.walk(tree):
             if isinstance(node, ast.ClassDef):
                 members, bases = classes.setdefault(node.name, (set(), []))
@@ -300,6 +320,9 @@ def read_surface(package: Path) -> Surface:
                 for item in node.body:
                     if isinstance(item, (ast.FunctionDef, ast.AsyncFunctionDef)):
                         members.add(item.name)
+                        if item.name == "__init__":
+                            a = item.args
+                            inits.setdefault(node.name, set()).update(x.arg for x in a.posonlyargs + a.args + a.kwonlyargs)
                     elif isinstance(item, ast.Assign):
                         members.update(t.id for t in item.targets if isinstance(t, ast.Name))
             if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
@@ -313,7 +336,7 @@ def read_surface(package: Path) -> Surface:
                                       if k.arg == "old_arg_name" and isinstance(k.value, ast.Constant))
     return Surface({k: frozenset(v) for k, v in names.items()}, {k: tuple(v) for k, v in stars.items()},
                    {k: (frozenset(m), tuple(b)) for k, (m, b) in classes.items()},
-                   {k: frozenset(v) for k, v in functions.items()})
+                   {k: frozenset(v) for k, v in functions.items()}, {k: frozenset(v) for k, v in inits.items()})
 
 
 def _class_has(surface: Surface, cls: str, name: str, seen: frozenset[str] = frozenset()) -> bool:
@@ -323,9 +346,26 @@ def _class_has(surface: Surface, cls: str, name: str, seen: frozenset[str] = fro
     return name in members or any(_class_has(surface, b, name, seen | {cls}) for b in bases)
 
 
+def _init_params(surface: Surface, cls: str, seen: frozenset[str] = frozenset()) -> frozenset[str] | None:
+    """The parameters of the first __init__ on the class's bases, depth first (left to right, as the MRO
+    of single-inheritance chains and mixins without __init__ resolves it); None when none is found."""
+    if cls in seen or cls not in surface.classes:
+        return None
+    if cls in surface.inits:
+        return surface.inits[cls]
+    for base in surface.classes[cls][1]:
+        found = _init_params(surface, base, seen | {cls})
+        if found is not None:
+            return found
+    return None
+
+
 def member_present(surface: Surface, change: dict) -> bool:
     parts = change["member"].split(".")
     if change["kind"] in ("parameter-removed", "parameter-renamed", "default-changed"):
+        if parts[-1] in surface.classes:  # a class: the parameter of the __init__ its calls reach
+            init = _init_params(surface, parts[-1])
+            return init is not None and change["parameter"] in init
         return change["parameter"] in surface.functions.get(parts[-1], frozenset())
     dotted = ".".join(parts)
     if dotted in surface.names:
@@ -336,10 +376,12 @@ def member_present(surface: Surface, change: dict) -> bool:
     return len(parts) > 2 and _class_has(surface, parts[-2], parts[-1])
 
 
-def cmd_verify(corpus: Corpus, work: Path) -> int:
+def cmd_verify(corpus: Corpus, work: Path, only: str | None = None) -> int:
     """Each change's member is in the old release's source and gone from the new one's."""
     bad = 0
     for lib in corpus.libraries:
+        if only and lib.name != only:
+            continue
         old = read_surface(library_source(work, lib, "old"))
         new = read_surface(library_source(work, lib, "new"))
         for change in changes_of(lib):
@@ -383,10 +425,12 @@ def sources_of(project: Path):
                     yield rel, index, cell.source
 
 
-def cmd_candidates(corpus: Corpus, work: Path) -> None:
+def cmd_candidates(corpus: Corpus, work: Path, only: str | None = None) -> None:
     out_dir = work / "candidates"
     out_dir.mkdir(parents=True, exist_ok=True)
     for lib in corpus.libraries:
+        if only and lib.name != only:
+            continue
         changes = changes_of(lib)
         words = {c["id"]: re.compile(rf"\b{re.escape(candidate_word(c))}\b") for c in changes}
         rows = []
@@ -415,15 +459,15 @@ def main() -> int:
     corpus = load_corpus()
     work = args.work.resolve()
     if args.step in ("fetch", "all"):
-        cmd_fetch(corpus, work)
+        cmd_fetch(corpus, work, args.library)
     if args.step in ("unpack", "all"):
-        cmd_unpack(corpus, work)
+        cmd_unpack(corpus, work, args.library)
     if args.step == "verify":
-        return cmd_verify(corpus, work)
+        return cmd_verify(corpus, work, args.library)
     if args.step in ("scan", "all"):
         cmd_scan(corpus, work, args.jobs, args.archives, args.library, args.tool_src)
     if args.step in ("candidates", "all"):
-        cmd_candidates(corpus, work)
+        cmd_candidates(corpus, work, args.library)
     if args.step in ("score", "all"):
         import score
 

@@ -179,3 +179,49 @@ def test_scores_count_sites_once_at_their_strongest_confidence():
     assert fig.any_recall == pytest.approx(2 / 3)
     assert fig.possible_share == 1.0  # k(2); k(9) has no verdict
     assert unjudged == [k(9)]
+
+
+def test_a_parameter_change_on_a_class_checks_the_init_its_calls_reach(tmp_path):
+    # Python Data Model 3.3.1, object.__init__: a class without its own __init__ uses its base's.
+    old = _surface(tmp_path / "old", {
+        "heronframe/__init__.py": ("class _BaseFit:\n    def __init__(self, alpha=1.0, scale='deprecated'): pass\n"
+                                   "class Mixin:\n    pass\n"
+                                   "class FitCV(Mixin, _BaseFit):\n    pass\n"
+                                   "class Fit:\n    def __init__(self, alpha=1.0): pass\n"
+                                   "def scale(x, scale=None): pass\n"),
+    })
+    new = _surface(tmp_path / "new", {
+        "heronframe/__init__.py": "class _BaseFit:\n    def __init__(self, alpha=1.0): pass\nclass FitCV(_BaseFit):\n    pass\n",
+    })
+    inherited = {"member": "heronframe.FitCV", "kind": "parameter-removed", "parameter": "scale"}
+    assert run.member_present(old, inherited) and not run.member_present(new, inherited)
+    # another function's parameter of that name does not make the class take it
+    own = {"member": "heronframe.Fit", "kind": "parameter-removed", "parameter": "scale"}
+    assert not run.member_present(old, own)
+
+
+def test_a_name_whose_module_getattr_branch_raises_is_gone(tmp_path):
+    # PEP 562: a module __getattr__ serves the names it returns; one whose branch ends in `raise`
+    # is not served (it only explains its removal).
+    surface = _surface(tmp_path, {
+        "heronframe/__init__.py": ("def __getattr__(name):\n"
+                                   "    if name == 'old_loader':\n        raise ImportError('removed in 3.0')\n"
+                                   "    if name == 'lazy_table':\n        return 1\n"
+                                   "    raise AttributeError(name)\n"),
+    })
+    assert not run.member_present(surface, {"member": "heronframe.old_loader", "kind": "removed"})
+    assert run.member_present(surface, {"member": "heronframe.lazy_table", "kind": "removed"})
+
+
+def test_a_library_whose_import_name_differs_reads_its_source_under_that_name(tmp_path):
+    # common practice: a distribution's name and its import name may differ (scikit-learn / sklearn)
+    corpus_file = tmp_path / "corpus.toml"
+    corpus_file.write_text(
+        '[[library]]\nname = "heron-frame"\nmodule = "heronframe"\nchanges = "c.toml"\n'
+        'old = { version = "2.4", file = "heron_frame-2.4-py3-none-any.whl", sha256 = "00" }\n'
+        'new = { version = "3.0", file = "heron_frame-3.0-py3-none-any.whl", sha256 = "11" }\n'
+        '[[project]]\nlibrary = "heron-frame"\nname = "p"\nversion = "1"\nkind = "wheel"\nfile = "p-1-py3-none-any.whl"\n'
+        'sha256 = "22"\nuploaded = "2020-01-01"\n')
+    (lib,) = run.load_corpus(corpus_file).libraries
+    assert lib.package == "heronframe"
+    assert run.library_source(tmp_path, lib) == tmp_path / "library" / "heron-frame-2.4" / "heronframe"
