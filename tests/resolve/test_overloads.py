@@ -83,3 +83,24 @@ def test_the_first_overload_that_fits_decides_and_open_ones_before_it_join() -> 
     assert select(order, [STR], {}, M) == (TABLE, COLUMN, None)  # only the catch-all fits
     # Nothing fits: nothing is picked, and the caller keeps the join of every overload.
     assert select((first, second), [STR], {}, M) is None
+    # A comprehension or `list(x)`: a list, items unknown; for `Iterable[Table]` it may fit.
+    assert admits(Accepts(items=(TABLE,)), Fact(builtin="list"), M) is Verdict.MAYBE
+    assert admits(Accepts(items=(TABLE,)), Fact(builtin="dict"), M) is Verdict.MAYBE
+
+
+def test_an_overload_an_earlier_one_covers_is_never_the_first_match() -> None:
+    # The shape of pandas 1.5.3's `concat` (read from its source): a Literal axis picks the
+    # class; a wider axis annotation after it gives either. Called with `axis=1` and items nobody
+    # can type, the first overload fits whenever the second does (same `objs` annotation), so by
+    # PEP 484's first-match rule only the first's outcome is possible.
+    items = Accepts(items=(TABLE, COLUMN))
+    rows = Overload((p("objs", items), p("axis", Accepts(literals=(("int", "0"),)), optional=True)), (TABLE,))
+    cols = Overload((p("objs", items), p("axis", Accepts(literals=(("int", "1"),)))), (TABLE,))
+    wide = Overload((p("objs", items), p("axis", Accepts(builtins=("int", "str")), optional=True)), (TABLE, COLUMN))
+    one = Fact(literal=("int", "1"), builtin="int")
+    assert select((rows, cols, wide), [Fact(builtin="list")], {"axis": one}, M) == (TABLE,)
+    # With `axis` unknown, the Literal overloads are unsure of it too: any of them may match.
+    assert select((rows, cols, wide), [Fact(builtin="list")], {"axis": UNKNOWN_FACT}, M) == (TABLE, COLUMN)
+    # A different annotation on the unsure argument covers nothing.
+    other = Overload((p("objs", Accepts(items=(COLUMN,))), p("axis", Accepts(builtins=("int",)))), (COLUMN,))
+    assert select((cols, other), [Fact(builtin="list")], {"axis": one}, M) == (TABLE, COLUMN)

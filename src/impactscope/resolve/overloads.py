@@ -81,7 +81,13 @@ def admits(accepts: "Accepts", fact: Fact, model: "LibraryModel") -> Verdict:
     if accepts.items and fact.items is not None:
         verdict = _items_admitted(accepts.items, fact.items, model)
         best = max(best, verdict)
+    elif accepts.items and fact.builtin in _CONTAINERS:
+        best = max(best, Verdict.MAYBE)  # a comprehension or `list(x)`: its items are not known
     return best
+
+
+# Builtin containers an `Iterable[X]` (or, for a dict, a `Mapping[K, X]`) may admit, by their items.
+_CONTAINERS = frozenset({"list", "tuple", "set", "frozenset", "dict"})
 
 
 def _items_admitted(wanted: tuple[str, ...], items: tuple[str | None, ...], model: "LibraryModel") -> Verdict:
@@ -100,11 +106,19 @@ def _items_admitted(wanted: tuple[str, ...], items: tuple[str | None, ...], mode
 
 def judge(overload: "Overload", positional: list[Fact], keywords: dict[str, Fact], model: "LibraryModel") -> Verdict:
     """How a call with these arguments (no `*`/`**` unpacking) fits one overload."""
+    return _fit(overload, positional, keywords, model)[0]
+
+
+def _fit(overload: "Overload", positional: list[Fact], keywords: dict[str, Fact],
+         model: "LibraryModel") -> tuple[Verdict, dict[tuple[str, object], "Accepts"]]:
+    """`judge`, with the annotation each argument judged MAYBE met (by argument: `("pos", i)`
+    or `("kw", name)`)."""
     params = overload.parameters
     slots = [p for p in params if p.kind in ("positional-only", "positional-or-keyword")]
     var_pos = next((p for p in params if p.kind == "var-positional"), None)
     var_kw = next((p for p in params if p.kind == "var-keyword"), None)
     verdict = Verdict.YES
+    unsure: dict[tuple[str, object], "Accepts"] = {}
     given: set[str] = set()
     for i, fact in enumerate(positional):
         if i < len(slots):
@@ -113,39 +127,55 @@ def judge(overload: "Overload", positional: list[Fact], keywords: dict[str, Fact
         elif var_pos is not None:
             param = var_pos
         else:
-            return Verdict.NO
-        verdict = min(verdict, admits(param.accepts, fact, model))
+            return Verdict.NO, {}
+        admitted = admits(param.accepts, fact, model)
+        if admitted is Verdict.MAYBE:
+            unsure[("pos", i)] = param.accepts
+        verdict = min(verdict, admitted)
     by_name = {p.name: p for p in params if p.kind in ("positional-or-keyword", "keyword-only")}
     for name, fact in keywords.items():
         param = by_name.get(name)
         if param is None:
             if var_kw is None:
-                return Verdict.NO
+                return Verdict.NO, {}
             param = var_kw
         elif name in given:
-            return Verdict.NO
+            return Verdict.NO, {}
         given.add(name)
-        verdict = min(verdict, admits(param.accepts, fact, model))
+        admitted = admits(param.accepts, fact, model)
+        if admitted is Verdict.MAYBE:
+            unsure[("kw", name)] = param.accepts
+        verdict = min(verdict, admitted)
     for p in params:
         if p.kind in ("var-positional", "var-keyword") or p.optional or p.name in given:
             continue
-        return Verdict.NO  # a required parameter that the call does not pass
-    return verdict
+        return Verdict.NO, {}  # a required parameter that the call does not pass
+    return verdict, unsure
 
 
 def select(overloads: Iterable["Overload"], positional: list[Fact], keywords: dict[str, Fact],
            model: "LibraryModel") -> tuple[str | None, ...] | None:
-    """The outcomes of the overloads the call can match first; None when none fits."""
+    """The outcomes of the overloads the call can match first; None when none fits.
+
+    An overload is left out when an earlier one that may match is sure to match whenever it
+    does: every argument the earlier one is unsure of meets the very same annotation in this one
+    (pandas' `concat(objs: Iterable[NDFrame], axis: Literal[1])` before `concat(objs:
+    Iterable[NDFrame], axis: Axis)`, called with `axis=1` and a list nobody can type).
+    """
     outcomes: list[str | None] = []
     fitted = False
+    earlier: list[dict[tuple[str, object], "Accepts"]] = []
     for overload in overloads:
-        verdict = judge(overload, positional, keywords, model)
+        verdict, unsure = _fit(overload, positional, keywords, model)
         if verdict is Verdict.NO:
             continue
         fitted = True
+        if any(all(unsure.get(arg) == accepts for arg, accepts in before.items()) for before in earlier):
+            continue
         outcomes.extend(overload.outcomes)
         if verdict is Verdict.YES:
             break
+        earlier.append(unsure)
     return tuple(dict.fromkeys(outcomes)) if fitted else None
 
 
