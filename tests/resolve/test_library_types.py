@@ -29,7 +29,7 @@ LIBRARY = {
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
         from heronframe.io import read_table, pick, load, read_all, columns_of, pair, any_shape
-        from heronframe.io import group_rows, group_cells, group_any
+        from heronframe.io import group_rows, group_cells, group_any, combine
         from heronframe import util
     """,
     "heronframe/core/__init__.py": "",
@@ -123,7 +123,7 @@ LIBRARY = {
             pass
     """,
     "heronframe/io.py": """
-        from typing import Iterator, overload, Literal
+        from typing import Iterable, Iterator, overload, Literal
         from heronframe.core.frame import Table
         from heronframe.core.column import Column
         from heronframe.core.base import Shaped
@@ -148,6 +148,18 @@ LIBRARY = {
         def load(path, many: Literal[False] = ...) -> Table: ...
         def load(path, many=False):
             return {} if many else Table()
+
+
+        @overload
+        def combine(parts: Iterable[Table], axis: Literal[0] = ...) -> Table: ...
+        @overload
+        def combine(parts: Iterable[Column], axis: Literal[0] = ...) -> Column: ...
+        @overload
+        def combine(parts: Iterable[Shaped], axis: Literal[1]) -> Table: ...
+        @overload
+        def combine(parts: Iterable[Shaped], axis: int = ...) -> Shaped: ...
+        def combine(parts, axis=0):
+            return Table()
 
 
         def any_shape(path) -> Shaped:
@@ -970,3 +982,28 @@ def test_any_documented_type_text_reads_without_error(query: Query, type_text: s
     '''
     hits = found(query, code)
     assert at(hits, 9, "T-STACK") is not None  # the upper bound holds whatever the docstring says
+
+
+def test_comprehensions_tell_overloads_apart(query: Query) -> None:
+    code = '''
+        import heronframe as hf
+        def f(paths, xs):
+            a = hf.combine([load(x) for x in xs], axis=1)
+            a.stack_rows(1)
+            b = hf.combine([hf.read_table(p) for p in paths])
+            b.stack_rows(2)
+            c = hf.combine([x.kinds for x in xs if isinstance(x, hf.Table)])
+            c.iter_pairs()
+            d = hf.combine(g(x) for x in xs)
+            d.stack_rows(3)
+    '''
+    hits = found(query, code)
+    # PEP 484: the first overload that accepts the call decides. With `axis=1` only the third can
+    # match first: the fourth accepts no `parts` the third refuses (the same annotation).
+    assert at(hits, 4, "T-STACK") == "resolved"
+    # A comprehension's items are what its element gives (the Language Reference, "Displays
+    # for lists, sets and dictionaries"), and an `if` clause filters the items the element sees.
+    assert at(hits, 6, "T-STACK") == "resolved"
+    assert at(hits, 8, "C-PAIRS") == "resolved"
+    # Items nobody can type: any of the four, so no proof; the name still counts.
+    assert at(hits, 10, "T-STACK") not in (None, "resolved")

@@ -37,6 +37,9 @@ from impactscope.resolve.values import (
 from impactscope.resolve.walk import Walk
 
 
+_COMPREHENSIONS = {"ListComp": "list", "SetComp": "set", "DictComp": "dict", "GeneratorExp": "generator"}
+
+
 class Expressions(Walk):
     def expr(
         self, node: cst.BaseExpression, scope: Scope, record: bool = True, context: str = "use",
@@ -80,8 +83,10 @@ class Expressions(Walk):
             self.generic(node, scope)
             return Foreign("literal")
         if isinstance(node, (cst.ListComp, cst.SetComp, cst.DictComp, cst.GeneratorExp)):
-            self.comprehension(node, scope)
-            return Foreign("literal")
+            item = self.comprehension(node, scope)
+            # Every item is what the element gives: a library instance is kept, as in a display,
+            # so that `concat([t.copy() for t in ts], ...)` can tell overloads apart.
+            return Display("literal", _COMPREHENSIONS[type(node).__name__], (item,) if isinstance(item, (Inst, OneOf)) else ())
         if isinstance(node, cst.Lambda):
             self.lambda_expr(node, scope)
             return Foreign("lambda")
@@ -318,7 +323,8 @@ class Expressions(Walk):
             return Foreign(None), ""
         return UNKNOWN, "?"
 
-    def comprehension(self, node: cst.BaseComp, scope: Scope) -> None:
+    def comprehension(self, node: cst.BaseComp, scope: Scope) -> Value:
+        """Read a comprehension; what its element (a dict comprehension's value) gives."""
         inner = Scope("comprehension", scope)
         clause: cst.CompFor | None = node.for_in
         first = True
@@ -328,12 +334,15 @@ class Expressions(Walk):
             self.assign(clause.target, item_of(iterated), inner)
             for cond in clause.ifs:
                 self.expr(cond.test, inner)
+                # The element is computed only for items that pass: `if isinstance(f, T)` narrows.
+                narrowed = self._isinstance(cond.test, inner)  # type: ignore[attr-defined]
+                if narrowed is not None:
+                    inner.names[narrowed[0]] = narrowed[1]
             clause = clause.inner_for_in
         if isinstance(node, cst.DictComp):
             self.expr(node.key, inner)
-            self.expr(node.value, inner)
-        else:
-            self.expr(node.elt, inner)  # type: ignore[attr-defined]
+            return self.expr(node.value, inner)
+        return self.expr(node.elt, inner)  # type: ignore[attr-defined]
 
     def lambda_expr(self, node: cst.Lambda, scope: Scope) -> None:
         for p in (*node.params.posonly_params, *node.params.params, *node.params.kwonly_params):
