@@ -161,3 +161,13 @@ def test_attributes_sections() -> None:
     assert dict(documented_types(numpy_doc).attributes) == {"survival_": "DataFrame", "label": "str"}
     assert dict(documented_types(google_doc).attributes) == {"survival_": "pd.DataFrame", "label": "str"}
     assert not documented_types(numpy_doc).params
+
+
+def test_long_lines_are_prose() -> None:
+    # Lines far longer than any entry (a hostile or generated docstring) are not read as fields,
+    # and reading them stays linear: these would take hours with backtracking patterns.
+    long_field = ":param " + "a " * 100_000
+    long_role = ":type x: " + "a:" * 100_000
+    found = documented_types(f"{long_field}\n{long_role}\n:type y: pd.DataFrame")
+    assert dict(found.params) == {"y": "pd.DataFrame"}
+    assert single_type("a:" * 100_000) is None

@@ -57,6 +57,8 @@ def single_type(text: str) -> str | None:
     >>> single_type("pd.Series or np.ndarray") is None
     True
     """
+    if len(text) > _LONGEST_LINE:
+        return None
     text = _ROLE.sub(r"\1", text).replace("`", "").strip()
     # "pd.DataFrame - MultiIndex": what follows a spaced dash describes the value.
     text = re.split(r"\s+-+\s+", text, maxsplit=1)[0]
@@ -72,9 +74,14 @@ def single_type(text: str) -> str | None:
     return kept[0]
 
 
+# An entry or a type field is a short line; a longer one is prose (or hostile), and the patterns
+# below are not run on it, so no line can make them slow.
+_LONGEST_LINE = 300
+
+
 def documented_types(docstring: str) -> DocumentedTypes:
     """Read the parameter and return types a (cleaned) docstring documents."""
-    lines = docstring.expandtabs().splitlines()
+    lines = [line if len(line) <= _LONGEST_LINE else "" for line in docstring.expandtabs().splitlines()]
     params: dict[str, str] = {}
     returns: list[str] = []
     attributes: dict[str, str] = {}
