@@ -225,3 +225,46 @@ def test_a_library_whose_import_name_differs_reads_its_source_under_that_name(tm
     (lib,) = run.load_corpus(corpus_file).libraries
     assert lib.package == "heronframe"
     assert run.library_source(tmp_path, lib) == tmp_path / "library" / "heron-frame-2.4" / "heronframe"
+
+
+FIT_SCALE = {"id": "fit-scale", "member": "heronframe.models.Fit", "kind": "parameter-removed", "parameter": "scale"}
+
+
+def keyword_verdicts(code: str, change: dict, old: run.Surface) -> list[str]:
+    src = judge.load_source("p", "m.py", None, code)
+    facts = judge.FileFacts.of(src.tree)
+    out = []
+    for occ in judge.occurrences(src, change["parameter"]):
+        if occ.role == "keyword":
+            v = judge.judge_keyword_call(occ.parent, change, "heronframe", facts, old)
+            out.append(v.verdict if v.verdict == "todo" else f"{v.verdict} {v.reason.split(']')[0]}]")
+    return out
+
+
+def test_a_keyword_argument_is_decided_by_the_import_that_binds_the_callee(tmp_path):
+    # Language Reference 7.11 (the import statement): `from a import b` binds b to a.b;
+    # `import a.b` binds a; `import a.b as x` binds x to a.b.
+    old = _surface(tmp_path, {
+        "heronframe/__init__.py": "",
+        "heronframe/models.py": "class Fit:\n    def __init__(self, scale=None): pass\n"
+                                "class FitCV:\n    def __init__(self, scale=None): pass\n"
+                                "def summary(x, scale=None): pass\n",
+    })
+    assert keyword_verdicts("from heronframe.models import Fit as F\nF(scale=1)\n", FIT_SCALE, old) == [
+        "true [keyword-call]"]
+    assert keyword_verdicts("import heronframe.models\nheronframe.models.Fit(scale=1)\n", FIT_SCALE, old) == [
+        "true [keyword-call]"]
+    assert keyword_verdicts("from heronframe import models as m\nm.FitCV(scale=1)\nm.summary(1, scale=2)\n",
+                            FIT_SCALE, old) == ["false [keyword-call]", "false [keyword-call]"]
+    assert keyword_verdicts("import numpy as np\nnp.norm(scale=1)\n", FIT_SCALE, old) == ["false [keyword-call]"]
+
+
+def test_a_keyword_call_the_imports_do_not_decide_goes_to_a_person(tmp_path):
+    old = _surface(tmp_path, {"heronframe/__init__.py": "", "heronframe/models.py": "class Fit:\n    pass\n"})
+    # a private path to the class, a project module, a local value, a name also bound otherwise
+    for code in ("from heronframe.models._impl import Fit\nFit(scale=1)\n",
+                 "from .models import Fit\nFit(scale=1)\n",
+                 "def f(make):\n    make(scale=1)\n",
+                 "from heronframe.models import Fit\nFit = wrap(Fit)\nFit(scale=1)\n",
+                 "from heronframe.models import *\nfrom numpy import Fit\nFit(scale=1)\n"):
+        assert keyword_verdicts(code, FIT_SCALE, old) == ["todo"], code
