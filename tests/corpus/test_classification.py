@@ -78,9 +78,25 @@ def test_vendored_library_needs_init(tmp_path: Path) -> None:
                 "examples/heronframe/demo.py": None, "heronframe.py": None, "heronframe_extra/x.py": None}
     got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files), single=True)
     assert got == {"f": expected, "z": expected}
-    # A tar stream cannot look ahead for __init__.py: the directory name decides.
+    # A tar stream cannot look ahead for __init__.py: the directory name and where it sits decide.
     tarred = projects(write_tar(tmp_path / "t.tgz", files), single=True)["t"]
-    assert tarred["examples/heronframe/demo.py"] == "vendored library"
+    assert tarred["third_party/heronframe/core.py"] == "vendored library"
+    assert tarred["examples/heronframe/demo.py"] is None
+
+
+def test_a_subpackage_named_like_the_library_is_the_projects_own(tmp_path: Path) -> None:
+    # The Language Reference, 5.4 ("Packages") and 5.7 (absolute imports, PEP 328): `hfkit/heronframe/`
+    # with `hfkit/__init__.py` is the module `hfkit.heronframe`; an `import heronframe` never finds
+    # it. A vendor folder (pip's `_vendor`, common practice) keeps copies even when a package.
+    files = {"hfkit/__init__.py": "", "hfkit/heronframe/__init__.py": "", "hfkit/heronframe/utils.py": "",
+             "hfkit/_vendor/__init__.py": "", "hfkit/_vendor/heronframe/__init__.py": "",
+             "heronframe/__init__.py": "", "src/heronframe/__init__.py": ""}
+    expected = {"hfkit/__init__.py": None, "hfkit/heronframe/__init__.py": None, "hfkit/heronframe/utils.py": None,
+                "hfkit/_vendor/__init__.py": None, "hfkit/_vendor/heronframe/__init__.py": "vendored library",
+                "heronframe/__init__.py": "vendored library", "src/heronframe/__init__.py": "vendored library"}
+    got = projects(write_tree(tmp_path / "f", files), write_zip(tmp_path / "z.zip", files),
+                   write_tar(tmp_path / "t.tgz", files), single=True)
+    assert got == {"f": expected, "z": expected, "t": expected}
 
 
 def test_too_large(tmp_path: Path) -> None:

@@ -16,6 +16,10 @@ _CACHES = frozenset({"__pycache__", ".ipynb_checkpoints", ".mypy_cache", ".pytes
 _INSTALL_DIRS = frozenset({"site-packages", "dist-packages"})
 _VENV_NAMES = frozenset({".venv", "venv", "env"})
 _ACTIVATE_SCRIPTS = ("bin/activate", "Scripts/activate")
+# Folders projects keep other packages' code in (common practice: pip's `_vendor`, setuptools'
+# `extern`, `third_party`). A package named like the library inside one of these is a copy of it.
+_VENDOR_DIRS = frozenset({"_vendor", "vendor", "vendored", "_vendored", "extern", "externals", "_extern",
+                          "third_party", "thirdparty", "3rdparty"})
 
 @dataclass(frozen=True)
 class Layout:
@@ -41,9 +45,18 @@ class Layout:
             )
         }
         vendored = {
-            d for d in dirs if d.rpartition("/")[2] == library and join(d, "__init__.py") in files
+            d for d in dirs
+            if d.rpartition("/")[2] == library and join(d, "__init__.py") in files and not _subpackage(d, files)
         }
         return cls(frozenset(venvs), frozenset(vendored))
+
+
+def _subpackage(directory: str, files: set[str]) -> bool:
+    """Whether a package is a subpackage of the project's own (`mlflow/sklearn/`, imported as
+    `mlflow.sklearn`, never as the library: Python 3 imports are absolute) rather than a copy of
+    the library: its parent is a package and not a folder of other packages' code."""
+    parent = directory.rpartition("/")[0]
+    return bool(parent) and join(parent, "__init__.py") in files and parent.rpartition("/")[2] not in _VENDOR_DIRS
 
 
 def classify(
@@ -68,6 +81,11 @@ def classify(
     `.venv`, `venv` or `env` or under `site-packages` / `dist-packages`, and
     any directory named `library` is a vendored copy, without looking for
     `pyvenv.cfg`, activate scripts or `__init__.py`.
+
+    A folder named like the library is a vendored copy when it holds an `__init__.py` and is not
+    a subpackage of the project's own (its parent a package, not named as a vendor folder).
+    Without `siblings`, the folder is one when it is at the project's root or under `src/` or a
+    vendor folder (`_vendor`, `third_party`, ...).
     """
     layout = None if siblings is None else Layout.of(siblings, library)
     return classify_path(path, size, library, layout, limits)
@@ -87,7 +105,10 @@ def classify_path(
     directories = set(parts[:-1])
     if layout is None:
         venv = bool(directories & (_INSTALL_DIRS | _VENV_NAMES))
-        vendored = library in directories
+        vendored = any(
+            name == library and (i == 0 or parts[i - 1] in _VENDOR_DIRS or parts[i - 1] == "src")
+            for i, name in enumerate(parts[:-1])
+        )
     elif not layout.venvs and not layout.vendored:  # the usual project: no ancestor to look up
         venv, vendored = bool(directories & _INSTALL_DIRS), False
     else:
