@@ -21,7 +21,7 @@ the archive) becomes an entry skipped with the bound's own reason, and the scan 
 | `depth`               | 2           | "nested too deep"         | archives opened one inside another      |
 | `file_seconds`        | 60          | "over time budget"        | seconds of analysis of one file, all    |
 |                       |             |                           | its stages (scan.budget stops it)       |
-| `parse_chars`         | 200_000     | "too large to parse"      | characters of code libcst parses in one |
+| `parse_chars`         | 500_000     | "too large to parse"      | characters of code libcst parses in one |
 |                       |             |                           | file (a notebook: its cells together);  |
 |                       |             |                           | past it the file is read at token level |
 
@@ -91,7 +91,7 @@ class Limits:
     # libcst needs about 1 KB of memory per character of code and its parser cannot be
     # interrupted (measured: a 1 MB line took 80 s and 1.2 GB); the largest real module met in
     # the real-world corpus had 123,809 characters.
-    parse_chars: int = 200_000
+    parse_chars: int = 500_000
 
     def __post_init__(self) -> None:
         for item in dataclasses.fields(self):
