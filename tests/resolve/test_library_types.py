@@ -40,6 +40,10 @@ LIBRARY = {
 
             def describe(self):
                 return None
+
+            def refit(self, rows):
+                self.rows_ = rows
+                return self
     """,
     "heronframe/core/frame.py": """
         from heronframe.core.base import Shaped
@@ -92,6 +96,8 @@ LIBRARY = {
                 return iter(())
 
             def __getitem__(self, key):
+                if isinstance(key, int):
+                    return self.values[key]
                 return self
     """,
     "heronframe/core/grouping.py": """
@@ -1007,3 +1013,19 @@ def test_comprehensions_tell_overloads_apart(query: Query) -> None:
     assert at(hits, 8, "C-PAIRS") == "resolved"
     # Items nobody can type: any of the four, so no proof; the name still counts.
     assert at(hits, 10, "T-STACK") not in (None, "resolved")
+
+
+def test_a_method_that_returns_self_gives_the_receivers_class(query: Query) -> None:
+    code = """
+        import heronframe as hf
+        hf.read_table("p").refit([1]).stack_rows(1)
+        c = hf.Column().refit([1])
+        c.iter_pairs()
+        c.stack_rows(2)
+    """
+    hits = found(query, code)
+    # `Shaped.refit` is unannotated and every way out is `return self`: the instance it is called
+    # on, a Table or a Column (as `-> Self`, PEP 673, would say), not the Shaped that defines it.
+    assert at(hits, 2, "T-STACK") == "resolved"
+    assert at(hits, 4, "C-PAIRS") == "resolved"
+    assert at(hits, 5, "T-STACK") is None

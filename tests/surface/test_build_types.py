@@ -229,6 +229,50 @@ def test_typevar_selves_and_bounds(typed: Surface) -> None:
     assert typed.returns("heronframe.concat") == "heronframe.Frame"
 
 
+def test_an_unannotated_method_that_always_returns_self(tmp_path) -> None:
+    # Every way out is `return self` (the fluent `fit` of estimators): the receiver's class, as
+    # `-> Self` would say (PEP 673). A path that falls off the end returns None (the Language
+    # Reference, "The return statement" and "Function definitions"), and a generator returns a
+    # generator: neither is the instance.
+    root = write_tree(tmp_path / "heronframe", {
+        "__init__.py": """
+            class Base:
+                def fit(self, rows):
+                    if not rows:
+                        raise ValueError(rows)
+                    for r in rows:
+                        if r is None:
+                            return self
+                    self.rows_ = rows
+                    return self
+                def maybe(self, rows):
+                    if rows:
+                        return self
+                def other(self, rows):
+                    if rows:
+                        return rows
+                    return self
+                def gen(self):
+                    yield self
+                    return self
+                def nested(self):
+                    def inner(x):
+                        return x
+                    return self
+                def typed(self) -> int:
+                    return self
+            class Table(Base):
+                pass
+            """,
+    })
+    s = build_surface(root)
+    assert s.returns("heronframe.Table.fit") == "heronframe.Table"
+    assert s.returns("heronframe.Base.fit") == "heronframe.Base"
+    assert s.returns("heronframe.Table.nested") == "heronframe.Table"
+    for name in ("maybe", "other", "gen", "typed"):
+        assert s.returns(f"heronframe.Table.{name}") is None, name
+
+
 def test_overloads_in_source_prefer_the_overloads_over_the_implementation(tmp_path) -> None:
     root = write_tree(tmp_path / "heronframe", {
         "__init__.py": """

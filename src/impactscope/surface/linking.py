@@ -364,6 +364,8 @@ class Linker:
             if kind == "property" and r.kind not in CALLABLE_KINDS:
                 return self.value_outcomes(name)
             if kind in CALLABLE_KINDS:
+                if r.returns_first and not r.overloads:
+                    return (SELF,)  # unannotated, and every way out is `return self`
                 sigs = r.overloads or [(r.returns_ann, r.self_ann, (), ())]
                 return tuple(o for ret, me, *_ in sigs for o in self.outcomes(r.module, ret, me))
             found = self.instance_class(name)

@@ -30,6 +30,7 @@ from .syntax import (
     is_namespace_call,
     is_type_checking,
     last_part,
+    returns_first,
     returns_value,
     string_value,
     string_values,
@@ -54,7 +55,7 @@ class Raw:
     __slots__ = ("name", "kind", "module", "line", "params", "returns_ann", "self_class", "decorators",
                  "shape", "bases", "value_call", "value_ann", "dataclass", "fields", "namedtuple", "instance_attrs",
                  "self_ann", "overloads", "wrappers", "getter", "typevar", "bound", "doc", "alias_value",
-                 "wraps_self", "base_args")
+                 "wraps_self", "base_args", "returns_first")
 
     def __init__(self, name: str, kind: str, module: str, line: int) -> None:
         self.name, self.kind, self.module, self.line = name, kind, module, line
@@ -82,6 +83,7 @@ class Raw:
         # per base: the dotted texts of its subscript's items (`GroupBy[DataFrame]`), () for a plain base
         self.base_args: list[tuple[str | None, ...]] = []
         self.wraps_self: str | None = None  # the callee when every return is a call given `self` (`_Indexer(self)`)
+        self.returns_first = False  # a method whose every way out is `return self` (read when unannotated)
 
 
 class ModuleReader:
@@ -232,6 +234,7 @@ class ModuleReader:
         r.returns_ann = node.returns
         r.self_class = scope
         r.wraps_self = built_on_first(node) if scope is not None else None
+        r.returns_first = kind == "method" and node.returns is None and returns_first(node)
         r.self_ann = self_ann
         if overload:
             r.overloads = [signature]

@@ -189,6 +189,31 @@ def built_on_first(node: ast.FunctionDef | ast.AsyncFunctionDef) -> str | None:
     return callees.pop() if len(callees) == 1 else None
 
 
+def returns_first(node: ast.FunctionDef | ast.AsyncFunctionDef) -> bool:
+    """Whether every way out of the function returns its first parameter (`return self`, the
+    fluent `fit` of estimators): each `return` gives it and the body ends in one, so no path falls
+    off the end with None; a generator or coroutine returns something else. Nested definitions aside."""
+    positional = [*node.args.posonlyargs, *node.args.args]
+    if not positional or isinstance(node, ast.AsyncFunctionDef) or not node.body:
+        return False
+    if not isinstance(node.body[-1], (ast.Return, ast.Raise)):
+        return False
+    first = positional[0].arg
+    todo: list[ast.AST] = list(node.body)
+    returns = 0
+    while todo:
+        sub = todo.pop()
+        if isinstance(sub, (ast.Yield, ast.YieldFrom, ast.Await)):
+            return False
+        if isinstance(sub, ast.Return):
+            if not (isinstance(sub.value, ast.Name) and sub.value.id == first):
+                return False
+            returns += 1
+        elif not isinstance(sub, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)):
+            todo.extend(ast.iter_child_nodes(sub))
+    return returns > 0
+
+
 def ends_in_raise(body: list[ast.stmt]) -> bool:
     return bool(body) and isinstance(body[-1], ast.Raise)
 
