@@ -4,6 +4,7 @@ Sphinx and epydoc fields to infer parameter types (jedi.inference.docstrings).""
 from __future__ import annotations
 
 import inspect
+import keyword
 
 import pytest
 from hypothesis import given, settings
@@ -117,7 +118,9 @@ def test_single_type(text: str, expected: str | None) -> None:
     assert single_type(text) == expected
 
 
-_dotted = st.from_regex(r"[a-z]{1,6}(\.[A-Z][a-z]{0,6}){0,2}", fullmatch=True)
+# Keywords excluded: jedi returns any word, while a keyword cannot name a type (`single_type`).
+_dotted = st.from_regex(r"[a-z]{1,6}(\.[A-Z][a-z]{0,6}){0,2}", fullmatch=True).filter(
+    lambda t: not any(keyword.iskeyword(part) for part in t.split(".")))
 _param = st.from_regex(r"[a-z][a-z0-9_]{0,8}", fullmatch=True)
 
 

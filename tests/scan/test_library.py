@@ -197,7 +197,7 @@ def _stubbed_library(tmp_path: Path) -> tuple[Path, Path]:
     source.mkdir(parents=True)
     (source / "__init__.py").write_text("from .core import Table\n", encoding="utf-8")
     (source / "core.py").write_text(
-        "class Table:\n    def head(self):\n        return self\n    def stack_rows(self, other):\n        return self\n",
+        "class Table:\n    def head(self):\n        return self._rows(5)\n    def stack_rows(self, other):\n        return self\n",
         encoding="utf-8",
     )
     stubs = tmp_path / "lib" / "heronframe-stubs"

@@ -234,8 +234,10 @@ class Expressions(Walk):
         if not self.q.model.knows_kinds:
             return classes
         out: list[str] = []
+        lacking: list[str] = []
         for cls in classes:
-            if cls == NOT_LIBRARY or self.q.model.kind(f"{cls}.{attr}") is not None:
+            if cls == NOT_LIBRARY or self.q.model.kind(f"{cls}.{attr}") is not None or any(
+                    self.q.owns(cls, cc) for cc in self.q.by_name(attr)):  # the change list is the authority
                 out.append(cls)
                 continue
             base = self.q.model.canonical(cls)
@@ -244,12 +246,14 @@ class Expressions(Walk):
                 if owner != base and base in self.q.model.mro(owner) and self.q.model.is_class(owner)
             }
             if not found:
-                out.append(cls)
+                lacking.append(cls)
                 continue
             # The topmost ones: a subclass of one listed owns what its ancestor owns.
             out.extend(sorted(c for c in found if not any(a in found for a in self.q.model.mro(c)[1:])))
             out.append(NOT_LIBRARY)
-        return tuple(dict.fromkeys(out))
+        # A class that has the name, nor any subclass of it, would raise AttributeError here on the
+        # release the code runs on: where another class has the name, the use is that class's.
+        return tuple(dict.fromkeys(out or lacking))
 
     def _unlinked(self, value: Value) -> bool:
         """Without the library's source a path it re-exports under another name
