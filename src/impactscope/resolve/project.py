@@ -12,7 +12,7 @@ from typing import Mapping
 import libcst as cst
 
 from impactscope.corpus.sources import Source, looks_like_python2
-from impactscope.findings import Finding
+from impactscope.findings import Confidence, Finding
 from impactscope.import_names import module_name, package_of
 from impactscope.reasons import Reason
 from impactscope.resolve.evaluate import ModuleEvaluator, ModuleResult, Ref
@@ -37,6 +37,7 @@ class FileAnalysis:
     findings: list[Finding] = field(default_factory=list)
     matched_as_user: bool | None = None  # the uses-library answer `findings` were matched under
     matched_refs: int = -1  # how many references `findings` were matched from
+    matched_in_user: bool | None = None  # whether the project used the library when they were matched
 
 
 class ProjectResolver:
@@ -177,12 +178,14 @@ class ProjectResolver:
                 ):
                     r.uses_library = True
                     changed = True
+        in_user = any(r.uses_library for r in results.values())
         for fa in self.files.values():
             if fa.result is not None and (
                 fa.matched_as_user is not fa.result.uses_library or fa.matched_refs != len(fa.result.refs)
+                or fa.matched_in_user is not in_user
             ):
                 try:
-                    fa.findings = self._findings(fa)
+                    fa.findings = self._findings(fa, in_user)
                 except Exception as exc:  # noqa: BLE001 - a matching or positions bug costs this file only
                     fa.status, fa.reason = "unparsed", Reason.ANALYSIS_ERROR
                     fa.detail = describe(exc, stage="matching")
@@ -190,6 +193,7 @@ class ProjectResolver:
                     continue
                 fa.matched_as_user = fa.result.uses_library
                 fa.matched_refs = len(fa.result.refs)
+                fa.matched_in_user = in_user
 
     def _resume(self) -> None:
         """Read again the bodies that calls from other modules sent back (each at most once)."""
@@ -265,14 +269,22 @@ class ProjectResolver:
             fa.detail = "; ".join(parts)
         return fa
 
-    def _findings(self, fa: FileAnalysis) -> list[Finding]:
+    def _findings(self, fa: FileAnalysis, in_user: bool) -> list[Finding]:
+        """Match a file's references. In a file that does not use the library, a name on an
+        unknown receiver counts only when some file of the project does (a library object may be
+        handed to this one), only for a class's member whose name no builtin type has, and only at
+        `possible`; in a project that never uses the library, only references proven to be it."""
         assert fa.result is not None
         refs = fa.result.refs
-        if not fa.result.uses_library:
-            refs = [r for r in refs if r.name is not None]
+        guessing = fa.result.uses_library
+        if not guessing:
+            refs = [r for r in refs if r.name is not None or in_user]
         judged: list[tuple[Ref, list]] = []
         for ref in refs:
             hits = judge(ref, self.q)
+            if hits and not guessing and ref.name is None:
+                hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits
+                        if cc.parent_is_class and not self.q.is_common(cc.change.name)]
             if hits:
                 judged.append((ref, hits))
         if not judged:

@@ -114,6 +114,10 @@ class Query:
     def by_name(self, attr: str) -> list[CompiledChange]:
         return self._by_name.get(attr, [])
 
+    def is_common(self, name: str) -> bool:
+        """Whether builtin objects have an attribute of this name (`append`, `copy`, `get`)."""
+        return name in self._common
+
     def is_specific(self, cc: CompiledChange) -> bool:
         """True when no builtin object and no other class of the library has the member's name."""
         name = cc.change.name
