@@ -1084,3 +1084,55 @@ def test_a_file_that_never_imports_the_library_in_a_project_that_does(query: Que
     # The same file in a project that never uses the library has no finding.
     alone = ProjectResolver("demo", query, {"helpers.py": sources["helpers.py"]})
     assert alone.analyse("helpers.py").findings == []
+
+
+def test_a_module_that_fails_to_import_on_the_old_release_proves_nothing(query: Query) -> None:
+    files = {
+        "gen.py": textwrap.dedent("""
+            from heronframe.io import read_table, read_gone
+            read_table("p").stack_rows(1)
+        """).lstrip("\n"),
+        "uses_gen.py": textwrap.dedent("""
+            from gen import *
+            import heronframe as hf
+            hf.read_table("p").stack_rows(2)
+        """).lstrip("\n"),
+        "guarded.py": textwrap.dedent("""
+            try:
+                from heronframe.io import read_gone
+            except ImportError:
+                read_gone = None
+            import heronframe as hf
+            hf.read_table("p").stack_rows(3)
+            def later():
+                from heronframe.io import read_gone
+        """).lstrip("\n"),
+    }
+    sources = {p: read_python(t.encode(), p) for p, t in files.items()}
+    resolver = ProjectResolver("demo", query, sources)
+    for path in sorted(files):
+        resolver.analyse(path)
+    resolver.finish()
+
+    def level(path: str, line: int) -> str | None:
+        return at(resolver.files[path].findings, line, "T-STACK")
+
+    # The Language Reference, 7.11 ("The import statement"): `from m import n` raises ImportError
+    # when m has no n, and an uncaught error at a module's top level fails the module's import, and
+    # so the import of every module that imports it at its top level. The library's source shows
+    # heronframe.io has no read_gone: the code never ran on that release.
+    assert level("gen.py", 2) == "possible"
+    assert level("uses_gen.py", 3) == "possible"
+    assert "heronframe.io.read_gone is not there" in resolver.files["uses_gen.py"].detail
+    # Caught, or inside a function: the module imports fine.
+    assert level("guarded.py", 6) == "resolved"
+
+
+def test_a_name_a_library_module_imports_from_elsewhere_can_be_imported_from_it(query: Query) -> None:
+    code = """
+        from heronframe.io import Iterable, overload
+        import heronframe as hf
+        hf.read_table("p").stack_rows(1)
+    """
+    # heronframe.io binds Iterable and overload by importing them from typing: there they are.
+    assert at(found(query, code), 3, "T-STACK") == "resolved"

@@ -273,6 +273,33 @@ def test_an_unannotated_method_that_always_returns_self(tmp_path) -> None:
         assert s.returns(f"heronframe.Table.{name}") is None, name
 
 
+def test_what_a_module_binds_at_top_level(tmp_path) -> None:
+    # The Language Reference, 7.11: `from m import n` finds any name m binds at top level, whatever
+    # it is bound to (here a compiled module's function, another package's name, a fallback).
+    root = write_tree(tmp_path / "heronframe", {
+        "__init__.py": """
+            from ._fast import hashed
+            import numpy as np
+            try:
+                from ._opt import speedy
+            except ImportError:
+                speedy = None
+            class Table: ...
+            """,
+        "_fast.cpython-311-x86_64-linux-gnu.so": "",
+        "loose.py": "from os.path import *\n",
+        "lazy.py": "def __getattr__(name):\n    return name\n",
+    })
+    s = build_surface(root)
+    for name in ("hashed", "np", "speedy", "Table"):
+        assert s.binds("heronframe", name) is True, name
+    assert s.binds("heronframe", "gone") is False
+    # A star import of another package, or a module __getattr__ (PEP 562), leaves the set open.
+    assert s.binds("heronframe.loose", "gone") is None
+    assert s.binds("heronframe.lazy", "gone") is None
+    assert Surface.from_json(json.loads(s.dumps())).binds("heronframe", "gone") is False
+
+
 def test_overloads_in_source_prefer_the_overloads_over_the_implementation(tmp_path) -> None:
     root = write_tree(tmp_path / "heronframe", {
         "__init__.py": """

@@ -49,6 +49,8 @@ class Imports(Walk):
                 found = self.project.find_module(dotted, self.importer)
                 if found is not None:
                     self.result.imported.add(found)
+                    if self._always_runs(s):
+                        self.result.imported_first.add(found)
                     if self.project.module_uses_library(found):
                         self.result.uses_library = True
                     value = ProjMod(found)
@@ -61,6 +63,23 @@ class Imports(Walk):
                 self.assign(alias.asname.name, value, scope)
             else:
                 self.bind(scope, dotted.split(".")[0], top)
+
+    def _always_runs(self, s: cst.CSTNode) -> bool:
+        """A module's own top-level statement, outside any `if`, `try` or definition: it runs on
+        every import of the module (a notebook's cells run one by one, so never there)."""
+        top = self.at.top
+        return self.at.cell is None and isinstance(top, cst.SimpleStatementLine) and any(x is s for x in top.body)
+
+    def _absent_on_old(self, module: str, name: str) -> bool:
+        """Whether the library's source or stubs show that `from module import name` fails on the
+        release they describe: the module's top-level names are all known and `name` is not one
+        of them (whatever they are bound to: a compiled module's function counts), nor a
+        submodule, and no change names it (`dynamic`)."""
+        model = self.q.model
+        if not model.knows_kinds or model.kind(module) != "module" or name.startswith("__"):
+            return False  # module dunders (`__doc__`, `__file__`) are always there
+        full = f"{module}.{name}"
+        return model.binds(module, name) is False and model.kind(full) is None and not self.q.match(full)
 
     def _package(self, level: int) -> str:
         """The package `level` leading dots name (the Language Reference's rule, one
@@ -95,12 +114,16 @@ class Imports(Walk):
                 full = f"{dotted}.{name}"
                 self._ref(alias, "import", name=full, import_text=f"from {dotted} import {name}")
                 self.assign(alias.asname.name if alias.asname else alias.name, Lib(full), scope)
+                if not self.result.fails_on_old and self._always_runs(s) and self._absent_on_old(dotted, name):
+                    self.result.fails_on_old = full
             return
         if project_mod is None:
             project_mod = self.project.find_module(dotted, self.importer)
         if project_mod is not None:
             if project_mod:
                 self.result.imported.add(project_mod)
+                if self._always_runs(s):
+                    self.result.imported_first.add(project_mod)
             if project_mod and self.project.module_uses_library(project_mod):
                 self.result.uses_library = True
             if isinstance(s.names, cst.ImportStar):
@@ -112,6 +135,8 @@ class Imports(Walk):
                 sub = f"{project_mod}.{name}" if project_mod else name
                 if self.is_project_module(sub):
                     self.result.imported.add(sub)
+                    if self._always_runs(s):
+                        self.result.imported_first.add(sub)
                     if self.project.module_uses_library(sub):
                         self.result.uses_library = True
                     value: Value = ProjMod(sub)

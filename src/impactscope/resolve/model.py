@@ -24,6 +24,8 @@ class LibraryModel(Protocol):
 
     def star_names(self, module: str) -> tuple[str, ...] | None: ...
 
+    def binds(self, module: str, name: str) -> bool | None: ...
+
     def owners(self, attr: str) -> frozenset[str]: ...
 
     def mro(self, cls: str) -> tuple[str, ...]: ...
@@ -72,6 +74,9 @@ class TypesModel:
 
     def is_class(self, dotted: str) -> bool:
         return dotted in self._classes
+
+    def binds(self, module: str, name: str) -> bool | None:
+        return None  # only the library's source can say what a module binds
 
     def star_names(self, module: str) -> tuple[str, ...] | None:
         # Without the library's source only the names the change list mentions are known.
@@ -197,6 +202,9 @@ class SurfaceModel:
 
     def star_names(self, module: str) -> tuple[str, ...] | None:
         return self._surface.star_names(self.canonical(module))  # type: ignore[attr-defined]
+
+    def binds(self, module: str, name: str) -> bool | None:
+        return self._surface.binds(module, name)  # type: ignore[attr-defined,no-any-return]
 
     def owners(self, attr: str) -> frozenset[str]:
         return frozenset(self._surface.owners(attr))  # type: ignore[attr-defined]

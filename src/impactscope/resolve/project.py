@@ -38,6 +38,7 @@ class FileAnalysis:
     matched_as_user: bool | None = None  # the uses-library answer `findings` were matched under
     matched_refs: int = -1  # how many references `findings` were matched from
     matched_in_user: bool | None = None  # whether the project used the library when they were matched
+    matched_broken: str | None = None  # `result.fails_on_old` when they were matched
 
 
 class ProjectResolver:
@@ -178,11 +179,21 @@ class ProjectResolver:
                 ):
                     r.uses_library = True
                     changed = True
+        changed = True
+        while changed:
+            changed = False
+            for r in results.values():
+                if not r.fails_on_old:
+                    failing = next((by_module[m] for m in sorted(r.imported_first)
+                                    if m in by_module and by_module[m].fails_on_old), None)
+                    if failing is not None:
+                        r.fails_on_old = failing.fails_on_old
+                        changed = True
         in_user = any(r.uses_library for r in results.values())
         for fa in self.files.values():
             if fa.result is not None and (
                 fa.matched_as_user is not fa.result.uses_library or fa.matched_refs != len(fa.result.refs)
-                or fa.matched_in_user is not in_user
+                or fa.matched_in_user is not in_user or fa.matched_broken != fa.result.fails_on_old
             ):
                 try:
                     fa.findings = self._findings(fa, in_user)
@@ -194,6 +205,11 @@ class ProjectResolver:
                 fa.matched_as_user = fa.result.uses_library
                 fa.matched_refs = len(fa.result.refs)
                 fa.matched_in_user = in_user
+                fa.matched_broken = fa.result.fails_on_old
+                if fa.result.fails_on_old:
+                    note = (f"fails to import on the library's old release ({fa.result.fails_on_old} is not there): "
+                            "its uses are kept at possible")
+                    fa.detail = f"{fa.detail}; {note}" if fa.detail and note not in fa.detail else fa.detail or note
 
     def _resume(self) -> None:
         """Read again the bodies that calls from other modules sent back (each at most once)."""
@@ -277,6 +293,7 @@ class ProjectResolver:
         assert fa.result is not None
         refs = fa.result.refs
         guessing = fa.result.uses_library
+        broken = bool(fa.result.fails_on_old)
         if not guessing:
             refs = [r for r in refs if r.name is not None or in_user]
         judged: list[tuple[Ref, list]] = []
@@ -285,6 +302,9 @@ class ProjectResolver:
             if hits and not guessing and ref.name is None:
                 hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits
                         if cc.parent_is_class and not self.q.is_common(cc.change.name)]
+            if hits and broken:
+                # It fails to import on the release the code was written for: nothing there runs.
+                hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits]
             if hits:
                 judged.append((ref, hits))
         if not judged:

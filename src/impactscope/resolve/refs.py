@@ -69,3 +69,10 @@ class ModuleResult:
     exports: dict[str, Value] = field(default_factory=dict)
     all_names: tuple[str, ...] | None = None  # `__all__` as read statically (dunder_all), which decides what `*` binds
     imported: set[str] = field(default_factory=set)  # project modules it imports
+    # Project modules imported by a top-level statement that always runs (no `if`, `try`, def):
+    # if one of them fails to import, so does this module.
+    imported_first: set[str] = field(default_factory=set)
+    # A library name this module imports at top level that the old release does not have (read
+    # from its source or stubs): the module fails to import there, its uses were never running
+    # code. Set for an importer of such a module too, naming the same name.
+    fails_on_old: str = ""

@@ -718,4 +718,5 @@ def surface_from_parsed(library: str, parsed: Iterable[ParsedModule], problems: 
         private_aliases=dict(sorted(private.items())),
         declared=frozenset(declared),
         problems=tuple(problems),
+        bound={m: tuple(sorted(r.top_names)) for m, r in sorted(readers.items()) if r.top_names is not None},
     )

@@ -141,6 +141,9 @@ class Surface:
     private_aliases: Mapping[str, str] = field(default_factory=dict)
     declared: frozenset[str] = frozenset()
     problems: tuple[Problem, ...] = ()
+    # Per module whose top-level names are all known, every name it binds there (imports of
+    # compiled or outside modules too): what `from module import name` can find.
+    bound: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
     # Indices, derived from the fields above in __post_init__.
     _links: Mapping[str, str] = field(init=False, repr=False, compare=False)
     _children: Mapping[str, Mapping[str, str]] = field(init=False, repr=False, compare=False)
@@ -160,6 +163,7 @@ class Surface:
         put(self, "dynamic", frozenset(self.dynamic))
         put(self, "declared", frozenset(self.declared))
         put(self, "problems", tuple(self.problems))
+        put(self, "bound", _mapping({k: tuple(v) for k, v in self.bound.items()}))
         links = {**self.private_aliases, **self.aliases}
         children: dict[str, dict[str, str]] = {}
         for name in self.members:
@@ -311,6 +315,14 @@ class Surface:
         member = self.member(dotted)
         return None if member is None else member.parameters
 
+    def binds(self, module: str, name: str) -> bool | None:
+        """Whether the module binds `name` at top level (so `from module import name` finds it, a
+        submodule aside); None when its names are not all known."""
+        names = self.bound.get(module)
+        if names is None:
+            names = self.bound.get(self.canonical(module))
+        return None if names is None else name in names
+
     def star_names(self, module: str) -> tuple[str, ...] | None:
         """Names `from module import *` binds; None when that is not knowable statically."""
         if module in self.exports:  # an import statement names the module itself, even if shadowed
@@ -443,6 +455,7 @@ class Surface:
             "declared": sorted(self.declared),
             "dynamic": sorted(self.dynamic),
             "problems": [{"module": p.module, "path": p.path, "message": p.message} for p in self.problems],
+            "bound": {k: list(v) for k, v in sorted(self.bound.items())},
         }
 
     @classmethod
@@ -464,6 +477,7 @@ class Surface:
                 private_aliases=dict(data.get("private_aliases", {})),
                 declared=frozenset(data.get("declared", ())),
                 problems=problems,
+                bound={k: tuple(v) for k, v in data.get("bound", {}).items()},
             )
         except KeyError as exc:
             raise SurfaceError(f"surface JSON is missing the key {exc.args[0]!r}") from None
@@ -529,6 +543,10 @@ def merge_surfaces(primary: Surface, secondary: Surface) -> Surface:
         private_aliases=private,
         declared=primary.declared,
         problems=primary.problems,
+        # A name either side binds may be found: the union, where both know the module's names.
+        bound={m: tuple(sorted({*primary.bound.get(m, ()), *secondary.bound.get(m, ())}))
+               for m in primary.bound.keys() | secondary.bound.keys()
+               if (m in primary.bound or m not in primary.exports) and (m in secondary.bound or m not in secondary.exports)},
     )
 
 

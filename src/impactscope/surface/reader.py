@@ -115,7 +115,7 @@ class ModuleReader:
         self._getattr_node: ast.FunctionDef | ast.AsyncFunctionDef | None = None
         raw[f.name] = Raw(f.name, "module", f.name, 1 if f.path is not None else 0)
         raw[f.name].doc = doc_digest(parsed.tree)
-        self.block(parsed.tree.body, frozenset(), False, None)
+        top = self.block(parsed.tree.body, frozenset(), False, None)
         self._scan_runtime_names(parsed.tree)
         if self._getattr_node is not None:
             # Read last: the tables it consults may be assigned below the function.
@@ -124,6 +124,11 @@ class ModuleReader:
             if not served.open and ends_in_raise(self._getattr_node.body):
                 self.getattr = False  # PEP 562 with a fixed set of names: the surface has them all
             self._getattr_node = None
+        # Every name the module binds at top level, on any branch, whatever it is bound to (a
+        # compiled module's function, another package's name); None where a star import, a
+        # namespace written at run time or an open __getattr__ makes the set unknowable.
+        open_names = self.getattr or self.runtime_names or any(op[0] == "star" for op in self.ops)
+        self.top_names: frozenset[str] | None = None if open_names else frozenset(top) | frozenset(self.served)
 
     # statements ------------------------------------------------------------------------
 
