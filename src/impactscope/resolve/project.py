@@ -207,8 +207,9 @@ class ProjectResolver:
                 fa.matched_in_user = in_user
                 fa.matched_broken = fa.result.fails_on_old
                 if fa.result.fails_on_old:
-                    note = (f"fails to import on the library's old release ({fa.result.fails_on_old} is not there): "
-                            "its uses are kept at possible")
+                    # Said, not acted on: its lines still spell the changed members, and a fix of
+                    # the other import would bring them to life.
+                    note = f"fails to import on the library's old release already ({fa.result.fails_on_old} is not there)"
                     fa.detail = f"{fa.detail}; {note}" if fa.detail and note not in fa.detail else fa.detail or note
 
     def _resume(self) -> None:
@@ -293,7 +294,6 @@ class ProjectResolver:
         assert fa.result is not None
         refs = fa.result.refs
         guessing = fa.result.uses_library
-        broken = bool(fa.result.fails_on_old)
         if not guessing:
             refs = [r for r in refs if r.name is not None or in_user]
         judged: list[tuple[Ref, list]] = []
@@ -302,9 +302,6 @@ class ProjectResolver:
             if hits and not guessing and ref.name is None:
                 hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits
                         if cc.parent_is_class and not self.q.is_common(cc.change.name)]
-            if hits and broken:
-                # It fails to import on the release the code was written for: nothing there runs.
-                hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits]
             if hits:
                 judged.append((ref, hits))
         if not judged:

@@ -73,6 +73,6 @@ class ModuleResult:
     # if one of them fails to import, so does this module.
     imported_first: set[str] = field(default_factory=set)
     # A library name this module imports at top level that the old release does not have (read
-    # from its source or stubs): the module fails to import there, its uses were never running
-    # code. Set for an importer of such a module too, naming the same name.
+    # from its source or stubs): the module fails to import there already, which its file's
+    # detail says. Set for an importer of such a module too, naming the same name.
     fails_on_old: str = ""
