@@ -98,3 +98,31 @@ def test_relative_imports_keep_every_module_whole() -> None:
     texts = {"pkg/__init__.py": "from . import a\n", "pkg/a.py": "import heronframe\nheronframe.stack([])\n"}
     plan = prefilter.plan(texts)
     assert plan.keep == plan.whole == {"pkg/__init__.py", "pkg/a.py"}
+
+
+def test_a_helper_of_a_project_that_imports_the_library_elsewhere(tmp_path: Path) -> None:
+    # The only file that imports the library spells no changed name (the prefilter passes it
+    # over); a helper that never imports it calls a changed method on what it is handed. The
+    # project uses the library, so the helper's use counts at possible (docs/findings.md).
+    from impactscope.scan.run import run_scan
+    from impactscope.store import ResultStore
+
+    from .helpers import write_changes
+
+    corpus = tmp_path / "corpus"
+    for project, files in {
+        "uses": {"app.py": "import heronframe as hf\nrows = hf.read_table('p')\n",
+                 "helpers.py": "def grow(t):\n    return t.stack_rows(1)\n"},
+        "never": {"helpers.py": "def grow(t):\n    return t.stack_rows(1)\n"},
+    }.items():
+        for name, text in files.items():
+            (corpus / project).mkdir(parents=True, exist_ok=True)
+            (corpus / project / name).write_text(text, encoding="utf-8")
+    out = tmp_path / "r.sqlite"
+    run_scan(write_changes(tmp_path), [corpus], out, jobs=1)
+    store = ResultStore.open(out)
+    try:
+        found = {(f.project, f.file, f.line, f.confidence.label) for f in store.findings()}
+    finally:
+        store.close()
+    assert found == {("uses", "helpers.py", 2, "possible")}

@@ -42,8 +42,11 @@ class FileAnalysis:
 
 
 class ProjectResolver:
-    def __init__(self, project: str, query: Query, sources: Mapping[str, Source]) -> None:
+    def __init__(self, project: str, query: Query, sources: Mapping[str, Source], uses_library: bool = False) -> None:
+        """`uses_library`: some file of the project imports the library, as far as the caller
+        can tell from files it does not hand over (the resolved ones tell for themselves)."""
         self.project = project
+        self._uses_library = uses_library
         self.q = query
         self.sources = sources
         self._index: dict[str, str] = {}  # dotted module name -> path
@@ -189,7 +192,7 @@ class ProjectResolver:
                     if failing is not None:
                         r.fails_on_old = failing.fails_on_old
                         changed = True
-        in_user = any(r.uses_library for r in results.values())
+        in_user = self._uses_library or any(r.uses_library for r in results.values())
         for fa in self.files.values():
             if fa.result is not None and (
                 fa.matched_as_user is not fa.result.uses_library or fa.matched_refs != len(fa.result.refs)
@@ -300,8 +303,7 @@ class ProjectResolver:
         for ref in refs:
             hits = judge(ref, self.q)
             if hits and not guessing and ref.name is None:
-                hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits
-                        if cc.parent_is_class and not self.q.is_common(cc.change.name)]
+                hits = [(cc, min(c, Confidence.POSSIBLE)) for cc, c in hits if cc.change.name in self.q.loose_names]
             if hits:
                 judged.append((ref, hits))
         if not judged:

@@ -56,6 +56,10 @@ class Query:
             self._by_name.setdefault(cc.change.name, []).append(cc)
         self.names = frozenset(self._by_name)
         self._common = builtin_attribute_names()
+        # Class members whose name no builtin has: in a project that uses the library, even a file
+        # that never imports it counts them at possible (it may be handed the library's objects).
+        self.loose_names = frozenset(cc.change.name for cc in self.compiled
+                                     if cc.parent_is_class and cc.change.name not in self._common)
 
     def _compile(self, c: Change) -> CompiledChange:
         model = self.model
@@ -113,10 +117,6 @@ class Query:
 
     def by_name(self, attr: str) -> list[CompiledChange]:
         return self._by_name.get(attr, [])
-
-    def is_common(self, name: str) -> bool:
-        """Whether builtin objects have an attribute of this name (`append`, `copy`, `get`)."""
-        return name in self._common
 
     def is_specific(self, cc: CompiledChange) -> bool:
         """True when no builtin object and no other class of the library has the member's name."""

@@ -59,9 +59,12 @@ class Plan:
 class Prefilter:
     """Compiled once per scan from the change list; `candidates` runs once per project."""
 
-    def __init__(self, library_tops: Iterable[str], member_names: Iterable[str]) -> None:
+    def __init__(self, library_tops: Iterable[str], member_names: Iterable[str], loose_names: Iterable[str] = ()) -> None:
+        """`loose_names`: changed members that count (at possible) in any file of a project that
+        uses the library, not only in files that touch it (`Query.loose_names`)."""
         self._tops = frozenset(library_tops)
         self._members = frozenset(member_names)
+        self._loose = _any_word(frozenset(loose_names))
         self._library = _any_word(self._tops)
         self._member = _any_word(self._members)
         names = "|".join(map(re.escape, sorted(self._tops)))
@@ -111,9 +114,11 @@ class Prefilter:
             kept = _close(kept, texts, leaf, within=touching)
         modules = {path for path in kept if not path.endswith(".ipynb")}
         relays = frozenset(leaf[path] for path in modules if leaf[path])
+        # A helper that never touches the library may be handed its objects: read it too.
+        loose = {path for path in spelling - kept if self._loose is not None and self._loose.search(texts[path])}
         if relative or self._star_imports_project(texts.values()):
             # Any module may be reached by a name no file spells: read them all whole.
-            return Plan(kept, modules, relays)
+            return Plan(kept | loose, modules, relays)
         leaves = {leaf[path] for path in modules if leaf[path]}
         mentioned: dict[str, set[str]] = {}
         for path, text in texts.items():
@@ -121,7 +126,7 @@ class Prefilter:
                 mentioned.setdefault(name, set()).add(path)
         whole = {path for path in modules if path.endswith("__init__.py")}
         importable = {path for path in modules - whole if mentioned.get(leaf[path], set()) - {path}}
-        return Plan(kept, whole, relays, importable)
+        return Plan(kept | loose, whole, relays, importable)
 
     def _star_imports_project(self, texts: Iterable[str]) -> bool:
         """Whether some file star-imports a module other than the library's."""

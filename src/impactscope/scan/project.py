@@ -94,7 +94,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
     texts = {path: "\n".join(c.code for c in s.cells) for path, s in sources.items()}
     texts.update(raw_texts)
     # Built per project: its patterns come from the re module's cache after the first project.
-    shortcuts = Prefilter(query.tops, query.names)
+    shortcuts = Prefilter(query.tops, query.names, query.loose_names)
     plan = shortcuts.plan(texts) if prefilter else Plan(set(texts), set(texts))
     keep = set(plan.keep)
     for path in sorted(keep & set(notebooks)):
@@ -134,7 +134,10 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         else:
             sources[path] = deep
     # A file that failed before the resolver is no module of the project for the others either.
-    resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults})
+    # Whether any file imports the library, resolved or not: a helper that never imports it may
+    # still be handed its objects (docs/findings.md, the upper bound).
+    in_user = any(shortcuts.imports_library(text) for text in texts.values())
+    resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults}, in_user)
     for path in sorted(keep):
         try:
             clock.run(path, resolver.analyse, path)
