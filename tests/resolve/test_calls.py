@@ -8,7 +8,7 @@ from impactscope.resolve.calls import call_shape
 from impactscope.resolve.evaluate import ModuleEvaluator
 from impactscope.resolve.refs import CallShape, Ref
 
-from .conftest import query, resolver
+from .conftest import at, findings, query, resolver
 
 
 def _refs(code: str) -> list[Ref]:
@@ -63,3 +63,21 @@ def test_call_shape_counts_positionals_before_the_first_star_and_sorts_keywords(
     assert isinstance(call, cst.Call)
     assert call_shape(call.args) == CallShape(positional=2, star=True, starstar=True, keywords=("a", "z"))
     assert call_shape(call.args).render() == "(_, _, *_, a=_, z=_, **_)"
+
+
+def test_keywords_a_dict_display_passes_through_double_star() -> None:
+    code = (
+        "import heronframe as hf\n"
+        "t = hf.Table()\n"
+        "options = {\"inplace\": True, \"na\": 0}\n"
+        "options.update(extra)\n"
+        "t.sort_by(\"a\", **options)\n"
+        "t.sort_by(\"a\", **{\"inplace\": False})\n"
+        "t.sort_by(\"a\", **other)\n"
+    )
+    found = findings(code)
+    # The Language Reference, "Calls": `**mapping` passes each key as a keyword argument. A dict
+    # display's string keys are passed whatever `update` adds later.
+    assert at(found, 5, "HF-4") == "resolved"
+    assert at(found, 6, "HF-4") == "resolved"
+    assert at(found, 7, "HF-4") == "possible"  # a mapping nobody can read may or may not hold it

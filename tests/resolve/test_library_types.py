@@ -1139,3 +1139,22 @@ def test_a_name_a_library_module_imports_from_elsewhere_can_be_imported_from_it(
     """
     # heronframe.io binds Iterable and overload by importing them from typing: there they are.
     assert at(found(query, code), 3, "T-STACK") == "resolved"
+
+
+def test_a_copy_is_of_the_class_copied(query: Query) -> None:
+    code = """
+        import copy
+        from copy import deepcopy
+        import heronframe as hf
+        def top(vect, n):
+            vect = copy.deepcopy(vect)
+            return vect.stack_rows(n)
+        top(hf.read_table("p"), 1)
+        copy.copy(hf.Column()).iter_pairs()
+        deepcopy(hf.read_table("p")).stack_rows(2)
+    """
+    hits = found(query, code)
+    # The Library Reference, "copy": `copy.copy(x)` and `copy.deepcopy(x)` return a copy of x.
+    assert at(hits, 6, "T-STACK") == "resolved"  # the Table main passes, copied
+    assert at(hits, 8, "C-PAIRS") == "resolved"
+    assert at(hits, 9, "T-STACK") == "resolved"

@@ -55,4 +55,14 @@ def fact_of(node: cst.BaseExpression, value: Value) -> Fact:
     return UNKNOWN_FACT
 
 
-__all__ = ["fact_of", "literal_of"]
+def string_keys(node: cst.Dict) -> tuple[str, ...]:
+    """The keys of a dict display that are string literals (`{"alpha": a, **rest}`: "alpha")."""
+    out = []
+    for el in node.elements:
+        key = getattr(el, "key", None)
+        if isinstance(key, cst.SimpleString) and isinstance(key.evaluated_value, str):
+            out.append(key.evaluated_value)
+    return tuple(out)
+
+
+__all__ = ["fact_of", "literal_of", "string_keys"]

@@ -7,13 +7,14 @@ from typing import Callable, Sequence
 
 import libcst as cst
 
-from impactscope.resolve.arguments import fact_of, literal_of
+from impactscope.resolve.arguments import fact_of, literal_of, string_keys
 from impactscope.resolve.definitions import note_arguments
 from impactscope.resolve.overloads import Fact, select
 from impactscope.resolve.refs import CallShape
 from impactscope.resolve.scopes import Scope
 from impactscope.resolve.values import (
     UNKNOWN,
+    Display,
     Foreign,
     Inst,
     NOT_LIBRARY,
@@ -48,7 +49,7 @@ _BUILTIN_RESULTS = frozenset(
 class Calls(Walk):
     def call(self, node: cst.Call, scope: Scope) -> Value:
         # The references the callee itself yields carry the call's shape (patterns show it).
-        func = self.expr(node.func, scope, call=call_shape(node.args))
+        func = self.expr(node.func, scope, call=call_shape(node.args, self._dict_keys(node.args, scope)))
         values = [plain(self.expr(arg.value, scope)) for arg in node.args]
         given = note_arguments(func, node, values) if isinstance(func, UserFunc) else None
         if isinstance(func, Foreign) and func.name in ("importlib.import_module", "builtins.__import__"):
@@ -60,6 +61,10 @@ class Calls(Walk):
             if isinstance(of, UserInst):
                 return of.cls
             return UNKNOWN
+        if (isinstance(func, Foreign) and func.name in ("copy.copy", "copy.deepcopy") and node.args
+                and not node.args[0].star and node.args[0].keyword is None):
+            # The Library Reference, "copy": a shallow or deep copy of x is an object of x's class.
+            return values[0]
         if isinstance(func, Foreign) and func.name == "builtins.super":
             owner = scope.method_owner()
             return Super(owner) if owner is not None else UNKNOWN
@@ -121,6 +126,23 @@ class Calls(Walk):
             if self.q.model.kind(f"{right.cls}.{reflected}") is not None:
                 return self.call_dunder(right.cls, reflected, left_node, left)
         return UNKNOWN
+
+    def _dict_keys(self, args: Sequence[cst.Arg], scope: Scope) -> tuple[str, ...]:
+        """Keywords a `**d` argument surely passes: the string keys of the dict display `d` is
+        bound to (or is). Later `d.update(...)` only adds keys; a `del d[k]` would take one away,
+        which is rare enough to be left out."""
+        keys: list[str] = []
+        for arg in args:
+            if arg.star != "**":
+                continue
+            value = arg.value
+            if isinstance(value, cst.Dict):
+                keys.extend(string_keys(value))
+            elif isinstance(value, cst.Name):
+                bound = self.lookup(scope, value.value)  # type: ignore[attr-defined]
+                if isinstance(bound, Display) and bound.kind == "dict":
+                    keys.extend(bound.keys)
+        return tuple(keys)
 
     def call_dunder(self, cls: str, method: str, other: cst.BaseExpression | None = None,
                     value: Value = UNKNOWN) -> Value:
@@ -186,10 +208,11 @@ COMPARISON = {
 UNARY = {"Minus": "__neg__", "Plus": "__pos__", "BitInvert": "__invert__"}
 
 
-def call_shape(args: Sequence[cst.Arg]) -> CallShape:
+def call_shape(args: Sequence[cst.Arg], unpacked: Sequence[str] = ()) -> CallShape:
+    """The call's shape; `unpacked`: keywords a `**` argument is known to pass."""
     positional = 0
     star = starstar = False
-    keywords: list[str] = []
+    keywords: list[str] = list(unpacked)
     for arg in args:
         if arg.star == "**":
             starstar = True
@@ -199,7 +222,7 @@ def call_shape(args: Sequence[cst.Arg]) -> CallShape:
             keywords.append(arg.keyword.value)
         elif not star:
             positional += 1
-    return CallShape(positional=positional, star=star, starstar=starstar, keywords=tuple(sorted(keywords)))
+    return CallShape(positional=positional, star=star, starstar=starstar, keywords=tuple(sorted(set(keywords))))
 
 def instance_of(classes: tuple[str, ...]) -> Value:
     if not classes:

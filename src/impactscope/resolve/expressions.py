@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import libcst as cst
 
-from impactscope.resolve.arguments import fact_of
+from impactscope.resolve.arguments import fact_of, string_keys
 from impactscope.resolve.calls import BINARY, COMPARISON, UNARY, instance_of
 from impactscope.resolve.definitions import all_params
 from impactscope.resolve.overloads import UNKNOWN_FACT, Fact
@@ -78,7 +78,7 @@ class Expressions(Walk):
             for el in node.elements:
                 self.expr(el.key, scope)  # type: ignore[union-attr]
                 values.append(self.expr(el.value, scope))
-            return Display("literal", "dict", tuple(values))
+            return Display("literal", "dict", tuple(values), keys=string_keys(node))
         if isinstance(node, (cst.FormattedString, cst.List, cst.Tuple, cst.Set, cst.Dict)):
             self.generic(node, scope)
             return Foreign("literal")

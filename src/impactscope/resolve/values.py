@@ -65,6 +65,7 @@ class Display(Foreign):
 
     kind: str = "list"
     items: tuple["Value", ...] = ()
+    keys: tuple[str, ...] = ()  # a dict display's string-literal keys: what `**d` surely passes
 
 
 @dataclass(frozen=True)
