@@ -209,11 +209,11 @@ class ProjectResolver:
                 fa.matched_refs = len(fa.result.refs)
                 fa.matched_in_user = in_user
                 fa.matched_broken = fa.result.fails_on_old
-                if fa.result.fails_on_old:
-                    # Said, not acted on: its lines still spell the changed members, and a fix of
-                    # the other import would bring them to life.
-                    note = f"fails to import on the library's old release already ({fa.result.fails_on_old} is not there)"
-                    fa.detail = f"{fa.detail}; {note}" if fa.detail and note not in fa.detail else fa.detail or note
+                # Said, not acted on: its lines still spell the changed members, and a fix of the
+                # other import would bring them to life.
+                note = f"fails to import on the library's old release already ({fa.result.fails_on_old} is not there)"
+                if fa.result.fails_on_old and note not in fa.detail:
+                    fa.detail = f"{fa.detail}; {note}" if fa.detail else note
 
     def _resume(self) -> None:
         """Read again the bodies that calls from other modules sent back (each at most once)."""
