@@ -1,4 +1,4 @@
-"""Types a function's docstring documents for its parameters and its return value.
+"""Types a docstring documents: a function's parameters and return value, a class's attributes.
 
 Most data-science code declares its types in docstrings rather than annotations. Three layouts
 are read, as their own guides define them:
@@ -24,6 +24,9 @@ import re
 from dataclasses import dataclass, field
 from typing import Mapping
 
+# An entry or a type field is a short line; a longer one is prose (or hostile), and the patterns
+# below are not run on it, so no line can make them slow.
+_LONGEST_LINE = 300
 _DOTTED = re.compile(r"[A-Za-z_]\w*(?:\.[A-Za-z_]\w*)*")
 _NAME = re.compile(r"\*{0,2}[A-Za-z_]\w*")
 _NUMPY_PARAMS = frozenset({"parameters", "other parameters", "params", "arguments"})
@@ -72,11 +75,6 @@ def single_type(text: str) -> str | None:
     if any(keyword.iskeyword(part) for part in kept[0].split(".")):
         return None  # "class", "lambda": words, not a name one could import
     return kept[0]
-
-
-# An entry or a type field is a short line; a longer one is prose (or hostile), and the patterns
-# below are not run on it, so no line can make them slow.
-_LONGEST_LINE = 300
 
 
 def documented_types(docstring: str) -> DocumentedTypes:
