@@ -251,8 +251,8 @@ class Expressions(Walk):
             # The topmost ones: a subclass of one listed owns what its ancestor owns.
             out.extend(sorted(c for c in found if not any(a in found for a in self.q.model.mro(c)[1:])))
             out.append(NOT_LIBRARY)
-        # A class that has the name, nor any subclass of it, would raise AttributeError here on the
-        # release the code runs on: where another class has the name, the use is that class's.
+        # On a class that lacks the name, as do all its subclasses, the use would raise AttributeError
+        # on the release the code runs on: where another class has the name, the use is that class's.
         return tuple(dict.fromkeys(out or lacking))
 
     def _unlinked(self, value: Value) -> bool:

@@ -48,11 +48,7 @@ class Imports(Walk):
             else:
                 found = self.project.find_module(dotted, self.importer)
                 if found is not None:
-                    self.result.imported.add(found)
-                    if self._always_runs(s):
-                        self.result.imported_first.add(found)
-                    if self.project.module_uses_library(found):
-                        self.result.uses_library = True
+                    self._imports_project(found, s)
                     value = ProjMod(found)
                     top_name = found[: len(found) - len(dotted)] + dotted.split(".")[0] if found.endswith(dotted) else found
                     top = ProjMod(top_name)
@@ -63,6 +59,14 @@ class Imports(Walk):
                 self.assign(alias.asname.name, value, scope)
             else:
                 self.bind(scope, dotted.split(".")[0], top)
+
+    def _imports_project(self, module: str, s: cst.CSTNode) -> None:
+        """Note that statement `s` imports the project's own `module` (and through it, maybe, the library)."""
+        self.result.imported.add(module)
+        if self._always_runs(s):
+            self.result.imported_first.add(module)
+        if self.project.module_uses_library(module):
+            self.result.uses_library = True
 
     def _always_runs(self, s: cst.CSTNode) -> bool:
         """A module's own top-level statement, outside any `if`, `try` or definition: it runs on
@@ -121,11 +125,7 @@ class Imports(Walk):
             project_mod = self.project.find_module(dotted, self.importer)
         if project_mod is not None:
             if project_mod:
-                self.result.imported.add(project_mod)
-                if self._always_runs(s):
-                    self.result.imported_first.add(project_mod)
-            if project_mod and self.project.module_uses_library(project_mod):
-                self.result.uses_library = True
+                self._imports_project(project_mod, s)
             if isinstance(s.names, cst.ImportStar):
                 for name, value in self.project.star_exports(project_mod).items():
                     self.bind(scope, name, value)
@@ -134,11 +134,7 @@ class Imports(Walk):
                 name = get_full_name_for_node(alias.name) or ""
                 sub = f"{project_mod}.{name}" if project_mod else name
                 if self.is_project_module(sub):
-                    self.result.imported.add(sub)
-                    if self._always_runs(s):
-                        self.result.imported_first.add(sub)
-                    if self.project.module_uses_library(sub):
-                        self.result.uses_library = True
+                    self._imports_project(sub, s)
                     value: Value = ProjMod(sub)
                 else:
                     value = self.export_of(project_mod, name)

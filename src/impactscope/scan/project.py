@@ -134,10 +134,11 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         else:
             sources[path] = deep
     # A file that failed before the resolver is no module of the project for the others either.
-    # Whether any file imports the library, resolved or not: a helper that never imports it may
-    # still be handed its objects (docs/findings.md, the upper bound).
-    in_user = any(shortcuts.imports_library(text) for text in texts.values())
-    resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults}, in_user)
+    # The files with an import line of the library, resolved or not: in a project that has one, a
+    # helper that never imports it may still be handed its objects (docs/findings.md, the upper bound).
+    importers = {path for path, text in texts.items() if shortcuts.imports_library(text)}
+    resolver = ProjectResolver(project.name, query, {p: s for p, s in sources.items() if p not in faults},
+                               bool(importers))
     for path in sorted(keep):
         try:
             clock.run(path, resolver.analyse, path)
@@ -189,9 +190,7 @@ def scan_project(project: Project, query: Query, *, prefilter: bool = True, narr
         # Files the prefilter passed over may still import the library without touching a change.
         # So may files that did not parse (Python 2), read by the same import-line test.
         result.uses_library = any(
-            shortcuts.imports_library(texts[p])
-            for p in texts
-            if p not in resolver.files or resolver.files[p].result is None
+            p not in resolver.files or resolver.files[p].result is None for p in importers
         )
     result.files = [outcomes[p] for p in order]
     result.findings.sort()
